@@ -1,0 +1,179 @@
+"""The one unit registry, and parsing of typed quantities into SI floats at the edge."""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+
+import pint
+
+ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+# Trade shorthands that pint does not define; US gallons, as the trade uses them.
+ureg.define("gpm = gallon / minute")
+ureg.define("mgd = 1e6 * gallon / day")
+ureg.define("lps = liter / second")
+Q_ = ureg.Quantity
+
+
+class InputError(ValueError):
+    """Impossible input: names the field (as a path into the sheet), the value and what was expected."""
+
+    def __init__(self, path: str, value: object, message: str):
+        self.path = path
+        self.value = value
+        self.message = message
+        super().__init__(f"{path}: {message} (got {value!r})")
+
+
+@dataclass(frozen=True)
+class Kind:
+    """A kind of quantity a field holds: its name in messages, SI unit, and a typed example."""
+
+    name: str
+    si: str
+    example: str
+    dimensionality: object = None
+
+
+def _kind(name: str, si: str, example: str) -> Kind:
+    return Kind(name, si, example, Q_(1, si).dimensionality)
+
+
+LENGTH = _kind("a length", "m", "150 mm")
+FLOW = _kind("a flow rate", "m^3/s", "40 L/s")
+PRESSURE = _kind("a pressure", "Pa", "3 bar")
+POWER = _kind("a power", "W", "40 kW")
+DENSITY = _kind("a density", "kg/m^3", "998 kg/m^3")
+VISCOSITY = _kind("a dynamic viscosity", "Pa*s", "1.0 mPa*s")
+MODULUS = _kind("an elastic modulus", "Pa", "2.19 GPa")
+TEMPERATURE = _kind("a temperature", "K", "12 degC")
+SPEED = _kind("a velocity", "m/s", "2 m/s")
+RATIO = _kind("a plain number or percentage", "", "0.85 or 85 %")
+
+_NUMBER = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*?)\s*$")
+
+
+def parse_quantity(text: object, kind: Kind, path: str) -> float:
+    """Parse ``text`` such as ``'150 mm'`` into an SI float of ``kind``.
+
+    A bare number is accepted only for plain ratios; every physical quantity
+    needs its unit, since a missing unit is the commonest mistake on a sheet.
+
+    >>> round(parse_quantity("6 in", LENGTH, "pipe.diameter"), 12)
+    0.1524
+    >>> round(parse_quantity("12 degC", TEMPERATURE, "liquid.temperature"), 2)
+    285.15
+    >>> parse_quantity("85 %", RATIO, "turbine.efficiency")
+    0.85
+    """
+    if isinstance(text, bool):
+        raise InputError(path, text, f"must be {kind.name}, e.g. {kind.example}")
+    if isinstance(text, (int, float)):
+        if kind is RATIO:
+            value = float(text)
+            if not math.isfinite(value):
+                raise InputError(path, text, "must be a finite number")
+            return value
+        raise InputError(path, text, f"needs a unit: {kind.name}, e.g. {kind.example}")
+    if not isinstance(text, str) or not text.strip():
+        raise InputError(path, text, f"is empty: enter {kind.name}, e.g. {kind.example}")
+    if len(text) > 64:
+        raise InputError(path, text[:64] + "…", "is too long for a value with its unit")
+    m = _NUMBER.match(text.replace("\u2212", "-"))
+    if not m:
+        raise InputError(path, text, f"must start with a number: {kind.name}, e.g. {kind.example}")
+    number = float(m.group(1))
+    unit = m.group(2)
+    if not math.isfinite(number):
+        raise InputError(path, text, "must be a finite number")
+    if not unit:
+        if kind is RATIO:
+            return number
+        raise InputError(path, text, f"needs a unit: {kind.name}, e.g. {kind.example}")
+    try:
+        q = Q_(number, unit)
+    except Exception:  # pint's parser raises assorted error types on garbage
+        raise InputError(path, text, f"'{unit}' is not a unit we know: enter {kind.name}, e.g. {kind.example}") from None
+    if q.dimensionality != kind.dimensionality:
+        raise InputError(path, text, f"must be {kind.name}, e.g. {kind.example}")
+    value = float(q.to(kind.si).magnitude) if kind.si else float(q.to("dimensionless").magnitude)
+    if not math.isfinite(value):
+        raise InputError(path, text, "must be a finite number")
+    return value
+
+
+# Display unit systems: quantity kind -> (unit for pint, label on screen).
+DISPLAY = {
+    "SI": {
+        "flow": ("L/s", "L/s"),
+        "length": ("m", "m"),
+        "head": ("m", "m"),
+        "diameter": ("mm", "mm"),
+        "roughness": ("mm", "mm"),
+        "velocity": ("m/s", "m/s"),
+        "pressure": ("kPa", "kPa"),
+        "power": ("kW", "kW"),
+        "speed": ("m/s", "m/s"),
+    },
+    "US": {
+        "flow": ("gpm", "gpm"),
+        "length": ("ft", "ft"),
+        "head": ("ft", "ft"),
+        "diameter": ("in", "in"),
+        "roughness": ("in", "in"),
+        "velocity": ("ft/s", "ft/s"),
+        "pressure": ("psi", "psi"),
+        "power": ("hp", "hp"),
+        "speed": ("ft/s", "ft/s"),
+    },
+}
+
+_SI_OF = {
+    "flow": "m^3/s",
+    "length": "m",
+    "head": "m",
+    "diameter": "m",
+    "roughness": "m",
+    "velocity": "m/s",
+    "pressure": "Pa",
+    "power": "W",
+    "speed": "m/s",
+}
+_FACTORS: dict[tuple[str, str], float] = {}
+
+
+def to_display(value_si: float, quantity: str, system: str = "SI") -> tuple[float, str]:
+    """Convert an SI float to the display unit of ``system``; returns (value, unit label).
+
+    >>> value, label = to_display(0.04, "flow", "SI"); round(value, 9), label
+    (40.0, 'L/s')
+    """
+    unit, label = DISPLAY[system][quantity]
+    key = (quantity, system)
+    factor = _FACTORS.get(key)
+    if factor is None:
+        factor = float(Q_(1.0, _SI_OF[quantity]).to(unit).magnitude)
+        _FACTORS[key] = factor
+    return value_si * factor, label
+
+
+def fmt(value: float | None, sig: int = 4) -> str:
+    """A number with ``sig`` significant figures, no exponent for everyday magnitudes; a dash for NaN.
+
+    >>> fmt(0.0123456)
+    '0.01235'
+    >>> fmt(123456.0)
+    '123456'
+    >>> fmt(float('nan'))
+    '–'
+    """
+    if value is None or not math.isfinite(value):
+        return "–"
+    if value == 0:
+        return "0"
+    mag = math.floor(math.log10(abs(value)))
+    if mag >= 6 or mag <= -5:
+        return f"{value:.{sig - 1}e}"
+    decimals = max(sig - 1 - mag, 0)
+    return f"{value:.{decimals}f}"
