@@ -1,0 +1,300 @@
+"""The sheet store: one SQLite file holding sheets and an append-only table of their revisions."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import sqlite3
+from contextlib import contextmanager
+from dataclasses import dataclass
+from datetime import datetime, timezone
+from pathlib import Path
+from typing import Any, Iterator
+
+DB_NAME = "headsheet.sqlite"
+SCHEMA_VERSION = 1
+
+# Revisions are the record of the engineering work, so the database itself refuses to
+# rewrite or delete them; only `frozen` may change, and only from 0 to 1 (for sign-off).
+_SCHEMA = """
+CREATE TABLE IF NOT EXISTS meta (
+    key   TEXT PRIMARY KEY,
+    value TEXT NOT NULL
+);
+CREATE TABLE IF NOT EXISTS sheets (
+    id          INTEGER PRIMARY KEY AUTOINCREMENT,
+    created     TEXT NOT NULL,
+    archived    INTEGER NOT NULL DEFAULT 0,
+    archived_at TEXT
+);
+CREATE TABLE IF NOT EXISTS revisions (
+    sheet_id  INTEGER NOT NULL REFERENCES sheets(id),
+    number    INTEGER NOT NULL,
+    document  TEXT NOT NULL,
+    digest    TEXT NOT NULL,
+    created   TEXT NOT NULL,
+    author    TEXT NOT NULL DEFAULT '',
+    note      TEXT NOT NULL DEFAULT '',
+    base      INTEGER,
+    frozen    INTEGER NOT NULL DEFAULT 0,
+    PRIMARY KEY (sheet_id, number)
+);
+CREATE TRIGGER IF NOT EXISTS revisions_append_only
+BEFORE UPDATE OF sheet_id, number, document, digest, created, author, note, base ON revisions
+BEGIN SELECT RAISE(ABORT, 'revisions are append-only'); END;
+CREATE TRIGGER IF NOT EXISTS revisions_stay_frozen
+BEFORE UPDATE OF frozen ON revisions WHEN NEW.frozen < OLD.frozen
+BEGIN SELECT RAISE(ABORT, 'a frozen revision stays frozen'); END;
+CREATE TRIGGER IF NOT EXISTS revisions_never_deleted
+BEFORE DELETE ON revisions
+BEGIN SELECT RAISE(ABORT, 'revisions are never deleted'); END;
+CREATE TRIGGER IF NOT EXISTS sheets_never_deleted
+BEFORE DELETE ON sheets
+BEGIN SELECT RAISE(ABORT, 'sheets are archived, never deleted'); END;
+"""
+
+
+def dump_document(document: Any) -> str:
+    """The one serialisation of a sheet document: key order kept, compact, UTF-8, no NaN."""
+    return json.dumps(document, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
+
+
+def digest_of(text: str) -> str:
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def _now() -> str:
+    return datetime.now(timezone.utc).isoformat(timespec="milliseconds")
+
+
+@dataclass(frozen=True)
+class Revision:
+    """One stored state of a sheet."""
+
+    sheet_id: int
+    number: int
+    document_json: str
+    digest: str
+    created: str
+    author: str
+    note: str
+    base: int | None
+    frozen: bool
+
+    @property
+    def document(self) -> dict:
+        return json.loads(self.document_json)
+
+
+@dataclass(frozen=True)
+class SheetSummary:
+    """A row of the sheet list: the sheet and facts from its latest revision."""
+
+    id: int
+    created: str
+    archived: bool
+    revision: int
+    changed: str
+    title: str
+    calc_number: str
+    project: str
+
+
+class StoreError(Exception):
+    """Base class of the store's refusals."""
+
+
+class SheetNotFound(StoreError, LookupError):
+    def __init__(self, sheet_id: int, number: int | None = None):
+        self.sheet_id = sheet_id
+        self.number = number
+        what = f"sheet {sheet_id}" if number is None else f"revision {number} of sheet {sheet_id}"
+        super().__init__(f"There is no {what}.")
+
+
+class StaleRevision(StoreError):
+    """An edit based on a revision that is no longer the latest: refused, never merged."""
+
+    def __init__(self, sheet_id: int, base: int | None, current: Revision):
+        self.sheet_id = sheet_id
+        self.base = base
+        self.current = current
+        super().__init__(
+            f"Sheet {sheet_id} was changed after revision {base}: it is now at revision {current.number}. "
+            "The edit was not saved; reload the sheet and make the change again."
+        )
+
+
+_REVISION_COLUMNS = "sheet_id, number, document, digest, created, author, note, base, frozen"
+
+
+def _revision(row: sqlite3.Row | tuple) -> Revision:
+    sheet_id, number, document, digest, created, author, note, base, frozen = row
+    return Revision(sheet_id, number, document, digest, created, author, note, base, bool(frozen))
+
+
+def _text(value: Any) -> str:
+    return value if isinstance(value, str) else ""
+
+
+class Store:
+    """All SQL of the program. One connection per call: cheap with SQLite, and safe across threads."""
+
+    def __init__(self, data_dir: Path):
+        self.data_dir = Path(data_dir)
+        self.data_dir.mkdir(parents=True, exist_ok=True)
+        self.path = self.data_dir / DB_NAME
+        with self._connect() as con:
+            # WAL lets readers carry on during a write; it is a property of the file, so set once.
+            con.execute("PRAGMA journal_mode=WAL")
+            con.executescript(_SCHEMA)
+            con.execute(f"PRAGMA user_version={SCHEMA_VERSION}")
+
+    @contextmanager
+    def _connect(self) -> Iterator[sqlite3.Connection]:
+        con = sqlite3.connect(self.path, timeout=10, isolation_level=None, check_same_thread=False)
+        try:
+            con.execute("PRAGMA synchronous=FULL")  # a saved revision survives a power cut
+            con.execute("PRAGMA busy_timeout=10000")
+            con.execute("PRAGMA foreign_keys=ON")
+            yield con
+        finally:
+            con.close()
+
+    @contextmanager
+    def _write(self) -> Iterator[sqlite3.Connection]:
+        """A write transaction that takes the lock at once, so a busy database waits instead of failing midway."""
+        with self._connect() as con:
+            con.execute("BEGIN IMMEDIATE")
+            try:
+                yield con
+            except BaseException:
+                con.execute("ROLLBACK")
+                raise
+            con.execute("COMMIT")
+
+    # -- reading ---------------------------------------------------------------------------
+
+    _SUMMARY_SQL = """
+        SELECT s.id, s.created, s.archived, r.number, r.created,
+               json_extract(r.document, '$.header.title'),
+               json_extract(r.document, '$.header.calc_number'),
+               json_extract(r.document, '$.header.project')
+        FROM sheets s
+        JOIN revisions r ON r.sheet_id = s.id
+         AND r.number = (SELECT MAX(number) FROM revisions WHERE sheet_id = s.id)
+    """
+
+    def _summaries(self, where: str, params: tuple) -> list[SheetSummary]:
+        with self._connect() as con:
+            rows = con.execute(f"{self._SUMMARY_SQL} WHERE {where} ORDER BY r.created DESC, s.id DESC", params).fetchall()
+        return [
+            SheetSummary(id_, created, bool(arch), number, changed, _text(title), _text(calc), _text(project))
+            for id_, created, arch, number, changed, title, calc, project in rows
+        ]
+
+    def list_sheets(self, archived: bool = False) -> list[SheetSummary]:
+        """Sheets, most recently changed first; archived ones only when asked for."""
+        return self._summaries("s.archived = ?", (1 if archived else 0,))
+
+    def sheet(self, sheet_id: int) -> SheetSummary:
+        found = self._summaries("s.id = ?", (sheet_id,))
+        if not found:
+            raise SheetNotFound(sheet_id)
+        return found[0]
+
+    def latest(self, sheet_id: int) -> Revision:
+        with self._connect() as con:
+            row = con.execute(
+                f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? ORDER BY number DESC LIMIT 1",
+                (sheet_id,),
+            ).fetchone()
+        if row is None:
+            raise SheetNotFound(sheet_id)
+        return _revision(row)
+
+    def revision(self, sheet_id: int, number: int) -> Revision:
+        with self._connect() as con:
+            row = con.execute(
+                f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? AND number = ?",
+                (sheet_id, number),
+            ).fetchone()
+        if row is None:
+            raise SheetNotFound(sheet_id, number)
+        return _revision(row)
+
+    def revisions(self, sheet_id: int) -> list[Revision]:
+        """Every revision of a sheet, newest first."""
+        with self._connect() as con:
+            rows = con.execute(
+                f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? ORDER BY number DESC",
+                (sheet_id,),
+            ).fetchall()
+        if not rows:
+            raise SheetNotFound(sheet_id)
+        return [_revision(r) for r in rows]
+
+    # -- writing ---------------------------------------------------------------------------
+
+    def create_sheet(self, document: dict, author: str = "", note: str = "") -> Revision:
+        text = dump_document(document)
+        now = _now()
+        with self._write() as con:
+            return self._create(con, text, now, author, note)
+
+    def _create(self, con: sqlite3.Connection, text: str, now: str, author: str, note: str) -> Revision:
+        sheet_id = con.execute("INSERT INTO sheets (created) VALUES (?)", (now,)).lastrowid
+        con.execute(
+            f"INSERT INTO revisions ({_REVISION_COLUMNS}) VALUES (?, 1, ?, ?, ?, ?, ?, NULL, 0)",
+            (sheet_id, text, digest_of(text), now, author, note),
+        )
+        return Revision(sheet_id, 1, text, digest_of(text), now, author, note, None, False)
+
+    def add_revision(
+        self, sheet_id: int, document: dict, base: int | None, author: str = "", note: str = ""
+    ) -> tuple[Revision, bool]:
+        """Append a revision based on revision ``base``; returns (latest revision, whether one was added).
+
+        Raises StaleRevision when ``base`` is not the latest revision. A document equal to the
+        latest one adds nothing, so repeated posts of the same form do not pad the history.
+        """
+        text = dump_document(document)
+        digest = digest_of(text)
+        with self._write() as con:
+            row = con.execute(
+                f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? ORDER BY number DESC LIMIT 1",
+                (sheet_id,),
+            ).fetchone()
+            if row is None:
+                raise SheetNotFound(sheet_id)
+            current = _revision(row)
+            if base != current.number:
+                raise StaleRevision(sheet_id, base, current)
+            if digest == current.digest:
+                return current, False
+            now = _now()
+            number = current.number + 1
+            con.execute(
+                f"INSERT INTO revisions ({_REVISION_COLUMNS}) VALUES (?, ?, ?, ?, ?, ?, ?, ?, 0)",
+                (sheet_id, number, text, digest, now, author, note, base),
+            )
+        return Revision(sheet_id, number, text, digest, now, author, note, base, False), True
+
+    def set_archived(self, sheet_id: int, archived: bool) -> None:
+        with self._write() as con:
+            cur = con.execute(
+                "UPDATE sheets SET archived = ?, archived_at = ? WHERE id = ?",
+                (1 if archived else 0, _now() if archived else None, sheet_id),
+            )
+            if cur.rowcount == 0:
+                raise SheetNotFound(sheet_id)
+
+    def seed_once(self, documents: list[tuple[str, dict]]) -> list[Revision]:
+        """Create one sheet per (name, document) the first time the store is used, and never again."""
+        with self._write() as con:
+            if con.execute("SELECT 1 FROM meta WHERE key = 'seeded'").fetchone():
+                return []
+            now = _now()
+            created = [self._create(con, dump_document(doc), now, "", f"demo sheet {name}") for name, doc in documents]
+            con.execute("INSERT INTO meta (key, value) VALUES ('seeded', ?)", (now,))
+        return created
