@@ -1,0 +1,100 @@
+"""Benchmark: median time to solve a 12-element line with a turbine, against a plain reference script.
+
+Run by hand: python benchmarks/solve.py
+The plain script uses the `fluids` friction library (a test dependency) and scipy brentq, and
+finds the same two operating points the way a careful spreadsheet user would script it.
+"""
+
+from __future__ import annotations
+
+import math
+import statistics
+import sys
+import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+from calc.sheet import parse  # noqa: E402
+from calc.solve import solve  # noqa: E402
+from calc.water import G  # noqa: E402
+
+
+def twelve_element_doc() -> dict:
+    """A penstock in nine runs with a valve, an isolating valve and a turbine (12 elements)."""
+    runs = []
+    z = 409.0
+    for i in range(9):
+        z -= 9.0
+        runs.append({"kind": "pipe", "label": f"Run {i + 1}", "length": f"{120 + 10 * i} m",
+                     "diameter": "300 mm" if i < 5 else "280 mm", "roughness": "0.05 mm", "material": "",
+                     "end_elevation": f"{z} m",
+                     "fittings": [{"type": "k", "K": "0.25", "count": 2}]})
+    elements = runs[:4] + [{"kind": "valve", "label": "Butterfly", "K": "0.3", "diameter": ""}] + runs[4:]
+    elements += [{"kind": "valve", "label": "Inlet valve", "K": "0.2", "diameter": ""},
+                 {"kind": "turbine", "label": "T1", "mode": "power", "power": "70 kW", "efficiency": "0.86"}]
+    return {"format": "headsheet-sheet", "version": 1,
+            "header": {"title": "benchmark"}, "liquid": {"kind": "water", "temperature": "10 degC"},
+            "start": {"kind": "reservoir", "elevation": "412 m", "outlet_elevation": "409 m"},
+            "end": {"kind": "reservoir", "elevation": "320 m"},
+            "elements": elements}
+
+
+def plain_reference(line):
+    """The plain script: a residual with fluids' friction factor, brentq on both sides of the power peak."""
+    import fluids.friction
+    from scipy.optimize import brentq, minimize_scalar
+
+    rho, mu = line.liquid.rho, line.liquid.mu
+    pipes = []
+    for el in line.elements:
+        if el.kind == "pipe":
+            pipes.append((el.L, el.D, el.eps, sum(f.count * f.params["K"] for f in el.fittings)))
+        elif el.kind == "valve":
+            pipes.append((0.0, el.D, 0.0, el.K))
+    turbine = line.elements[-1]
+    gross = line.start.elevation - line.end.elevation
+
+    def losses(Q):
+        h = 0.0
+        for L, D, eps, K in pipes:
+            V = Q / (math.pi * D * D / 4)
+            f = fluids.friction.friction_factor(rho * V * D / mu, eps / D) if L else 0.0
+            h += (f * L / D + K) * V * V / (2 * G)
+        return h
+
+    def E(Q):
+        return gross - losses(Q) - turbine.power / (turbine.efficiency * rho * G * Q)
+
+    peak = minimize_scalar(lambda Q: -(Q * (gross - losses(Q))), bounds=(1e-4, 5.0), method="bounded").x
+    return brentq(E, 1e-4, peak, xtol=1e-15), brentq(E, peak, 5.0, xtol=1e-15)
+
+
+def median_time(fn, repeat=300) -> float:
+    for _ in range(10):
+        fn()
+    times = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t)
+    return statistics.median(times)
+
+
+def main() -> None:
+    line = parse(twelve_element_doc()).line
+    sol = solve(line)
+    ref = plain_reference(line)
+    ours = [p["Q"] for p in sol.points]
+    print(f"operating points: headsheet {[f'{q:.6f}' for q in ours]} m3/s; plain script {[f'{q:.6f}' for q in ref]} m3/s")
+    t_ours = median_time(lambda: solve(line))
+    t_ref = median_time(lambda: plain_reference(line))
+    t_parse = median_time(lambda: parse(twelve_element_doc()))
+    print(f"headsheet solve (12 elements, all points, full detail): median {t_ours * 1e3:.3f} ms")
+    print(f"plain script (fluids + brentq, two points, no detail):  median {t_ref * 1e3:.3f} ms")
+    print(f"parse of the sheet document:                            median {t_parse * 1e3:.3f} ms")
+    print(f"ratio headsheet / plain: {t_ours / t_ref:.2f}")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,207 @@
+"""The `headsheet` command: solve a sheet file, print its schema, answer inverse questions, serve the sheet."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+
+from calc.units import FLOW, InputError, fmt, parse_quantity, to_display
+
+
+def _load(path: str):
+    """Read and parse a sheet file; print the errors and exit 2 when it does not parse."""
+    from calc.sheet import parse
+
+    try:
+        doc = json.loads(Path(path).read_text(encoding="utf-8"))
+    except OSError as e:
+        sys.exit(f"headsheet: cannot read {path}: {e.strerror}")
+    except json.JSONDecodeError as e:
+        sys.exit(f"headsheet: {path} is not valid JSON: {e.msg} at line {e.lineno}, column {e.colno}")
+    parsed = parse(doc)
+    if not parsed.ok:
+        lines = [f"headsheet: {path} has {len(parsed.errors)} error(s):"]
+        lines += [f"  {e.path or '(sheet)'}: {e.message} (got {e.value!r})" for e in parsed.errors]
+        print("\n".join(lines), file=sys.stderr)
+        sys.exit(2)
+    return doc, parsed.line
+
+
+def _flow(text: str) -> float:
+    try:
+        return parse_quantity(text, FLOW, "--flow")
+    except InputError as e:
+        sys.exit(f"headsheet: --flow {e.message}")
+
+
+def cmd_solve(args) -> int:
+    from calc.solve import solve
+
+    doc, line = _load(args.file)
+    sol = solve(line)
+    if args.json:
+        json.dump(sol.to_dict(), sys.stdout, indent=2)
+        print()
+        return 0 if sol.points else 1
+    print(format_solution(sol, line.header.get("units", "SI"), doc.get("header", {}).get("title", "")))
+    return 0 if sol.points else 1
+
+
+def _u(value, quantity, system, sig=4):
+    v, label = to_display(value, quantity, system)
+    return f"{fmt(v, sig)} {label}"
+
+
+def format_solution(sol, system: str = "SI", title: str = "") -> str:
+    """A plain-text table of the solution, for the terminal."""
+    out = []
+    if title:
+        out.append(title)
+        out.append("=" * len(title))
+    liq = sol.liquid
+    out.append(f"Liquid: {liq['name']}, rho {fmt(liq['rho'], 6)} kg/m3, mu {fmt(liq['mu'] * 1e3, 4)} mPa s, "
+               f"p_vap {fmt(liq['p_vap'] / 1e3, 4)} kPa abs")
+    out.append(f"Friction: {sol.method}; static head start - end: {_u(sol.static_head, 'head', system)}")
+    out.append(f"Result: {sol.message}")
+    if sol.no_point:
+        np_ = sol.no_point
+        if np_.get("max_power"):
+            out.append(f"  largest shaft power the line can give: {_u(np_['max_power'], 'power', system)} "
+                       f"at {_u(np_['Q_at_max'], 'flow', system)}")
+    for k, p in enumerate(sol.points):
+        mark = "design point" if p["is_design"] else "other point"
+        out.append("")
+        out.append(f"Operating point {k + 1} ({mark}): Q = {_u(p['Q'], 'flow', system)}; "
+                   f"energy residual {p['residual']:.1e} m")
+        out.append(f"  {p['why']}")
+        hdr = f"  {'element':<22} {'V':>10} {'Re':>10} {'f':>8} {'h friction':>12} {'h fittings':>12} {'head':>12} {'power':>11}"
+        out.append(hdr)
+        for d in p["elements"]:
+            name = (d["label"] or d["kind"])[:22]
+            if d["kind"] == "pipe":
+                out.append(f"  {name:<22} {_u(d['V'], 'velocity', system):>10} {fmt(d['Re'], 4):>10} "
+                           f"{fmt(d['f'], 4):>8} {_u(d['h_friction'], 'head', system):>12} "
+                           f"{_u(d['h_fittings'], 'head', system):>12} {'':>12} {'':>11}")
+            elif d["kind"] in ("turbine", "pump"):
+                power = d.get("power_shaft")
+                out.append(f"  {name:<22} {'':>10} {'':>10} {'':>8} {'':>12} {'':>12} "
+                           f"{_u(d['head'], 'head', system):>12} "
+                           f"{_u(power, 'power', system) if power is not None else '–':>11}")
+            else:
+                out.append(f"  {name:<22} {_u(d['V'], 'velocity', system):>10} {'':>10} {'':>8} {'':>12} "
+                           f"{_u(d['h'], 'head', system):>12} {'':>12} {'':>11}")
+    for m in sol.machines:
+        if m["kind"] == "turbine" and m.get("Q_at_max"):
+            out.append(f"\n{m['label']}: the line's largest shaft power is {_u(m['power_max'], 'power', system)} "
+                       f"at {_u(m['Q_at_max'], 'flow', system)}")
+    if sol.warnings:
+        out.append("\nWarnings:")
+        out += [f"  - {w}" for w in sol.warnings]
+    log = sol.log
+    out.append(f"\nSolve log: scanned {fmt(log['scan']['Q_min'], 3)} to {fmt(log['scan']['Q_max'], 3)} m3/s "
+               f"on {log['scan']['grid_points']} points; "
+               + "; ".join(f"root at {fmt(r['Q'], 6)} m3/s in {r['iterations']} iterations, residual {r['residual']:.1e} m"
+                           for r in log["roots"]))
+    return "\n".join(out)
+
+
+def cmd_schema(args) -> int:
+    from calc.sheet import SCHEMA
+
+    json.dump(SCHEMA, sys.stdout, indent=2)
+    print()
+    return 0
+
+
+def cmd_head(args) -> int:
+    from calc.inverse import head_needed
+
+    doc, line = _load(args.file)
+    Q = _flow(args.flow)
+    r = head_needed(line, Q)
+    system = line.header.get("units", "SI")
+    if args.json:
+        json.dump(r.to_dict(), sys.stdout, indent=2)
+        print()
+        return 0
+    print(f"To pass {_u(Q, 'flow', system)}:")
+    print(f"  head given by start minus end: {_u(r.head_available, 'head', system)}")
+    print(f"  head taken by the elements:    {_u(r.head_used, 'head', system)}")
+    if r.shortfall > 0:
+        print(f"  extra head needed:             {_u(r.shortfall, 'head', system)}")
+    else:
+        print(f"  head to spare:                 {_u(-r.shortfall, 'head', system)}")
+    return 0
+
+
+def cmd_size(args) -> int:
+    from calc.inverse import smallest_size
+
+    doc, line = _load(args.file)
+    Q = _flow(args.flow)
+    runs = [int(x) for x in args.runs.split(",")] if args.runs else None
+    try:
+        r = smallest_size(line, Q, args.standard, args.klass, runs)
+    except (LookupError, ValueError, IndexError) as e:
+        sys.exit(f"headsheet: {e}")
+    if args.json:
+        json.dump(r.to_dict(), sys.stdout, indent=2)
+        print()
+        return 0 if r.nominal else 1
+    system = line.header.get("units", "SI")
+    if r.nominal is None:
+        print(f"No size of {args.standard} {args.klass} passes {_u(Q, 'flow', system)} with the head available.")
+        return 1
+    print(f"Smallest {args.standard} {args.klass} size passing {_u(Q, 'flow', system)}: {r.nominal} "
+          f"(inner diameter {_u(r.ID, 'diameter', system)}), head to spare {_u(-r.shortfall, 'head', system)}")
+    return 0
+
+
+def cmd_serve(args) -> int:
+    try:
+        from server.main import serve
+    except ImportError as e:
+        sys.exit(f"headsheet: the server is not available in this installation ({e})")
+    serve(Path(args.data), host=args.host, port=args.port)
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(prog="headsheet", description="Pressurised water line calculation sheet.")
+    sub = p.add_subparsers(dest="command", required=True)
+    s = sub.add_parser("solve", help="solve a sheet file and print the operating points")
+    s.add_argument("file")
+    s.add_argument("--json", action="store_true", help="the full result in SI base units, as JSON")
+    s.set_defaults(func=cmd_solve)
+    s = sub.add_parser("schema", help="print the JSON Schema of the sheet document")
+    s.set_defaults(func=cmd_schema)
+    s = sub.add_parser("head", help="head needed to pass a given flow through the line")
+    s.add_argument("file")
+    s.add_argument("--flow", required=True, help="flow with its unit, e.g. '40 L/s'")
+    s.add_argument("--json", action="store_true")
+    s.set_defaults(func=cmd_head)
+    s = sub.add_parser("size", help="smallest standard pipe size that passes a given flow")
+    s.add_argument("file")
+    s.add_argument("--flow", required=True, help="flow with its unit, e.g. '40 L/s'")
+    s.add_argument("--standard", default="pe-iso4427", help="size table: asme-b36.10m or pe-iso4427")
+    s.add_argument("--class", dest="klass", default="SDR11", help="schedule or SDR, e.g. 40 or SDR11")
+    s.add_argument("--runs", default="", help="element numbers (from 0) of the runs to resize, e.g. 0,2; default all")
+    s.add_argument("--json", action="store_true")
+    s.set_defaults(func=cmd_size)
+    s = sub.add_parser("serve", help="serve the calculation sheet in the browser")
+    s.add_argument("--data", default="headsheet-data", help="folder of the sheet store (default ./headsheet-data)")
+    s.add_argument("--host", default="127.0.0.1")
+    s.add_argument("--port", type=int, default=8000)
+    s.set_defaults(func=cmd_serve)
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    return args.func(args)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,75 @@
+"""The designer's inverse questions of a line: the head needed to pass a flow, and the smallest standard size that passes it."""
+
+from __future__ import annotations
+
+import copy
+from dataclasses import dataclass
+
+from calc import tables
+from calc.elements import Line, PipeRun
+from calc.solve import residual
+
+
+@dataclass
+class HeadNeeded:
+    """What it takes to pass flow Q [m3/s] through the line, all heads in [m]."""
+
+    Q: float
+    head_available: float  # total head at start minus total head at end at Q
+    head_used: float       # sum of element heads at Q (losses, turbines; minus pumps)
+    shortfall: float       # head_used - head_available: extra head needed (<= 0: the line passes Q with head to spare)
+
+    def to_dict(self) -> dict:
+        return dict(self.__dict__)
+
+
+def head_needed(line: Line, Q: float) -> HeadNeeded:
+    """Head needed to pass Q: the line's element heads, against the head the start and end give.
+
+    A positive shortfall is the head a pump (or a higher start) must add at that flow.
+    """
+    E = residual(line, Q)
+    fluid = line.fluid
+    used = sum(el.head(Q, fluid) for el in line.elements)
+    return HeadNeeded(Q=Q, head_available=E + used, head_used=used, shortfall=-E)
+
+
+@dataclass
+class SizeChoice:
+    standard: str
+    klass: str
+    nominal: str | None
+    ID: float | None
+    shortfall: float | None  # at the chosen size [m]; None when no size passes the flow
+    tried: list[dict]
+
+    def to_dict(self) -> dict:
+        return dict(self.__dict__)
+
+
+def smallest_size(line: Line, Q: float, standard: str, klass: str, runs: list[int] | None = None) -> SizeChoice:
+    """Smallest size of a standard table that passes Q with the head available.
+
+    ``runs`` lists the element indices of the pipe runs to resize (default: every run);
+    all of them take the same size. Sizes are tried in order of inner diameter.
+    """
+    sizes = tables.sizes_in_order(standard, klass)
+    targets = runs if runs is not None else [i for i, el in enumerate(line.elements) if isinstance(el, PipeRun)]
+    for i in targets:
+        if not isinstance(line.elements[i], PipeRun):
+            raise ValueError(f"element {i} is not a pipe run")
+    tried = []
+    for size in sizes:
+        trial = copy.copy(line)
+        trial.elements = list(line.elements)
+        for i in targets:
+            run = copy.copy(line.elements[i])
+            run.D = size.ID
+            run.wall = size.wall
+            trial.elements[i] = run
+        trial.__post_init__()
+        E = residual(trial, Q)
+        tried.append({"nominal": size.nominal, "ID": size.ID, "shortfall": -E})
+        if E >= 0.0:
+            return SizeChoice(standard, klass, size.nominal, size.ID, -E, tried)
+    return SizeChoice(standard, klass, None, None, None, tried)

@@ -1,0 +1,536 @@
+"""The sheet document: parse and check it into a Line, collecting every error with the path of its field."""
+
+from __future__ import annotations
+
+import copy
+from dataclasses import dataclass, field
+
+from calc import friction, tables
+from calc.elements import Curve, Fitting, Line, Node, PipeRun, Pump, Turbine, Valve
+from calc.units import (DENSITY, FLOW, LENGTH, MODULUS, POWER, PRESSURE, RATIO, TEMPERATURE,
+                        VISCOSITY, InputError, Kind, parse_quantity)
+from calc.water import custom_liquid, water
+
+FORMAT = "headsheet-sheet"
+VERSION = 1
+
+#: Size limits on lists and text, so that a pasted list cannot stall the solver.
+MAX_ELEMENTS = 200
+MAX_FITTINGS = 50
+MAX_POINTS = 100
+MAX_TEXT = 500
+MAX_LABEL = 100
+MAX_COUNT = 1000
+
+HEADER_FIELDS = ("project", "calc_number", "title", "purpose")
+NODE_KINDS = {"start": ("reservoir", "pressure"), "end": ("reservoir", "pressure", "jet")}
+RESTRAINTS = ("anchored", "anchored_upstream", "expansion_joints")
+
+ELEMENT_TEMPLATES = {
+    "pipe": {"kind": "pipe", "label": "Pipe run", "length": "100 m", "diameter": "150 mm",
+             "size": None, "material": "steel-commercial", "roughness": "", "end_elevation": "0 m",
+             "profile": [], "fittings": []},
+    "turbine": {"kind": "turbine", "label": "Turbine", "mode": "power", "power": "10 kW",
+                "efficiency": "0.8", "head": "", "curve": []},
+    "pump": {"kind": "pump", "label": "Pump", "mode": "curve", "speed_ratio": "1", "head": "",
+             "curve": [{"flow": "0 L/s", "head": "40 m", "efficiency": "", "npsh_required": ""},
+                       {"flow": "20 L/s", "head": "36 m", "efficiency": "", "npsh_required": ""},
+                       {"flow": "40 L/s", "head": "25 m", "efficiency": "", "npsh_required": ""}]},
+    "valve": {"kind": "valve", "label": "Valve", "K": "0.2", "diameter": ""},
+}
+FITTING_TEMPLATE = {"type": "k", "K": "0.5", "count": 1, "label": "Fitting"}
+PROFILE_POINT_TEMPLATE = {"chainage": "0 m", "elevation": "0 m"}
+CURVE_POINT_TEMPLATE = {"flow": "0 L/s", "head": "0 m", "efficiency": "", "npsh_required": ""}
+
+
+def blank_sheet() -> dict:
+    """A new, valid sheet: a gravity line between two reservoirs with one pipe run."""
+    pipe = copy.deepcopy(ELEMENT_TEMPLATES["pipe"])
+    pipe.update({"label": "Main", "length": "500 m", "end_elevation": "90 m",
+                 "fittings": [{"type": "entrance-sharp", "count": 1}, {"type": "exit", "count": 1}]})
+    return {
+        "format": FORMAT, "version": VERSION,
+        "header": {"project": "", "calc_number": "", "title": "New sheet", "purpose": "",
+                   "revision_scheme": "letters", "units": "SI"},
+        "liquid": {"kind": "water", "temperature": "15 degC"},
+        "site": {"atmospheric_pressure": "101.325 kPa"},
+        "settings": {"friction_method": "colebrook"},
+        "start": {"kind": "reservoir", "elevation": "100 m", "pressure": "0 kPa", "outlet_elevation": ""},
+        "end": {"kind": "reservoir", "elevation": "80 m", "pressure": "0 kPa"},
+        "elements": [pipe],
+    }
+
+
+@dataclass
+class Parsed:
+    """The result of parsing: a Line when the sheet is whole, and every error found."""
+
+    line: Line | None
+    errors: list[InputError] = field(default_factory=list)
+
+    @property
+    def ok(self) -> bool:
+        return not self.errors
+
+    def errors_by_path(self) -> dict[str, str]:
+        return {e.path: e.message for e in self.errors}
+
+
+class _Reader:
+    """Reads fields out of the document; each failure is recorded and reading goes on."""
+
+    def __init__(self):
+        self.errors: list[InputError] = []
+
+    def fail(self, path, value, message):
+        self.errors.append(InputError(path, value, message))
+        return None
+
+    @staticmethod
+    def blank(v) -> bool:
+        return v is None or (isinstance(v, str) and not v.strip())
+
+    def obj(self, d, key, path) -> dict:
+        v = d.get(key) if isinstance(d, dict) else None
+        if v is None:
+            return {}
+        if not isinstance(v, dict):
+            self.fail(path, v, "must be a group of fields")
+            return {}
+        return v
+
+    def lst(self, d, key, path, limit) -> list:
+        v = d.get(key)
+        if v is None:
+            return []
+        if not isinstance(v, list):
+            self.fail(path, v, "must be a list")
+            return []
+        if len(v) > limit:
+            self.fail(path, f"{len(v)} items", f"has {len(v)} items; at most {limit} are allowed")
+            return []
+        return v
+
+    def qty(self, d, key, path, kind: Kind, *, required=True, default=None, lo=None, lo_open=False,
+            hi=None, hi_open=False, what=None):
+        v = d.get(key)
+        if self.blank(v):
+            if required:
+                return self.fail(path, v, f"is empty: enter {kind.name}, e.g. {kind.example}")
+            return default
+        try:
+            x = parse_quantity(v, kind, path)
+        except InputError as e:
+            self.errors.append(e)
+            return None
+        what = what or "the value"
+        if lo is not None and (x < lo or (lo_open and x == lo)):
+            word = "greater than" if lo_open else "at least"
+            return self.fail(path, v, f"{what} must be {word} {lo:g}" if lo else
+                             f"{what} must be {'positive' if lo_open else 'zero or more'}")
+        if hi is not None and (x > hi or (hi_open and x == hi)):
+            return self.fail(path, v, f"{what} must be {'below' if hi_open else 'at most'} {hi:g}")
+        return x
+
+    def text(self, d, key, path, limit=MAX_TEXT, default=""):
+        v = d.get(key, default)
+        if v is None:
+            return default
+        if not isinstance(v, str):
+            return self.fail(path, v, "must be text")
+        if len(v) > limit:
+            return self.fail(path, v[:40] + "…", f"is {len(v)} characters long; at most {limit} are allowed")
+        return v
+
+    def choice(self, d, key, path, options, default=None):
+        v = d.get(key, default)
+        if self.blank(v) and default is not None:
+            return default
+        if v not in options:
+            return self.fail(path, v, "must be one of: " + ", ".join(options))
+        return v
+
+    def count(self, d, key, path):
+        v = d.get(key, 1)
+        if self.blank(v):
+            return 1
+        try:
+            n = int(v) if not isinstance(v, bool) and float(v) == int(float(v)) else None
+        except (TypeError, ValueError, OverflowError):
+            n = None
+        if n is None or not 1 <= n <= MAX_COUNT:
+            return self.fail(path, v, f"must be a whole number from 1 to {MAX_COUNT}")
+        return n
+
+
+def parse(doc: object) -> Parsed:
+    """Check a sheet document and build its Line; never raises on bad input.
+
+    >>> parsed = parse(blank_sheet())
+    >>> parsed.ok, len(parsed.line.elements)
+    (True, 1)
+    >>> bad = blank_sheet(); bad["elements"][0]["length"] = "-5 m"
+    >>> parse(bad).errors_by_path()
+    {'elements.0.length': 'the length must be positive'}
+    """
+    r = _Reader()
+    if not isinstance(doc, dict):
+        r.fail("", type(doc).__name__, "the sheet must be a JSON object")
+        return Parsed(None, r.errors)
+    if doc.get("format", FORMAT) != FORMAT:
+        r.fail("format", doc.get("format"), f"must be '{FORMAT}'")
+    if doc.get("version", VERSION) != VERSION:
+        r.fail("version", doc.get("version"), f"this program reads sheet format version {VERSION}")
+
+    header = r.obj(doc, "header", "header")
+    hdr = {k: r.text(header, k, f"header.{k}") or "" for k in HEADER_FIELDS}
+    hdr["revision_scheme"] = r.choice(header, "revision_scheme", "header.revision_scheme",
+                                      ("letters", "numbers"), "letters")
+    hdr["units"] = r.choice(header, "units", "header.units", ("SI", "US"), "SI")
+
+    liquid = _liquid(r, r.obj(doc, "liquid", "liquid"))
+    site = r.obj(doc, "site", "site")
+    p_atm = r.qty(site, "atmospheric_pressure", "site.atmospheric_pressure", PRESSURE, required=False,
+                  default=101325.0, lo=1000.0, hi=200000.0, what="the atmospheric pressure (absolute)")
+    settings = r.obj(doc, "settings", "settings")
+    method = r.choice(settings, "friction_method", "settings.friction_method", tuple(friction.METHODS),
+                      "colebrook")
+
+    start = _node(r, r.obj(doc, "start", "start"), "start", liquid)
+    end = _node(r, r.obj(doc, "end", "end"), "end", liquid)
+
+    raw = r.lst(doc, "elements", "elements", MAX_ELEMENTS)
+    elements = []
+    z = start.pipe_elevation if start else None
+    last_D = None
+    for i, e in enumerate(raw):
+        path = f"elements.{i}"
+        if not isinstance(e, dict):
+            r.fail(path, e, "must be a group of fields")
+            continue
+        kind = e.get("kind")
+        if kind == "pipe":
+            el = _pipe(r, e, path)
+            if el is not None:
+                last_D = el.D
+        elif kind == "turbine":
+            el = _turbine(r, e, path)
+        elif kind == "pump":
+            el = _pump(r, e, path)
+        elif kind == "valve":
+            el = _valve(r, e, path, last_D)
+        else:
+            el = r.fail(f"{path}.kind", kind, "must be one of: pipe, turbine, pump, valve")
+        elements.append(el)
+    if not raw and not any(err.path == "elements" for err in r.errors):
+        r.fail("elements", [], "add at least one pipe run")
+    elif raw and not any(isinstance(e, dict) and e.get("kind") == "pipe" for e in raw):
+        r.fail("elements", "no pipe run", "a line needs at least one pipe run")
+    if end is not None and end.kind == "jet" and elements and not isinstance(elements[-1], (PipeRun, Valve)):
+        r.fail("end.kind", "jet", "a free jet must follow a pipe run or a valve")
+    del z
+    if r.errors:
+        return Parsed(None, r.errors)
+    line = Line(start=start, end=end, elements=elements, liquid=liquid, method=method, p_atm=p_atm,
+                header=hdr, settings=dict(settings))
+    return Parsed(line, [])
+
+
+def _liquid(r: _Reader, d: dict):
+    kind = r.choice(d, "kind", "liquid.kind", ("water", "custom"), "water")
+    if kind == "water":
+        T = r.qty(d, "temperature", "liquid.temperature", TEMPERATURE)
+        if T is None:
+            return None
+        try:
+            return water(T)
+        except ValueError as e:
+            return r.fail("liquid.temperature", d.get("temperature"), str(e))
+    if kind == "custom":
+        name = r.text(d, "name", "liquid.name", MAX_LABEL) or "liquid"
+        rho = r.qty(d, "density", "liquid.density", DENSITY, lo=0.0, lo_open=True, what="the density")
+        mu = r.qty(d, "viscosity", "liquid.viscosity", VISCOSITY, lo=0.0, lo_open=True, what="the viscosity")
+        pv = r.qty(d, "vapour_pressure", "liquid.vapour_pressure", PRESSURE, lo=0.0,
+                   what="the vapour pressure (absolute)")
+        K = r.qty(d, "bulk_modulus", "liquid.bulk_modulus", MODULUS, required=False, lo=0.0, lo_open=True,
+                  what="the bulk modulus")
+        if None in (rho, mu, pv):
+            return None
+        try:
+            return custom_liquid(name, rho, mu, pv, K)
+        except ValueError as e:
+            return r.fail("liquid", name, str(e))
+    return None
+
+
+def _node(r: _Reader, d: dict, which: str, liquid):
+    kind = r.choice(d, "kind", f"{which}.kind", NODE_KINDS[which], "reservoir")
+    z = r.qty(d, "elevation", f"{which}.elevation", LENGTH)
+    p = r.qty(d, "pressure", f"{which}.pressure", PRESSURE, required=False, default=0.0)
+    if p is not None and p < -101325.0:
+        p = r.fail(f"{which}.pressure", d.get("pressure"), "a gauge pressure cannot be below -1 atm")
+    outlet = None
+    if kind == "reservoir":
+        outlet = r.qty(d, "outlet_elevation", f"{which}.outlet_elevation", LENGTH, required=False)
+        if outlet is not None and z is not None and outlet > z:
+            outlet = r.fail(f"{which}.outlet_elevation", d.get("outlet_elevation"),
+                            "the pipe connection must be at or below the water surface")
+    nozzle = None
+    if kind == "jet":
+        nozzle = r.qty(d, "nozzle_diameter", f"{which}.nozzle_diameter", LENGTH, required=False,
+                       lo=0.0, lo_open=True, what="the nozzle diameter")
+    if kind is None or z is None or p is None:
+        return None
+    return Node(kind=kind, elevation=z, pressure=p if kind != "jet" else 0.0,
+                outlet_elevation=outlet, nozzle_diameter=nozzle)
+
+
+def _pipe(r: _Reader, e: dict, path: str):
+    n_err = len(r.errors)
+    label = r.text(e, "label", f"{path}.label", MAX_LABEL) or ""
+    L = r.qty(e, "length", f"{path}.length", LENGTH, lo=0.0, lo_open=True, what="the length")
+    D = r.qty(e, "diameter", f"{path}.diameter", LENGTH, required=False, lo=0.0, lo_open=True,
+              what="the diameter")
+    wall = r.qty(e, "wall_thickness", f"{path}.wall_thickness", LENGTH, required=False, lo=0.0, lo_open=True,
+                 what="the wall thickness")
+    D_source = "typed by the user"
+    size_obj = None
+    size = e.get("size")
+    if D is None and len(r.errors) == n_err:
+        if isinstance(size, dict) and not all(r.blank(size.get(k)) for k in ("standard", "nominal", "class")):
+            try:
+                size_obj = tables.pipe_size(str(size.get("standard")), str(size.get("nominal")),
+                                            str(size.get("class")))
+                D = size_obj.ID
+                D_source = f"{size_obj.source}: {size_obj.nominal} {size_obj.klass}"
+                if wall is None:
+                    wall = size_obj.wall
+            except LookupError as err:
+                r.fail(f"{path}.size", size, str(err).strip("'\""))
+        else:
+            r.fail(f"{path}.diameter", e.get("diameter"),
+                   "is empty: enter an inner diameter, e.g. 150 mm, or choose a standard size")
+    if D is not None and L is not None and D > L * 10 and D > 5.0:
+        r.fail(f"{path}.diameter", e.get("diameter"), "is larger than a pipe can be; check the unit")
+    mat = None
+    mkey = e.get("material")
+    if not r.blank(mkey):
+        try:
+            mat = tables.material(str(mkey))
+        except LookupError as err:
+            r.fail(f"{path}.material", mkey, str(err).strip("'\""))
+    eps = r.qty(e, "roughness", f"{path}.roughness", LENGTH, required=False, lo=0.0, what="the roughness")
+    eps_source = "typed by the user"
+    eps_aged = None
+    if eps is None and not r.blank(e.get("roughness")):
+        pass  # error already recorded
+    elif eps is None:
+        if mat is not None:
+            eps, eps_source, eps_aged = mat.eps_new, f"{mat.name}: {mat.source_roughness}", mat.eps_aged
+        elif r.blank(mkey):
+            r.fail(f"{path}.roughness", e.get("roughness"), "is empty: enter a roughness, e.g. 0.05 mm, or choose a material")
+    if eps is not None and D is not None and eps >= D / 2:
+        r.fail(f"{path}.roughness", e.get("roughness"), "must be much smaller than the diameter; check the unit")
+    z_end = r.qty(e, "end_elevation", f"{path}.end_elevation", LENGTH)
+    rating = r.qty(e, "rating", f"{path}.rating", PRESSURE, required=False, lo=0.0, lo_open=True,
+                   what="the pressure rating")
+    restraint = r.choice(e, "restraint", f"{path}.restraint", RESTRAINTS, "anchored")
+    profile = []
+    for j, pt in enumerate(r.lst(e, "profile", f"{path}.profile", MAX_POINTS)):
+        pp = f"{path}.profile.{j}"
+        if not isinstance(pt, dict):
+            r.fail(pp, pt, "must have a chainage and an elevation")
+            continue
+        s = r.qty(pt, "chainage", f"{pp}.chainage", LENGTH, lo=0.0, what="the chainage")
+        zz = r.qty(pt, "elevation", f"{pp}.elevation", LENGTH)
+        if s is not None and L is not None and s > L * (1 + 1e-9):
+            r.fail(f"{pp}.chainage", pt.get("chainage"), "lies beyond the end of the run (chainage is from the run's start)")
+        elif s is not None and zz is not None:
+            profile.append((s, zz))
+    fittings = []
+    for j, ft in enumerate(r.lst(e, "fittings", f"{path}.fittings", MAX_FITTINGS)):
+        f = _fitting(r, ft, f"{path}.fittings.{j}")
+        if f is not None:
+            fittings.append(f)
+    if len(r.errors) > n_err:
+        return None
+    return PipeRun(label=label, L=L, D=D, eps=eps, end_elevation=z_end, fittings=fittings,
+                   profile=profile, wall=wall, material=mat, size=size_obj, rating=rating,
+                   restraint=restraint, eps_source=eps_source, D_source=D_source, eps_aged=eps_aged)
+
+
+def _fitting(r: _Reader, ft, path: str):
+    if not isinstance(ft, dict):
+        return r.fail(path, ft, "must be a fitting")
+    n_err = len(r.errors)
+    kind = ft.get("type")
+    count = r.count(ft, "count", f"{path}.count")
+    label = r.text(ft, "label", f"{path}.label", MAX_LABEL) or ""
+    if kind == "k":
+        K = r.qty(ft, "K", f"{path}.K", RATIO, lo=0.0, what="K")
+        params, model, name, src = {"K": K}, "k", label or "loss (K typed)", "typed by the user"
+    elif kind == "2k":
+        K1 = r.qty(ft, "K1", f"{path}.K1", RATIO, lo=0.0, what="K1")
+        Kinf = r.qty(ft, "Kinf", f"{path}.Kinf", RATIO, lo=0.0, what="K∞")
+        params, model, name, src = {"K1": K1, "Kinf": Kinf}, "2k", label or "2-K fitting", "typed by the user (2-K, Hooper 1981)"
+    elif kind == "3k":
+        K1 = r.qty(ft, "K1", f"{path}.K1", RATIO, lo=0.0, what="K1")
+        Ki = r.qty(ft, "Ki", f"{path}.Ki", RATIO, lo=0.0, what="Ki")
+        Kd = r.qty(ft, "Kd", f"{path}.Kd", RATIO, lo=0.0, what="Kd")
+        params, model, name, src = {"K1": K1, "Ki": Ki, "Kd": Kd}, "3k", label or "3-K fitting", "typed by the user (3-K, Darby 2001)"
+    else:
+        try:
+            t = tables.fitting(str(kind))
+        except LookupError as err:
+            return r.fail(f"{path}.type", kind, str(err).strip("'\""))
+        params, model, name, src = dict(t.params), t.model, t.name, t.source
+    if len(r.errors) > n_err:
+        return None
+    return Fitting(name=name, model=model, params=params, count=count, source=src, key=str(kind))
+
+
+def _curve_points(r: _Reader, e: dict, path: str, y_key: str, y_kind: Kind, min_points=3):
+    pts = r.lst(e, "curve", f"{path}.curve", MAX_POINTS)
+    if len(pts) < min_points:
+        r.fail(f"{path}.curve", f"{len(pts)} points", f"needs at least {min_points} points to fit a curve")
+        return None
+    Q, H, eta, npsh = [], [], [], []
+    for j, pt in enumerate(pts):
+        pp = f"{path}.curve.{j}"
+        if not isinstance(pt, dict):
+            r.fail(pp, pt, "must have a flow and a head")
+            continue
+        q = r.qty(pt, "flow", f"{pp}.flow", FLOW, lo=0.0, what="the flow")
+        h = r.qty(pt, y_key, f"{pp}.{y_key}", y_kind, what="the head")
+        Q.append(q)
+        H.append(h)
+        eta.append(r.qty(pt, "efficiency", f"{pp}.efficiency", RATIO, required=False, lo=0.0, lo_open=True,
+                         hi=1.0, what="the efficiency"))
+        npsh.append(r.qty(pt, "npsh_required", f"{pp}.npsh_required", LENGTH, required=False, lo=0.0,
+                          what="NPSH required"))
+    if None in Q or None in H:
+        return None
+    if len(set(Q)) < 3:
+        r.fail(f"{path}.curve", "repeated flows", "needs at least three different flows")
+        return None
+    return Q, H, eta, npsh
+
+
+def _optional_curve(r: _Reader, Q, ys, path, what):
+    pairs = [(q, y) for q, y in zip(Q, ys) if y is not None]
+    if not pairs:
+        return None
+    if len(pairs) < 3:
+        r.fail(f"{path}.curve", what, f"{what}: give it at three or more points, or at none")
+        return None
+    return Curve([p[0] for p in pairs], [p[1] for p in pairs])
+
+
+def _turbine(r: _Reader, e: dict, path: str):
+    n_err = len(r.errors)
+    label = r.text(e, "label", f"{path}.label", MAX_LABEL) or ""
+    mode = r.choice(e, "mode", f"{path}.mode", ("power", "head", "curve"), "power")
+    need_eta = mode == "power"
+    eta = r.qty(e, "efficiency", f"{path}.efficiency", RATIO, required=need_eta, default=1.0,
+                lo=0.0, lo_open=True, hi=1.0, what="the efficiency")
+    power = head = curve = None
+    if mode == "power":
+        power = r.qty(e, "power", f"{path}.power", POWER, lo=0.0, lo_open=True, what="the shaft power")
+    elif mode == "head":
+        head = r.qty(e, "head", f"{path}.head", LENGTH, lo=0.0, lo_open=True, what="the head")
+    elif mode == "curve":
+        pts = _curve_points(r, e, path, "head", LENGTH)
+        if pts:
+            curve = Curve(pts[0], pts[1])
+    if len(r.errors) > n_err:
+        return None
+    return Turbine(label=label, mode=mode, efficiency=eta, power=power, fixed_head=head, curve=curve)
+
+
+def _pump(r: _Reader, e: dict, path: str):
+    n_err = len(r.errors)
+    label = r.text(e, "label", f"{path}.label", MAX_LABEL) or ""
+    mode = r.choice(e, "mode", f"{path}.mode", ("curve", "head"), "curve")
+    n = r.qty(e, "speed_ratio", f"{path}.speed_ratio", RATIO, required=False, default=1.0, lo=0.0,
+              lo_open=True, hi=3.0, what="the speed ratio")
+    head = curve = eta_c = npsh_c = None
+    eta = r.qty(e, "efficiency", f"{path}.efficiency", RATIO, required=False, lo=0.0, lo_open=True, hi=1.0,
+                what="the efficiency")
+    if mode == "head":
+        head = r.qty(e, "head", f"{path}.head", LENGTH, lo=0.0, lo_open=True, what="the head")
+    else:
+        pts = _curve_points(r, e, path, "head", LENGTH)
+        if pts:
+            Q, H, etas, npshs = pts
+            curve = Curve(Q, H)
+            eta_c = _optional_curve(r, Q, etas, path, "efficiency")
+            npsh_c = _optional_curve(r, Q, npshs, path, "NPSH required")
+    if len(r.errors) > n_err:
+        return None
+    return Pump(label=label, mode=mode, fixed_head=head, curve=curve, efficiency_curve=eta_c,
+                npshr_curve=npsh_c, speed_ratio=n, efficiency=eta)
+
+
+def _valve(r: _Reader, e: dict, path: str, last_D):
+    n_err = len(r.errors)
+    label = r.text(e, "label", f"{path}.label", MAX_LABEL) or ""
+    K = r.qty(e, "K", f"{path}.K", RATIO, lo=0.0, what="K")
+    D = r.qty(e, "diameter", f"{path}.diameter", LENGTH, required=False, lo=0.0, lo_open=True,
+              what="the diameter")
+    src = "typed by the user"
+    if D is None and r.blank(e.get("diameter")):
+        if last_D is None:
+            r.fail(f"{path}.diameter", e.get("diameter"),
+                   "is empty and no pipe run comes before this valve: enter its diameter, e.g. 150 mm")
+        D, src = last_D, "the pipe run before it"
+    if len(r.errors) > n_err:
+        return None
+    return Valve(label=label, K=K, D=D, D_source=src)
+
+
+def _q(kind_name: str) -> dict:
+    return {"type": ["string", "null"], "description": f"{kind_name} with its unit, e.g. as typed"}
+
+
+_RATIO = {"type": ["string", "number", "null"], "description": "a plain number or a percentage"}
+
+SCHEMA = {
+    "$schema": "https://json-schema.org/draft/2020-12/schema",
+    "title": "Headsheet sheet document",
+    "type": "object",
+    "required": ["format", "version", "start", "end", "elements"],
+    "properties": {
+        "format": {"const": FORMAT},
+        "version": {"const": VERSION},
+        "header": {"type": "object", "properties": {
+            **{k: {"type": "string", "maxLength": MAX_TEXT} for k in HEADER_FIELDS},
+            "revision_scheme": {"enum": ["letters", "numbers"]},
+            "units": {"enum": ["SI", "US"]}}},
+        "liquid": {"type": "object", "properties": {
+            "kind": {"enum": ["water", "custom"]}, "temperature": _q("a temperature"),
+            "name": {"type": "string"}, "density": _q("a density"), "viscosity": _q("a viscosity"),
+            "vapour_pressure": _q("an absolute pressure"), "bulk_modulus": _q("a modulus")}},
+        "site": {"type": "object", "properties": {"atmospheric_pressure": _q("an absolute pressure")}},
+        "settings": {"type": "object", "properties": {"friction_method": {"enum": list(friction.METHODS)}}},
+        "start": {"$ref": "#/$defs/node"},
+        "end": {"$ref": "#/$defs/node"},
+        "elements": {"type": "array", "maxItems": MAX_ELEMENTS, "items": {"type": "object", "required": ["kind"],
+                     "properties": {"kind": {"enum": ["pipe", "turbine", "pump", "valve"]},
+                                    "label": {"type": "string", "maxLength": MAX_LABEL},
+                                    "length": _q("a length"), "diameter": _q("a length"),
+                                    "size": {"type": ["object", "null"]}, "material": {"type": ["string", "null"]},
+                                    "roughness": _q("a length"), "end_elevation": _q("a length"),
+                                    "wall_thickness": _q("a length"), "rating": _q("a gauge pressure"),
+                                    "restraint": {"enum": list(RESTRAINTS)},
+                                    "profile": {"type": "array", "maxItems": MAX_POINTS},
+                                    "fittings": {"type": "array", "maxItems": MAX_FITTINGS},
+                                    "mode": {"enum": ["power", "head", "curve"]},
+                                    "power": _q("a power"), "efficiency": _RATIO, "head": _q("a length"),
+                                    "speed_ratio": _RATIO, "K": _RATIO,
+                                    "curve": {"type": "array", "maxItems": MAX_POINTS}}}},
+    },
+    "$defs": {"node": {"type": "object", "required": ["kind", "elevation"], "properties": {
+        "kind": {"enum": ["reservoir", "pressure", "jet"]}, "elevation": _q("a length"),
+        "pressure": _q("a gauge pressure"), "outlet_elevation": _q("a length"),
+        "nozzle_diameter": _q("a length")}}},
+}

@@ -1,0 +1,397 @@
+"""Steady series-line solver: every operating point of a line with its machines, and the solve log.
+
+The energy balance residual is
+
+    E(Q) = H_start(Q) - H_end(Q) - sum_i h_i(Q)      [m]
+
+where h_i is the head element i takes from the flow (negative for a pump). Every root in the
+physical range is found by scanning E on a logarithmic grid of flows for sign changes (and for
+extrema that dip across zero between grid points), then closing each bracket with Brent's
+method (scipy ``brentq``); never a lone Newton step from a guess, which finds one root of a
+turbine's two and none of a drooping pump curve's others.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import brentq, minimize_scalar
+
+from calc import friction
+from calc.elements import Line, PipeRun, Pump, Turbine, Valve
+from calc.water import G
+
+#: Flows are scanned up to the flow that gives this velocity in the narrowest bore [m/s].
+#: Far above any velocity a water line is designed for (common practice: under about 5 m/s).
+V_SCAN_MAX = 60.0
+#: The scan starts this many decades below its top.
+SCAN_DECADES = 9.0
+#: Grid points of the scan; extrema between points are refined, so this only sets the cost.
+SCAN_POINTS = 48
+
+
+@dataclass
+class Root:
+    Q: float
+    residual: float
+    bracket: tuple[float, float]
+    iterations: int
+    function_calls: int
+    slope: float  # dE/dQ [m per m3/s]
+
+
+@dataclass
+class Solution:
+    """Everything the solve found, in SI units; ``to_dict`` gives JSON-safe data."""
+
+    status: str
+    message: str
+    method: str
+    liquid: dict
+    static_head: float
+    points: list[dict] = field(default_factory=list)
+    design_index: int | None = None
+    no_point: dict | None = None
+    machines: list[dict] = field(default_factory=list)
+    log: dict = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
+
+    @property
+    def design(self) -> dict | None:
+        return None if self.design_index is None else self.points[self.design_index]
+
+    def to_dict(self) -> dict:
+        return _json_safe({
+            "status": self.status, "message": self.message, "method": self.method,
+            "liquid": self.liquid, "static_head": self.static_head,
+            "design_index": self.design_index, "points": self.points, "no_point": self.no_point,
+            "machines": self.machines, "log": self.log, "warnings": self.warnings,
+        })
+
+
+def _json_safe(x):
+    if isinstance(x, float):
+        return x if math.isfinite(x) else None
+    if isinstance(x, dict):
+        return {k: _json_safe(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_json_safe(v) for v in x]
+    if isinstance(x, (np.floating,)):
+        return _json_safe(float(x))
+    if isinstance(x, (np.bool_,)):
+        return bool(x)
+    return x
+
+
+# ----------------------------------------------------------------------------- residual
+
+def residual(line: Line, Q: float, skip: int | None = None) -> float:
+    """E(Q) [m]: head left over after the end head and every element's head; zero at an operating point.
+
+    ``skip`` leaves out one element (used to find the head a turbine has at its disposal).
+    """
+    fluid = line.fluid
+    rho = line.liquid.rho
+    E = line.start.total_head(Q, rho) - line.end.total_head(Q, rho)
+    for i, el in enumerate(line.elements):
+        if i != skip:
+            E -= el.head(Q, fluid)
+    return E
+
+
+def residual_array(line: Line, Q: np.ndarray, skip: int | None = None) -> np.ndarray:
+    """E(Q) on an array of flows (the scan). Pipe runs with plain K values go through one batched
+    friction call, since numpy's cost here is per call rather than per value."""
+    fluid = line.fluid
+    rho = line.liquid.rho
+    static = line.start.static_head(rho) - line.end.static_head(rho)
+    c = line.start.velocity_head_coefficient() - line.end.velocity_head_coefficient()
+    E = static + c * Q * Q
+    batch = []
+    for i, el in enumerate(line.elements):
+        if i == skip:
+            continue
+        if isinstance(el, PipeRun) and (K := el._fixed_K()) is not None:
+            batch.append((el.D, el.L, el.eps, K))
+        else:
+            E = E - el.head_array(Q, fluid)
+    if batch:
+        D, L, eps, K = (np.array(col)[:, None] for col in zip(*batch))
+        V = Q[None, :] * (4.0 / (np.pi * D * D))
+        Re = V * D / fluid.nu
+        f = friction.friction_factor_array(Re.ravel(), np.broadcast_to(eps / D, Re.shape).ravel(),
+                                           fluid.method).reshape(Re.shape)
+        E = E - ((f * L / D + K) * V * V / (2 * G)).sum(axis=0)
+    return E
+
+
+def scan_range(line: Line) -> tuple[float, float]:
+    """Flows to scan [m3/s]: up to V_SCAN_MAX in the narrowest bore, down SCAN_DECADES from there."""
+    diameters = [el.D for el in line.elements if isinstance(el, (PipeRun, Valve))]
+    for node in (line.start, line.end):
+        if node.nozzle_diameter:
+            diameters.append(node.nozzle_diameter)
+    D_min = min(diameters) if diameters else 1.0
+    Q_hi = V_SCAN_MAX * math.pi * D_min * D_min / 4.0
+    return Q_hi * 10.0 ** (-SCAN_DECADES), Q_hi
+
+
+# ----------------------------------------------------------------------------- roots
+
+def find_roots(f, f_array, Q_lo: float, Q_hi: float, n: int = SCAN_POINTS) -> tuple[list[Root], dict]:
+    """Every root of f on [Q_lo, Q_hi]: log-grid scan, extremum refinement, then brentq per bracket."""
+    grid = np.geomspace(Q_lo, Q_hi, n)
+    with np.errstate(all="ignore"):
+        E = f_array(grid)
+    brackets: list[tuple[float, float]] = []
+    finite = np.isfinite(E)
+    for i in range(n - 1):
+        if not (finite[i] and finite[i + 1]):
+            continue
+        if E[i] == 0.0:
+            brackets.append((grid[i], grid[i]))
+        elif E[i] * E[i + 1] < 0.0:
+            brackets.append((grid[i], grid[i + 1]))
+    # A pair of roots closer together than the grid spacing shows only as an extremum
+    # of E on the near side of zero: refine the extremum and split there if it crosses.
+    refined = 0
+    for i in range(1, n - 1):
+        if not (finite[i - 1] and finite[i] and finite[i + 1]):
+            continue
+        is_max = E[i] >= E[i - 1] and E[i] >= E[i + 1] and E[i] < 0.0
+        is_min = E[i] <= E[i - 1] and E[i] <= E[i + 1] and E[i] > 0.0
+        if not (is_max or is_min):
+            continue
+        sign = -1.0 if is_max else 1.0
+        refined += 1
+        res = minimize_scalar(lambda q: sign * f(q), bounds=(grid[i - 1], grid[i + 1]),
+                              method="bounded", options={"xatol": 1e-14 * grid[i]})
+        q_star = res.x
+        e_star = f(q_star)
+        if e_star == 0.0:
+            brackets.append((q_star, q_star))
+        elif e_star * E[i] < 0.0:
+            brackets.append((grid[i - 1], q_star))
+            brackets.append((q_star, grid[i + 1]))
+    roots = []
+    for a, b in sorted(brackets):
+        if a == b:
+            q, it, calls = a, 0, 1
+            fa, fb = f(a * (1 - 1e-9)), f(a * (1 + 1e-9))
+        else:
+            fa, fb = f(a), f(b)
+            q, r = brentq(f, a, b, xtol=1e-300, rtol=4 * np.finfo(float).eps, maxiter=200,
+                          full_output=True)
+            it, calls = r.iterations, r.function_calls
+        # Only the sign of dE/dQ matters (stable or not); the bracket's ends give it for free.
+        slope = (fb - fa) / (b - a) if b > a else fb - fa
+        roots.append(Root(q, f(q), (a, b), it, calls, slope))
+    log = {"Q_min": Q_lo, "Q_max": Q_hi, "grid_points": n, "brackets": len(brackets),
+           "extrema_refined": refined}
+    return roots, log
+
+
+# ----------------------------------------------------------------------------- solve
+
+def solve(line: Line) -> Solution:
+    """Solve the line: every operating point, the design point, and what each element does there."""
+    liquid = line.liquid
+    rho = liquid.rho
+    static = line.start.static_head(rho) - line.end.static_head(rho)
+    Q_lo, Q_hi = scan_range(line)
+    roots, scan_log = find_roots(lambda q: residual(line, q), lambda q: residual_array(line, q), Q_lo, Q_hi)
+    machines = [machine_summary(line, i, Q_lo, Q_hi) for i, el in enumerate(line.elements)
+                if isinstance(el, (Turbine, Pump))]
+    sol = Solution(
+        status="solved" if roots else "no_operating_point",
+        message="",
+        method=line.method,
+        liquid={"name": liquid.name, "T": liquid.T, "rho": rho, "mu": liquid.mu,
+                "p_vap": liquid.p_vap, "bulk_modulus": liquid.bulk_modulus, "source": liquid.source},
+        static_head=static,
+        machines=machines,
+        log={"scan": scan_log, "roots": [
+            {"Q": r.Q, "bracket": list(r.bracket), "iterations": r.iterations,
+             "function_calls": r.function_calls, "residual": r.residual} for r in roots]},
+    )
+    for r in roots:
+        sol.points.append(point_detail(line, r.Q, r.residual, r.slope))
+    if roots:
+        sol.design_index, why = choose_design(line, roots)
+        for k, p in enumerate(sol.points):
+            p["is_design"] = k == sol.design_index
+            p["why"] = why if k == sol.design_index else other_point_note(line, roots[k], roots[sol.design_index])
+        n = len(roots)
+        sol.message = "one operating point" if n == 1 else f"{n} operating points"
+        sol.warnings = point_warnings(sol.points[sol.design_index])
+    else:
+        sol.no_point = explain_no_point(line, static, machines, Q_lo, Q_hi)
+        sol.message = "no operating point: " + sol.no_point["reason"]
+    return sol
+
+
+def point_detail(line: Line, Q: float, res: float, slope: float) -> dict:
+    fluid = line.fluid
+    details = []
+    for i, el in enumerate(line.elements):
+        d = el.detail(Q, fluid)
+        d["index"] = i
+        details.append(d)
+    rho = line.liquid.rho
+    return {
+        "Q": Q, "residual": res, "slope": slope, "is_design": False, "why": "",
+        "head_start": line.start.total_head(Q, rho), "head_end": line.end.total_head(Q, rho),
+        "elements": details, "profile": grade_lines(line, Q, details),
+    }
+
+
+def choose_design(line: Line, roots: list[Root]) -> tuple[int, str]:
+    """Which operating point is the usual design point, and why."""
+    if len(roots) == 1:
+        return 0, "the only operating point"
+    if any(isinstance(el, Turbine) and el.mode == "power" for el in line.elements):
+        return 0, ("lowest of the flows that deliver the set power: less of the gross head is burnt in "
+                   "friction there, so it uses the least water; the higher flow wastes most of the head "
+                   "in the line")
+    stable = [k for k, r in enumerate(roots) if r.slope < 0.0]
+    if stable:
+        k = max(stable, key=lambda j: roots[j].Q)
+        return k, ("highest-flow stable crossing: there the system needs more head than the machines "
+                   "give when the flow rises, so a disturbance dies away")
+    return len(roots) - 1, "highest flow found; no crossing is stable by the slope test"
+
+
+def other_point_note(line: Line, r: Root, design: Root) -> str:
+    if any(isinstance(el, Turbine) and el.mode == "power" for el in line.elements):
+        return "also delivers the set power, at a higher flow with most of the head lost in the line"
+    if r.slope > 0.0:
+        return "unstable crossing: the machine curve is steeper than the system curve here"
+    return "also a stable crossing; which one the line settles at depends on how it is started"
+
+
+def point_warnings(point: dict) -> list[str]:
+    out = []
+    for d in point["elements"]:
+        if d["kind"] == "pipe":
+            if d["regime"] == "transitional":
+                out.append(f"{d['label']}: {d['friction_note']}")
+            elif not d["friction_in_range"]:
+                out.append(f"{d['label']}: Re or eps/D outside the friction method's stated range")
+        if d["kind"] in ("pump", "turbine") and d.get("in_curve_range") is False:
+            out.append(f"{d['label']}: operating outside the typed curve points; the curve is extrapolated")
+    return out
+
+
+def machine_summary(line: Line, i: int, Q_lo: float, Q_hi: float) -> dict:
+    """For a turbine, the largest shaft power the line can give it and at what flow."""
+    el = line.elements[i]
+    out = {"index": i, "kind": el.kind, "label": el.label}
+    if isinstance(el, Turbine):
+        best = max_turbine_power(line, i, Q_lo, Q_hi)
+        out.update(best)
+    return out
+
+
+def max_turbine_power(line: Line, i: int, Q_lo: float, Q_hi: float) -> dict:
+    """Largest shaft power P = eta rho g Q H_avail(Q), H_avail being the head left for turbine i."""
+    el = line.elements[i]
+    k = el.efficiency * line.liquid.rho * G
+
+    def power_array(q):
+        return k * q * residual_array(line, q, skip=i)
+
+    grid = np.geomspace(Q_lo, Q_hi, SCAN_POINTS)
+    with np.errstate(all="ignore"):
+        P = power_array(grid)
+    P = np.where(np.isfinite(P), P, -np.inf)
+    j = int(np.argmax(P))
+    if P[j] <= 0.0:
+        return {"power_max": 0.0, "Q_at_max": None, "head_available_at_max": None}
+    # The power curve is flat at its top: refine on small grids (four array evaluations,
+    # each narrowing the bracket eightfold) rather than some thirty scalar ones.
+    a, b = grid[max(j - 1, 0)], grid[min(j + 1, len(grid) - 1)]
+    for _ in range(4):
+        sub = np.linspace(a, b, 17)
+        with np.errstate(all="ignore"):
+            Ps = power_array(sub)
+        m = int(np.argmax(np.where(np.isfinite(Ps), Ps, -np.inf)))
+        a, b = sub[max(m - 1, 0)], sub[min(m + 1, len(sub) - 1)]
+    Q = float(sub[m])
+    H = residual(line, Q, skip=i)
+    return {"power_max": k * Q * H, "Q_at_max": Q, "head_available_at_max": H}
+
+
+def explain_no_point(line: Line, static: float, machines: list[dict], Q_lo: float, Q_hi: float) -> dict:
+    turbines = [m for m in machines if m["kind"] == "turbine"
+                and line.elements[m["index"]].mode == "power"]
+    if turbines:
+        m = turbines[0]
+        el = line.elements[m["index"]]
+        return {"reason": (f"the line cannot deliver the set power of {el.label}; the most it can give is "
+                           "at the flow stated (lower the set power or the losses)"),
+                "max_power": m.get("power_max"), "Q_at_max": m.get("Q_at_max")}
+    E_lo = residual(line, Q_lo)
+    if E_lo <= 0.0:
+        return {"reason": ("the head at the start does not exceed the head at the end plus the machines' "
+                           "heads even at no flow: the water would run backwards (add or raise a pump)"),
+                "max_power": None, "Q_at_max": None}
+    return {"reason": (f"head is still left over at {Q_hi:.4g} m3/s, a velocity of {V_SCAN_MAX:g} m/s in the "
+                       "narrowest bore: check the diameters and lengths"),
+            "max_power": None, "Q_at_max": None}
+
+
+# ----------------------------------------------------------------------------- grade lines
+
+def grade_lines(line: Line, Q: float, details: list[dict]) -> list[dict]:
+    """Stations along the chainage with elevation, HGL, EGL and pressure head [m], in flow order.
+
+    Friction and 'spread' fittings fall linearly along a run; entrance losses are taken at the
+    run's start and exit losses at its end (shown at the end node).
+    """
+    rho = line.liquid.rho
+    out = []
+    H = line.start.total_head(Q, rho)
+    z = line.start.pipe_elevation
+    hv_now = line.start.velocity_head(Q)
+    ch = 0.0
+
+    def add(chainage, elevation, egl, hv, element):
+        hgl = egl - hv
+        out.append({"chainage": chainage, "elevation": elevation, "egl": egl, "hgl": hgl,
+                    "pressure_head": hgl - elevation, "element": element})
+
+    add(0.0, z, H, hv_now, None)
+    for i, (el, d) in enumerate(zip(line.elements, details)):
+        if isinstance(el, PipeRun):
+            hv = d["velocity_head"]
+            h_start = sum(x["h"] for x in d["fittings"] if x["position"] == "start")
+            h_spread = d["h_friction"] + sum(x["h"] for x in d["fittings"] if x["position"] == "spread")
+            H -= h_start
+            stations = run_stations(el, z)
+            for s, elev in stations:
+                add(ch + s, elev, H - h_spread * s / el.L, hv, i)
+            H -= h_spread + sum(x["h"] for x in d["fittings"] if x["position"] == "end")
+            ch += el.L
+            z = el.end_elevation
+            hv_now = hv
+        else:
+            add(ch, z, H, hv_now, i)
+            H -= d["head_change"]
+            add(ch, z, H, hv_now, i)
+    end = line.end
+    out.append({"chainage": ch, "elevation": end.elevation if end.kind != "reservoir" else z,
+                "egl": line.end.total_head(Q, rho), "hgl": line.end.static_head(rho),
+                "pressure_head": line.end.static_head(rho) - (end.elevation if end.kind != "reservoir" else z),
+                "element": None})
+    return out
+
+
+def run_stations(run: PipeRun, z_start: float) -> list[tuple[float, float]]:
+    """(chainage within the run, elevation) at the run's ends and its profile points."""
+    pts = {0.0: z_start, run.L: run.end_elevation}
+    for s, elev in run.profile:
+        if 0.0 <= s <= run.L:
+            pts[s] = elev
+    return sorted(pts.items())
