@@ -492,23 +492,30 @@ def friction_factor(Re: float, eD: float, method: str = "colebrook") -> float:
 def friction_factor_array(Re: np.ndarray, eD: float, method: str = "colebrook") -> np.ndarray:
     """`friction_factor` for an array of Reynolds numbers, elementwise identical.
 
+    eD is one relative roughness [-] or an array broadcastable to Re's shape;
+    the result has Re's shape.
+
     >>> np.round(friction_factor_array(np.array([1000.0, 1e5]), 1e-4), 7).tolist()
     [0.064, 0.0185139]
     """
     m = _method(method)
     Re = np.asarray(Re, dtype=float)
+    shape = Re.shape
+    Re = Re.ravel()
+    # eD may be one value or one per Reynolds number (several pipes scanned at once).
+    eD = np.broadcast_to(np.asarray(eD, dtype=float), shape).ravel()
     _check_array(Re, eD)
     if m.all_regimes:
-        return m.array(Re, eD)
+        return m.array(Re, eD).reshape(shape)
     f = 64.0 / Re
     turb = Re >= RE_LAMINAR
     if np.any(turb):
         Rt = Re[turb]
-        ft = m.array(Rt, eD)
+        ft = m.array(Rt, eD[turb])
         w = np.minimum((Rt - RE_LAMINAR) / (RE_TURBULENT - RE_LAMINAR), 1.0)
-        # Same arithmetic as the scalar path, so the two agree to the last bit.
+        # Same arithmetic as the scalar path, so the two agree to the last rounding.
         f[turb] = np.where(Rt >= RE_TURBULENT, ft, (1.0 - w) * (64.0 / Rt) + w * ft)
-    return f
+    return f.reshape(shape)
 
 
 def regime(Re: float) -> str:

@@ -219,6 +219,18 @@ def test_array_equals_scalar_elementwise(method, eD):
     np.testing.assert_allclose(fa, fs, rtol=1e-14, atol=0)
 
 
+@pytest.mark.parametrize("method", list(METHODS))
+def test_array_takes_one_roughness_per_element(method):
+    # Several pipes scanned at once: a 2-D grid of Re with eps/D varying by row.
+    Re = np.array([[500.0, 3000.0, 5e4], [1500.0, 2500.0, 1e7]])
+    eD = np.array([[1e-4], [0.02]])
+    fa = friction_factor_array(Re, eD, method)
+    assert fa.shape == Re.shape
+    for i in range(2):
+        for j in range(3):
+            assert fa[i, j] == pytest.approx(friction_factor(Re[i, j], eD[i, 0], method), rel=1e-14)
+
+
 def test_regime_limits():
     # Limits 2000 / 4000, common practice.
     assert regime(1999.999) == "laminar"
