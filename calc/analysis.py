@@ -1,0 +1,44 @@
+"""One call from a sheet document to everything derived from it: parse, solve, review."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from calc import checks
+from calc.elements import Line
+from calc.sheet import Parsed, parse
+from calc.solve import Solution, _json_safe, solve
+from calc.units import InputError
+
+
+@dataclass
+class Analysis:
+    """The parsed line, its solution and findings; ``errors`` when the sheet does not parse."""
+
+    doc: dict
+    line: Line | None
+    solution: Solution | None
+    findings: list = field(default_factory=list)
+    errors: list[InputError] = field(default_factory=list)
+
+    @property
+    def ok(self) -> bool:
+        return not self.errors
+
+    def to_dict(self) -> dict:
+        return {
+            "errors": [{"path": e.path, "message": e.message} for e in self.errors],
+            "solution": self.solution.to_dict() if self.solution else None,
+            "findings": _json_safe([f.to_dict() for f in self.findings]),
+        }
+
+
+def analyse(doc: dict) -> Analysis:
+    """Parse, solve and review a sheet document; never raises on bad input."""
+    parsed: Parsed = parse(doc)
+    if not parsed.ok:
+        return Analysis(doc, None, None, errors=parsed.errors)
+    line = parsed.line
+    solution = solve(line)
+    findings = checks.review(line, solution)
+    return Analysis(doc, line, solution, findings)
