@@ -1,0 +1,99 @@
+"""The `headsheet` command on the demo sheets, and the inverse questions it answers."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from calc.cli import main
+from calc.inverse import head_needed, smallest_size
+from calc.sheet import parse
+from calc.solve import solve
+
+EXAMPLES = sorted((Path(__file__).resolve().parents[2] / "examples").glob("*.json"))
+
+
+def load(name):
+    return json.loads((Path(__file__).resolve().parents[2] / "examples" / name).read_text())
+
+
+def test_there_are_at_least_three_demo_sheets():
+    names = {p.name for p in EXAMPLES}
+    assert {"hydro-penstock.json", "pumped-main.json", "cooling-water.json"} <= names
+
+
+@pytest.mark.parametrize("path", EXAMPLES, ids=lambda p: p.name)
+def test_every_demo_sheet_solves_with_a_design_point(path, capsys):
+    assert main(["solve", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "design point" in out and "Solve log" in out
+
+
+def test_json_output_is_si_and_complete(capsys):
+    path = Path(__file__).resolve().parents[2] / "examples" / "hydro-penstock.json"
+    assert main(["solve", str(path), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["status"] == "solved"
+    assert len(data["points"]) == 2  # a turbine at set power: two points
+    design = data["points"][data["design_index"]]
+    turbine = design["elements"][-1]
+    assert turbine["power_shaft"] == pytest.approx(85e3, rel=1e-9)  # W
+    assert 0.01 < design["Q"] < 1.0  # m3/s
+
+
+def test_bad_file_gives_field_errors_not_a_traceback(tmp_path):
+    doc = load("pumped-main.json")
+    doc["elements"][3]["length"] = "2100"
+    doc["elements"][1]["curve"] = doc["elements"][1]["curve"][:2]
+    f = tmp_path / "bad.json"
+    f.write_text(json.dumps(doc))
+    r = subprocess.run([sys.executable, "-m", "calc.cli", "solve", str(f)], capture_output=True, text=True)
+    assert r.returncode == 2
+    assert "elements.3.length: needs a unit" in r.stderr
+    assert "elements.1.curve" in r.stderr
+    assert "Traceback" not in r.stderr
+
+
+def test_not_json_is_reported(tmp_path):
+    f = tmp_path / "x.json"
+    f.write_text("{not json")
+    r = subprocess.run([sys.executable, "-m", "calc.cli", "solve", str(f)], capture_output=True, text=True)
+    assert r.returncode == 1 and "not valid JSON" in r.stderr and "Traceback" not in r.stderr
+
+
+def test_schema_is_printed(capsys):
+    assert main(["schema"]) == 0
+    schema = json.loads(capsys.readouterr().out)
+    assert schema["properties"]["format"]["const"] == "headsheet-sheet"
+
+
+def test_head_needed_is_zero_at_the_operating_point():
+    line = parse(load("pumped-main.json")).line
+    Q = solve(line).design["Q"]
+    assert abs(head_needed(line, Q).shortfall) < 1e-9
+    # More flow than the line carries needs more head than it has.
+    assert head_needed(line, 1.5 * Q).shortfall > 0
+
+
+def test_smallest_size_is_the_first_that_passes():
+    doc = load("cooling-water.json")
+    line = parse(doc).line
+    Q = 0.018
+    choice = smallest_size(line, Q, "asme-b36.10m", "40")
+    assert choice.nominal is not None and choice.shortfall <= 0
+    # The size just below it does not pass.
+    assert len(choice.tried) >= 2 and choice.tried[-2]["shortfall"] > 0
+
+
+def test_size_command(capsys):
+    path = Path(__file__).resolve().parents[2] / "examples" / "cooling-water.json"
+    assert main(["size", str(path), "--flow", "285 gpm", "--standard", "asme-b36.10m", "--class", "40"]) == 0
+    assert "Smallest" in capsys.readouterr().out
+
+
+def test_head_command(capsys):
+    path = Path(__file__).resolve().parents[2] / "examples" / "pumped-main.json"
+    assert main(["head", str(path), "--flow", "30 L/s"]) == 0
+    assert "extra head needed" in capsys.readouterr().out
