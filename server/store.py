@@ -133,6 +133,13 @@ def _revision(row: sqlite3.Row | tuple) -> Revision:
     return Revision(sheet_id, number, document, digest, created, author, note, base, bool(frozen))
 
 
+def _valid_id(sheet_id: int, number: int | None = None) -> None:
+    """Ids beyond SQLite's integer range cannot exist; say so rather than let the driver overflow."""
+    for value in (sheet_id, number):
+        if value is not None and not 0 < value < 2**63:
+            raise SheetNotFound(sheet_id, number)
+
+
 def _text(value: Any) -> str:
     return value if isinstance(value, str) else ""
 
@@ -198,12 +205,14 @@ class Store:
         return self._summaries("s.archived = ?", (1 if archived else 0,))
 
     def sheet(self, sheet_id: int) -> SheetSummary:
+        _valid_id(sheet_id)
         found = self._summaries("s.id = ?", (sheet_id,))
         if not found:
             raise SheetNotFound(sheet_id)
         return found[0]
 
     def latest(self, sheet_id: int) -> Revision:
+        _valid_id(sheet_id)
         with self._connect() as con:
             row = con.execute(
                 f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? ORDER BY number DESC LIMIT 1",
@@ -214,6 +223,7 @@ class Store:
         return _revision(row)
 
     def revision(self, sheet_id: int, number: int) -> Revision:
+        _valid_id(sheet_id, number)
         with self._connect() as con:
             row = con.execute(
                 f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? AND number = ?",
@@ -225,6 +235,7 @@ class Store:
 
     def revisions(self, sheet_id: int) -> list[Revision]:
         """Every revision of a sheet, newest first."""
+        _valid_id(sheet_id)
         with self._connect() as con:
             rows = con.execute(
                 f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? ORDER BY number DESC",
@@ -258,6 +269,7 @@ class Store:
         Raises StaleRevision when ``base`` is not the latest revision. A document equal to the
         latest one adds nothing, so repeated posts of the same form do not pad the history.
         """
+        _valid_id(sheet_id)
         text = dump_document(document)
         digest = digest_of(text)
         with self._write() as con:
@@ -281,6 +293,7 @@ class Store:
         return Revision(sheet_id, number, text, digest, now, author, note, base, False), True
 
     def set_archived(self, sheet_id: int, archived: bool) -> None:
+        _valid_id(sheet_id)
         with self._write() as con:
             cur = con.execute(
                 "UPDATE sheets SET archived = ?, archived_at = ? WHERE id = ?",

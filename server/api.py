@@ -1,0 +1,240 @@
+"""The JSON API for scripts: list, read, create and replace sheets, read revisions, and solve a document unstored."""
+
+from __future__ import annotations
+
+import json
+from typing import Any
+
+from fastapi import Request
+from fastapi.responses import JSONResponse, Response
+from pydantic import BaseModel, Field
+from starlette.concurrency import run_in_threadpool
+
+from calc import sheet as calc_sheet
+
+from server.editing import too_deep
+from server.results import solve_parsed
+from server.store import Revision, SheetSummary, StaleRevision, Store
+
+MAX_NOTE = 500
+
+
+class FieldError(BaseModel):
+    path: str = Field(description="dotted path of the field in the document, e.g. elements.2.length")
+    message: str
+    value: Any = None
+
+
+class ErrorOut(BaseModel):
+    ok: bool = False
+    status: int
+    title: str
+    message: str
+    errors: list[FieldError] = []
+
+
+class ConflictOut(ErrorOut):
+    current_revision: int = Field(description="the sheet's latest revision; read it, reapply the change, retry")
+
+
+class SheetSummaryOut(BaseModel):
+    id: int
+    title: str
+    calc_number: str
+    project: str
+    revision: int = Field(description="number of the latest revision")
+    changed: str = Field(description="time of the latest revision (ISO 8601, UTC)")
+    created: str
+    archived: bool
+
+
+class SheetListOut(BaseModel):
+    sheets: list[SheetSummaryOut]
+
+
+class SheetOut(BaseModel):
+    id: int
+    revision: int
+    changed: str
+    archived: bool
+    document: dict[str, Any] = Field(description="the sheet document (docs/sheet-format.md)")
+
+
+class RevisionSummaryOut(BaseModel):
+    number: int
+    created: str
+    author: str
+    note: str
+    base: int | None = Field(description="the revision this one was edited from")
+    frozen: bool
+    digest: str = Field(description="SHA-256 of the stored document text")
+
+
+class RevisionListOut(BaseModel):
+    sheet_id: int
+    revisions: list[RevisionSummaryOut]
+
+
+class RevisionOut(RevisionSummaryOut):
+    sheet_id: int
+    document: dict[str, Any]
+
+
+class CreateIn(BaseModel):
+    document: dict[str, Any] = Field(description="a sheet document; it must parse without errors")
+    note: str = Field("", max_length=MAX_NOTE, description="why this sheet was made (kept with the revision)")
+    author: str = Field("", max_length=100)
+
+
+class ReplaceIn(CreateIn):
+    base_revision: int = Field(description="the revision this document was edited from; 409 if it is not the latest")
+
+
+class SavedOut(BaseModel):
+    id: int
+    revision: int
+    added: bool = Field(description="false when the document equals the latest revision, so none was added")
+
+
+class SolveIn(BaseModel):
+    document: dict[str, Any]
+
+
+class SolveOut(BaseModel):
+    ok: bool
+    errors: list[FieldError]
+    solution: dict[str, Any] | None = Field(description="the solution in SI base units (m, m3/s, Pa, W)")
+
+
+def _store(request: Request) -> Store:
+    return request.app.state.store
+
+
+def _error(status: int, title: str, message: str, errors: list | None = None, **extra) -> JSONResponse:
+    body = {"ok": False, "status": status, "title": title, "message": message, "errors": errors or []}
+    body.update(extra)
+    return JSONResponse(body, status_code=status)
+
+
+def _json_value(value: Any) -> Any:
+    if value is None or isinstance(value, (bool, int, float)):
+        return value
+    text = value if isinstance(value, str) else repr(value)
+    return text if len(text) <= 200 else text[:200] + "…"
+
+
+def field_errors(errors: list) -> list[dict]:
+    return [{"path": e.path, "message": e.message, "value": _json_value(e.value)} for e in errors]
+
+
+def _check(document: dict) -> JSONResponse | None:
+    """A 422 response if the document is not a whole, valid sheet; None if it is."""
+    if too_deep(document):
+        return _error(422, "Invalid sheet", "The document nests too deeply to be a sheet.",
+                      [{"path": "", "message": "nests too deeply", "value": None}])
+    parsed = calc_sheet.parse(document)
+    if not parsed.ok:
+        return _error(422, "Invalid sheet", f"The sheet has {len(parsed.errors)} error(s); nothing was saved.",
+                      field_errors(parsed.errors))
+    return None
+
+
+def _summary(s: SheetSummary) -> dict:
+    return {"id": s.id, "title": s.title, "calc_number": s.calc_number, "project": s.project,
+            "revision": s.revision, "changed": s.changed, "created": s.created, "archived": s.archived}
+
+
+def _revision_summary(r: Revision) -> dict:
+    return {"number": r.number, "created": r.created, "author": r.author, "note": r.note, "base": r.base,
+            "frozen": r.frozen, "digest": r.digest}
+
+
+def _with_document(head: dict, document_json: str) -> Response:
+    # The stored text goes out exactly as stored, so a client sees the very bytes that were saved.
+    text = json.dumps(head, ensure_ascii=False, separators=(",", ":"))[:-1] + ',"document":' + document_json + "}"
+    return Response(text, media_type="application/json")
+
+
+# -- endpoints ------------------------------------------------------------------------------------
+
+def list_sheets(request: Request, archived: bool = False) -> dict:
+    return {"sheets": [_summary(s) for s in _store(request).list_sheets(archived=archived)]}
+
+
+def read_sheet(request: Request, sheet_id: int) -> Response:
+    store = _store(request)
+    summary = store.sheet(sheet_id)
+    latest = store.latest(sheet_id)
+    return _with_document({"id": sheet_id, "revision": latest.number, "changed": latest.created,
+                           "archived": summary.archived}, latest.document_json)
+
+
+def create_sheet(request: Request, body: CreateIn) -> Response:
+    refused = _check(body.document)
+    if refused is not None:
+        return refused
+    rev = _store(request).create_sheet(body.document, body.author, body.note or "created through the API")
+    return JSONResponse({"id": rev.sheet_id, "revision": rev.number, "added": True}, status_code=201)
+
+
+def replace_sheet(request: Request, sheet_id: int, body: ReplaceIn) -> Response:
+    store = _store(request)
+    store.latest(sheet_id)  # 404 before 422 for a sheet that does not exist
+    refused = _check(body.document)
+    if refused is not None:
+        return refused
+    try:
+        rev, added = store.add_revision(sheet_id, body.document, body.base_revision, body.author,
+                                        body.note or "replaced through the API")
+    except StaleRevision as conflict:
+        return _error(409, "Conflict", str(conflict), current_revision=conflict.current.number)
+    return JSONResponse({"id": sheet_id, "revision": rev.number, "added": added})
+
+
+def list_revisions(request: Request, sheet_id: int) -> dict:
+    return {"sheet_id": sheet_id, "revisions": [_revision_summary(r) for r in _store(request).revisions(sheet_id)]}
+
+
+def read_revision(request: Request, sheet_id: int, number: int) -> Response:
+    rev = _store(request).revision(sheet_id, number)
+    return _with_document({"sheet_id": sheet_id, **_revision_summary(rev)}, rev.document_json)
+
+
+async def solve(request: Request, body: SolveIn) -> Response:
+    if too_deep(body.document):
+        return _error(422, "Invalid sheet", "The document nests too deeply to be a sheet.",
+                      [{"path": "", "message": "nests too deeply", "value": None}])
+    parsed = await run_in_threadpool(calc_sheet.parse, body.document)
+    if not parsed.ok:
+        return JSONResponse({"ok": False, "errors": field_errors(parsed.errors), "solution": None}, status_code=422)
+    outcome = await run_in_threadpool(solve_parsed, parsed)
+    if outcome.failure:
+        return _error(422, "Not solved", outcome.failure)
+    return JSONResponse({"ok": True, "errors": [], "solution": outcome.solution})
+
+
+def schema() -> dict:
+    return calc_sheet.SCHEMA
+
+
+_ERRORS = {404: {"model": ErrorOut, "description": "no such sheet or revision"},
+           422: {"model": ErrorOut, "description": "the input is not valid; `errors` names each field by path"}}
+
+#: OpenAPI details per route name (the paths themselves are in the route table in server.app).
+ROUTE_DOCS: dict[str, dict] = {
+    "api_list": {"summary": "List sheets", "response_model": SheetListOut, "tags": ["sheets"]},
+    "api_create": {"summary": "Create a sheet", "response_model": SavedOut, "status_code": 201, "tags": ["sheets"],
+                   "responses": {422: _ERRORS[422]}},
+    "api_read": {"summary": "Read a sheet's latest revision", "response_model": SheetOut, "tags": ["sheets"],
+                 "responses": {404: _ERRORS[404]}},
+    "api_replace": {"summary": "Replace a sheet (adds a revision)", "response_model": SavedOut, "tags": ["sheets"],
+                    "responses": {404: _ERRORS[404], 422: _ERRORS[422],
+                                  409: {"model": ConflictOut, "description": "the sheet has moved on since base_revision"}}},
+    "api_revisions": {"summary": "List a sheet's revisions", "response_model": RevisionListOut,
+                      "tags": ["revisions"], "responses": {404: _ERRORS[404]}},
+    "api_revision": {"summary": "Read one revision", "response_model": RevisionOut, "tags": ["revisions"],
+                     "responses": {404: _ERRORS[404]}},
+    "api_solve": {"summary": "Solve a sheet document without storing it", "response_model": SolveOut,
+                  "tags": ["solve"], "responses": {422: {"model": SolveOut, "description": "the document has errors"}}},
+    "api_schema": {"summary": "The JSON Schema of the sheet document", "tags": ["solve"]},
+}

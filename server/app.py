@@ -1,0 +1,241 @@
+"""The web application: one route table, the error pages and JSON errors, and the request size limit."""
+
+from __future__ import annotations
+
+import json
+import logging
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import jinja2
+from fastapi import FastAPI, Request
+from fastapi.exceptions import RequestValidationError
+from fastapi.responses import HTMLResponse, JSONResponse
+from fastapi.staticfiles import StaticFiles
+from fastapi.templating import Jinja2Templates
+from starlette.exceptions import HTTPException as StarletteHTTPException
+
+from server import api, pages
+from server.form import message_id
+from server.results import SolveCache, lowest_pressure, number, quantity
+from server.store import SheetNotFound, Store
+
+log = logging.getLogger("headsheet.server")
+
+ROOT = Path(__file__).resolve().parents[1]
+TEMPLATES = ROOT / "templates"
+STATIC = ROOT / "static"
+EXAMPLES = ROOT / "examples"
+HTMX = "vendor/htmx-2.0.11.min.js"
+#: Largest request body accepted [bytes]: a sheet at its list limits is far smaller.
+MAX_BODY = 1_000_000
+
+# One route table: (path, name, methods, endpoint, shown in the OpenAPI page).
+ROUTES: list[tuple[str, str, list[str], Any, bool]] = [
+    ("/", "home", ["GET"], pages.home, False),
+    ("/sheets", "sheet_create", ["POST"], pages.create_sheet, False),
+    ("/sheets/{sheet_id:int}", "sheet", ["GET"], pages.sheet_page, False),
+    ("/sheets/{sheet_id:int}", "sheet_edit", ["POST"], pages.sheet_edit, False),
+    ("/sheets/{sheet_id:int}/duplicate", "sheet_duplicate", ["POST"], pages.duplicate_sheet, False),
+    ("/sheets/{sheet_id:int}/archive", "sheet_archive", ["POST"], pages.archive_sheet, False),
+    ("/sheets/{sheet_id:int}/unarchive", "sheet_unarchive", ["POST"], pages.unarchive_sheet, False),
+    ("/sheets/{sheet_id:int}/history", "history", ["GET"], pages.history, False),
+    ("/sheets/{sheet_id:int}/revisions/{number:int}", "revision", ["GET"], pages.revision_page, False),
+    ("/sheets/{sheet_id:int}/revisions/{number:int}/restore", "revision_restore", ["POST"],
+     pages.restore_revision, False),
+    ("/api/sheets", "api_list", ["GET"], api.list_sheets, True),
+    ("/api/sheets", "api_create", ["POST"], api.create_sheet, True),
+    ("/api/sheets/{sheet_id}", "api_read", ["GET"], api.read_sheet, True),
+    ("/api/sheets/{sheet_id}", "api_replace", ["PUT"], api.replace_sheet, True),
+    ("/api/sheets/{sheet_id}/revisions", "api_revisions", ["GET"], api.list_revisions, True),
+    ("/api/sheets/{sheet_id}/revisions/{number}", "api_revision", ["GET"], api.read_revision, True),
+    ("/api/solve", "api_solve", ["POST"], api.solve, True),
+    ("/api/schema", "api_schema", ["GET"], api.schema, True),
+]
+
+
+@dataclass
+class Demo:
+    """A demo sheet from the examples folder."""
+
+    name: str
+    title: str
+    document: dict
+
+
+def load_demos(folder: Path = EXAMPLES) -> list[Demo]:
+    demos = []
+    for path in sorted(folder.glob("*.json")) if folder.is_dir() else []:
+        try:
+            doc = json.loads(path.read_text(encoding="utf-8"))
+        except (OSError, ValueError) as exc:
+            log.warning("demo sheet %s skipped: %s", path.name, exc)
+            continue
+        if isinstance(doc, dict):
+            header = doc.get("header") if isinstance(doc.get("header"), dict) else {}
+            demos.append(Demo(path.stem, str(header.get("title") or path.stem), doc))
+    return demos
+
+
+class BodyLimit:
+    """Refuses request bodies over ``limit`` bytes with 413 before any parsing (pure ASGI, so it sees every route)."""
+
+    def __init__(self, app, limit: int = MAX_BODY):
+        self.app = app
+        self.limit = limit
+
+    async def __call__(self, scope, receive, send):
+        if scope["type"] != "http" or scope["method"] in ("GET", "HEAD", "OPTIONS"):
+            await self.app(scope, receive, send)
+            return
+        declared = dict(scope.get("headers") or []).get(b"content-length")
+        too_big = False
+        if declared is not None:
+            try:
+                too_big = int(declared) > self.limit
+            except ValueError:
+                too_big = True
+        chunks: list[bytes] = []
+        size = 0
+        more = not too_big
+        while more:
+            message = await receive()
+            if message["type"] == "http.disconnect":
+                return
+            chunk = message.get("body", b"")
+            size += len(chunk)
+            if size > self.limit:
+                too_big = True
+                break
+            chunks.append(chunk)
+            more = message.get("more_body", False)
+        if too_big:
+            response = error_response(scope.get("path", ""), 413, "Request too large",
+                                      f"A request may carry at most {self.limit // 1000} kB.", scope=scope)
+            await response(scope, receive, send)
+            return
+        body = b"".join(chunks)
+        sent = False
+
+        async def replay():
+            nonlocal sent
+            if not sent:
+                sent = True
+                return {"type": "http.request", "body": body, "more_body": False}
+            return await receive()
+
+        await self.app(scope, replay, send)
+
+
+def _is_api(path: str) -> bool:
+    return path.startswith("/api/") or path == "/api"
+
+
+def error_response(path: str, status: int, title: str, message: str, errors: list | None = None,
+                   scope: dict | None = None, request: Request | None = None, **extra):
+    """The one JSON error shape for the API, and the one error page for everything else."""
+    if _is_api(path):
+        body = {"ok": False, "status": status, "title": title, "message": message, "errors": errors or []}
+        body.update(extra)
+        return JSONResponse(body, status_code=status)
+    templates: Jinja2Templates | None = None
+    app = (request.app if request is not None else (scope or {}).get("app"))
+    if app is not None:
+        templates = app.state.templates
+    if templates is None or request is None:
+        return HTMLResponse(f"<!doctype html><title>{title}</title><h1>{title}</h1><p>{message}</p>",
+                            status_code=status)
+    return templates.TemplateResponse(request, "error.html", {"status": status, "title": title,
+                                                              "message": message, "errors": errors or []},
+                                      status_code=status)
+
+
+_TITLES = {400: "Bad request", 404: "Not found", 405: "Method not allowed", 409: "Conflict",
+           413: "Request too large", 422: "Invalid input", 500: "Internal error"}
+
+
+async def _http_error(request: Request, exc: StarletteHTTPException):
+    detail = exc.detail if isinstance(exc.detail, str) else _TITLES.get(exc.status_code, "Error")
+    if exc.status_code == 404 and detail == "Not Found":
+        detail = "There is nothing at this address."
+    return error_response(request.url.path, exc.status_code, _TITLES.get(exc.status_code, "Error"), detail,
+                          request=request)
+
+
+async def _validation_error(request: Request, exc: RequestValidationError):
+    errors = []
+    for e in exc.errors():
+        loc = [str(p) for p in e.get("loc", ())]
+        if loc and loc[0] in ("body", "query", "path"):
+            loc = loc[1:]
+        errors.append({"path": ".".join(loc), "message": e.get("msg", "is not valid")})
+    return error_response(request.url.path, 422, "Invalid input",
+                          "The request does not have the expected shape; see errors.", errors, request=request)
+
+
+async def _not_found(request: Request, exc: SheetNotFound):
+    return error_response(request.url.path, 404, "Not found", str(exc), request=request)
+
+
+async def _unexpected(request: Request, exc: Exception):
+    log.exception("unhandled error on %s", request.url.path)
+    return error_response(request.url.path, 500, "Internal error",
+                          "Something went wrong in the program; nothing was saved by this request.",
+                          request=request)
+
+
+def _templates() -> Jinja2Templates:
+    env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(TEMPLATES)), autoescape=True,
+                             undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True)
+    templates = Jinja2Templates(env=env)
+
+    @jinja2.pass_context
+    def url_for(context, name: str, /, **params) -> str:
+        # Paths rather than absolute URLs: the page works behind any host name the office uses.
+        request: Request = context["request"]
+        return request.scope.get("root_path", "") + str(request.app.url_path_for(name, **params))
+
+    env.globals["url_for"] = url_for
+    env.globals["htmx_path"] = HTMX
+    env.filters["q"] = quantity
+    env.filters["num"] = number
+    env.filters["when"] = pages.when
+    env.globals["lowest_pressure"] = lowest_pressure
+    env.globals["message_id"] = message_id
+    return templates
+
+
+def create_app(data_dir: Path, demos: list[Demo] | None = None) -> FastAPI:
+    """The application over the store in ``data_dir``; demo sheets are seeded when the store is new."""
+    app = FastAPI(
+        title="Headsheet",
+        summary="Pressurised water line calculation sheets: store, solve and read them.",
+        description=("The JSON API of a Headsheet server. Sheet documents follow the format in "
+                     "docs/sheet-format.md (also served at /api/schema). Every change is kept as a "
+                     "revision; a replace names the revision it was based on and is refused with 409 "
+                     "if the sheet has moved on."),
+        version="1",
+        openapi_url="/api/openapi.json",
+        docs_url="/api/docs",
+        redoc_url=None,
+    )
+    app.state.store = Store(data_dir)
+    app.state.demos = load_demos() if demos is None else demos
+    app.state.solver = SolveCache()
+    app.state.templates = _templates()
+    app.state.store.seed_once([(d.name, d.document) for d in app.state.demos])
+    for path, name, methods, endpoint, in_schema in ROUTES:
+        kwargs: dict[str, Any] = {"name": name, "methods": methods, "include_in_schema": in_schema}
+        if in_schema:
+            kwargs.update(api.ROUTE_DOCS.get(name, {}))
+        else:
+            kwargs["response_class"] = HTMLResponse
+        app.add_api_route(path, endpoint, **kwargs)
+    app.mount("/static", StaticFiles(directory=str(STATIC)), name="static")
+    app.add_exception_handler(StarletteHTTPException, _http_error)
+    app.add_exception_handler(RequestValidationError, _validation_error)
+    app.add_exception_handler(SheetNotFound, _not_found)
+    app.add_exception_handler(Exception, _unexpected)
+    app.add_middleware(BodyLimit, limit=MAX_BODY)
+    return app

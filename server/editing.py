@@ -1,0 +1,305 @@
+"""Editing a sheet document from a posted form: fields by dotted path, list actions, and keeping only valid changes.
+
+Form fields are named by their dotted path in the document (``elements.2.length``), so a
+parse error's path names the field it belongs to. The form also carries the document it was
+drawn from (``doc``), so list items that exist on screen but not yet in the store still have
+somewhere to land.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import re
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+from calc import sheet as calc_sheet
+
+#: Top-level parts of the document a form field may write to.
+SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements")
+#: Fields whose value changes which other fields the form shows.
+SWITCH_KEYS = {"kind", "mode", "type", "standard"}
+#: Keys holding a group of fields that a form may create when the document has none yet.
+CREATABLE_GROUPS = {"size"}
+#: Lists a form may add items to, with the template for a new item and the most allowed.
+LIST_TEMPLATES: dict[str, tuple[dict, int]] = {
+    "fittings": (calc_sheet.FITTING_TEMPLATE, calc_sheet.MAX_FITTINGS),
+    "profile": (calc_sheet.PROFILE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
+    "curve": (calc_sheet.CURVE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
+}
+ELEMENT_NAMES = {"pipe": "pipe run", "turbine": "turbine", "pump": "pump", "valve": "valve"}
+MAX_DEPTH = 12
+MAX_FIELD_LENGTH = 5000
+
+_KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]{0,40}$")
+_INDEX = re.compile(r"^(0|[1-9][0-9]{0,4})$")
+_INT = re.compile(r"^\s*[+-]?\d{1,9}\s*$")
+_MISSING = object()
+
+
+def split_path(path: str) -> list[str | int] | None:
+    """``'elements.2.length'`` -> ``['elements', 2, 'length']``; None if it is not a document path."""
+    parts = path.split(".")
+    if not parts or parts[0] not in SECTIONS:
+        return None
+    out: list[str | int] = []
+    for p in parts:
+        if _INDEX.match(p):
+            out.append(int(p))
+        elif _KEY.match(p):
+            out.append(p)
+        else:
+            return None
+    return out
+
+
+def get_path(doc: Any, path: str | list) -> Any:
+    """The value at a dotted path, or the module's missing marker."""
+    parts = split_path(path) if isinstance(path, str) else path
+    if parts is None:
+        return _MISSING
+    node = doc
+    for p in parts:
+        if isinstance(p, int) and isinstance(node, list) and p < len(node):
+            node = node[p]
+        elif isinstance(p, str) and isinstance(node, dict) and p in node:
+            node = node[p]
+        else:
+            return _MISSING
+    return node
+
+
+def is_missing(value: Any) -> bool:
+    return value is _MISSING
+
+
+def too_deep(obj: Any, limit: int = MAX_DEPTH) -> bool:
+    """Whether JSON data nests deeper than ``limit``; iterative, so hostile input cannot exhaust the stack."""
+    stack = [(obj, 0)]
+    while stack:
+        node, depth = stack.pop()
+        if depth > limit:
+            return True
+        if isinstance(node, dict):
+            stack.extend((v, depth + 1) for v in node.values())
+        elif isinstance(node, list):
+            stack.extend((v, depth + 1) for v in node)
+    return False
+
+
+def _coerce(text: str, old: Any) -> Any:
+    """A typed string becomes the stored value; whole counts stay numbers, everything else is kept as typed."""
+    if isinstance(old, bool):
+        return text
+    if isinstance(old, int) and _INT.match(text):
+        return int(text)
+    if isinstance(old, float):
+        try:
+            if float(text) == old:
+                return old
+        except ValueError:
+            pass
+    return text
+
+
+def set_field(doc: dict, path: str, text: str) -> bool:
+    """Write one typed value into ``doc``; returns whether the document changed.
+
+    Only paths whose container already exists are written (plus a missing ``size`` group),
+    so a posted name can never grow a list or build arbitrary structure.
+    """
+    parts = split_path(path)
+    if parts is None or len(parts) < 2:
+        return False
+    parent = get_path(doc, parts[:-1])
+    if (parent is _MISSING or parent is None) and parts[-2] in CREATABLE_GROUPS and text.strip():
+        grand = get_path(doc, parts[:-2])
+        if isinstance(grand, dict):
+            parent = grand[parts[-2]] = {}
+    key = parts[-1]
+    if isinstance(parent, list) and isinstance(key, int) and key < len(parent):
+        old = parent[key]
+    elif isinstance(parent, dict) and isinstance(key, str):
+        old = parent.get(key, _MISSING)
+    else:
+        return False
+    if isinstance(old, (dict, list)):
+        return False
+    if (old is _MISSING or old is None) and text == "":
+        return False
+    new = _coerce(text, old)
+    if new == old and type(new) is type(old):
+        return False
+    parent[key] = new
+    return True
+
+
+def _set_raw(doc: dict, parts: list, value: Any) -> None:
+    parent = get_path(doc, parts[:-1])
+    key = parts[-1]
+    if value is _MISSING:
+        if isinstance(parent, dict):
+            parent.pop(key, None)
+    elif isinstance(parent, dict) or (isinstance(parent, list) and key < len(parent)):
+        parent[key] = copy.deepcopy(value)
+
+
+def related(a: str, b: str) -> bool:
+    """Whether one path is the other or lies inside it."""
+    return a == b or a.startswith(b + ".") or b.startswith(a + ".")
+
+
+def shape(doc: Any) -> Any:
+    """The list structure of a document: where two documents share it, a path means the same field in both."""
+    if isinstance(doc, dict):
+        return tuple((k, shape(v)) for k, v in doc.items() if isinstance(v, (dict, list)))
+    if isinstance(doc, list):
+        return tuple(shape(v) for v in doc)
+    return None
+
+
+# -- list actions ------------------------------------------------------------------------------
+
+@dataclass
+class ActionResult:
+    doc: dict
+    focus: str | None = None  # id-path of the field to put the cursor in afterwards
+    message: str | None = None  # why the action was refused
+
+
+def apply_action(doc: dict, action: str) -> ActionResult:
+    """Apply a list action such as ``add:elements:pipe``, ``remove:elements.2``, ``up:elements.1.fittings.0``."""
+    verb, _, target = action.partition(":")
+    doc = copy.deepcopy(doc)
+    if verb == "add" and target.startswith("elements:"):
+        kind = target.split(":", 1)[1]
+        template = calc_sheet.ELEMENT_TEMPLATES.get(kind)
+        elements = doc.get("elements")
+        if template is None or not isinstance(elements, list):
+            return ActionResult(doc, message="That kind of element cannot be added here.")
+        if len(elements) >= calc_sheet.MAX_ELEMENTS:
+            return ActionResult(doc, message=f"A sheet holds at most {calc_sheet.MAX_ELEMENTS} elements.")
+        new = copy.deepcopy(template)
+        same = sum(1 for e in elements if isinstance(e, dict) and e.get("kind") == kind)
+        new["label"] = f"{template.get('label', kind)} {same + 1}"
+        elements.append(new)
+        return ActionResult(doc, focus=f"elements.{len(elements) - 1}.label")
+    parts = split_path(target)
+    if parts is None:
+        return ActionResult(doc, message="That action is not one this sheet knows.")
+    if verb == "add":
+        key = parts[-1]
+        if not isinstance(key, str) or key not in LIST_TEMPLATES:
+            return ActionResult(doc, message="That list cannot take new items.")
+        template, limit = LIST_TEMPLATES[key]
+        owner = get_path(doc, parts[:-1])
+        if not isinstance(owner, dict):
+            return ActionResult(doc, message="That list is not on this sheet any more.")
+        items = owner.get(key)
+        if items is None:
+            items = owner[key] = []
+        if not isinstance(items, list):
+            return ActionResult(doc, message="That list cannot take new items.")
+        if len(items) >= limit:
+            return ActionResult(doc, message=f"A list of {key} holds at most {limit} items.")
+        items.append(copy.deepcopy(template))
+        first = next(iter(template), None)
+        return ActionResult(doc, focus=f"{target}.{len(items) - 1}.{first}" if first else None)
+    if verb in ("remove", "up", "down"):
+        index = parts[-1]
+        items = get_path(doc, parts[:-1])
+        if not isinstance(index, int) or not isinstance(items, list) or index >= len(items):
+            return ActionResult(doc, message="That item is not on this sheet any more.")
+        list_path = ".".join(str(p) for p in parts[:-1])
+        if verb == "remove":
+            del items[index]
+            return ActionResult(doc, focus=f"{list_path}.{index - 1}" if index else list_path)
+        other = index - 1 if verb == "up" else index + 1
+        if not 0 <= other < len(items):
+            return ActionResult(doc, focus=target)
+        items[index], items[other] = items[other], items[index]
+        return ActionResult(doc, focus=f"{list_path}.{other}")
+    return ActionResult(doc, message="That action is not one this sheet knows.")
+
+
+# -- the whole edit ----------------------------------------------------------------------------
+
+@dataclass
+class Edit:
+    """What one posted form did: the document to show, the document to keep, and the errors."""
+
+    display: dict  # what the user typed, shown back with the messages
+    keep: dict  # the valid document to store and solve
+    keep_parsed: Any  # calc.sheet.Parsed of ``keep``
+    errors: list  # InputErrors of ``display``, by path
+    changed: list[str] = field(default_factory=list)
+    switched: bool = False  # a field that changes the form's layout was changed
+    focus: str | None = None
+    message: str | None = None
+
+    @property
+    def stale(self) -> bool:
+        """True when what is on screen differs from what was stored and solved."""
+        return self.display != self.keep
+
+
+def form_document(form_doc: str | None, stored: dict) -> dict:
+    """The document the form was drawn from, or the stored one if the form's copy is unusable."""
+    if form_doc:
+        try:
+            doc = json.loads(form_doc)
+        except (ValueError, RecursionError):
+            doc = None
+        if isinstance(doc, dict) and not too_deep(doc):
+            return doc
+    return copy.deepcopy(stored)
+
+
+def edit(stored: dict, drawn_from: dict, fields: dict[str, str], action: str | None,
+         parse: Callable = calc_sheet.parse) -> Edit:
+    """Merge posted fields (and an action) into a sheet, keeping in ``keep`` only what parses.
+
+    A field whose value does not parse is left at its stored value, so the stored sheet is
+    always whole; when errors cannot be pinned on the posted fields (or the lists on screen no
+    longer match the stored ones), nothing from the fields is kept.
+    """
+    typed = copy.deepcopy(drawn_from)
+    moved = [path for path, text in fields.items() if set_field(typed, path, text)]
+    switched = any(str(split_path(p)[-1]) in SWITCH_KEYS for p in moved)
+    same_shape = shape(typed) == shape(stored)
+    changed = [p for p in fields if same_shape and get_path(typed, p) != get_path(stored, p)]
+    parsed = parse(typed)
+    keep, keep_parsed = typed, parsed
+    if not parsed.ok:
+        keep, keep_parsed = _keep_valid(stored, typed, parsed.errors, fields, parse)
+    display_errors = parsed.errors
+    focus = message = None
+    if action:
+        result = apply_action(typed, action)
+        focus, message = result.focus, result.message
+        if message is None:
+            switched = True
+            typed = result.doc
+            display_errors = parse(typed).errors
+            acted = apply_action(keep, action)
+            if acted.message is None:
+                acted_parsed = parse(acted.doc)
+                if acted_parsed.ok:
+                    keep, keep_parsed = acted.doc, acted_parsed
+    return Edit(display=typed, keep=keep, keep_parsed=keep_parsed, errors=display_errors,
+                changed=changed, switched=switched, focus=focus, message=message)
+
+
+def _keep_valid(stored: dict, typed: dict, errors: list, fields: dict[str, str], parse: Callable):
+    stored_parsed = None
+    if shape(typed) == shape(stored):
+        bad = [p for p in fields if split_path(p) and any(related(p, e.path) for e in errors)]
+        trial = copy.deepcopy(typed)
+        for p in bad:
+            _set_raw(trial, split_path(p), get_path(stored, p))
+        trial_parsed = parse(trial)
+        if trial_parsed.ok:
+            return trial, trial_parsed
+    stored_parsed = parse(stored)
+    return copy.deepcopy(stored), stored_parsed

@@ -1,0 +1,371 @@
+"""The sheet form as data: which fields each part of the document shows, with labels, examples and choices."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from calc import friction, tables
+
+from server.editing import get_path, is_missing
+
+
+@dataclass(frozen=True)
+class Spec:
+    """One field of the form: its key in its group, label, input kind and an example value."""
+
+    key: str
+    label: str
+    kind: str = "qty"  # qty | text | textarea | select | ratio | count
+    example: str = ""
+    help: str = ""
+    options: str = ""  # name of an option list in OPTIONS
+    datalist: str = ""  # name of a suggestion list for a free-text field
+    default: str = ""  # what an empty select means, e.g. "anchored throughout"
+    wide: bool = False
+
+
+def _materials():
+    return [("", "none (type a roughness)")] + [(m.key, m.name) for m in tables.materials()]
+
+
+def _fitting_types():
+    own = [("k", "K typed"), ("2k", "2-K (Hooper 1981) typed"), ("3k", "3-K (Darby 2001) typed")]
+    return own + [(f.key, f.name) for f in tables.fittings()]
+
+
+def _standards():
+    return [("", "none (type the diameter)")] + list(tables.size_standards().items())
+
+
+def _methods():
+    return [(key, getattr(m, "name", key)) for key, m in friction.METHODS.items()]
+
+
+OPTIONS = {
+    "units": lambda: [("SI", "SI (L/s, m, kPa, kW)"), ("US", "US customary (gpm, ft, psi, hp)")],
+    "revision_scheme": lambda: [("letters", "letters (A, B, C…)"), ("numbers", "numbers (0, 1, 2…)")],
+    "liquid_kind": lambda: [("water", "water (IAPWS properties)"), ("custom", "another liquid (typed properties)")],
+    "start_kind": lambda: [("reservoir", "reservoir or tank"), ("pressure", "point of known pressure")],
+    "end_kind": lambda: [("reservoir", "reservoir or tank"), ("pressure", "point of known pressure"),
+                         ("jet", "free discharge (jet)")],
+    "friction_method": _methods,
+    "material": _materials,
+    "standard": _standards,
+    "restraint": lambda: [("anchored", "anchored throughout"), ("anchored_upstream", "anchored upstream only"),
+                          ("expansion_joints", "expansion joints throughout")],
+    "turbine_mode": lambda: [("power", "set shaft power"), ("head", "fixed head"), ("curve", "head-flow curve")],
+    "pump_mode": lambda: [("curve", "head-flow curve"), ("head", "fixed head")],
+    "fitting_type": _fitting_types,
+}
+
+HEADER = [
+    Spec("title", "Title", "text", wide=True),
+    Spec("project", "Project", "text"),
+    Spec("calc_number", "Calculation number", "text"),
+    Spec("purpose", "Purpose", "textarea", wide=True),
+    Spec("revision_scheme", "Revision scheme", "select", options="revision_scheme"),
+    Spec("units", "Results shown in", "select", options="units"),
+]
+LIQUID = {
+    "water": [Spec("kind", "Liquid", "select", options="liquid_kind"),
+              Spec("temperature", "Temperature", example="12 degC")],
+    "custom": [Spec("kind", "Liquid", "select", options="liquid_kind"),
+               Spec("name", "Name", "text"),
+               Spec("density", "Density", example="998 kg/m^3"),
+               Spec("viscosity", "Dynamic viscosity", example="1.0 mPa*s"),
+               Spec("vapour_pressure", "Vapour pressure (absolute)", example="2.3 kPa"),
+               Spec("bulk_modulus", "Bulk modulus", example="2.19 GPa", help="optional; for the surge check")],
+}
+SITE = [Spec("atmospheric_pressure", "Atmospheric pressure (absolute)", example="101.325 kPa")]
+SETTINGS = [Spec("friction_method", "Friction factor", "select", options="friction_method")]
+NODE = {
+    "reservoir": [Spec("elevation", "Water surface elevation", example="412 m"),
+                  Spec("pressure", "Pressure on the surface (gauge)", example="0 kPa", help="0 for an open tank"),
+                  Spec("outlet_elevation", "Pipe connection elevation", example="409 m",
+                       help="optional; default the surface")],
+    "pressure": [Spec("elevation", "Elevation", example="20 m"),
+                 Spec("pressure", "Pressure (gauge)", example="3 bar")],
+    "jet": [Spec("elevation", "Jet centre elevation", example="318 m"),
+            Spec("nozzle_diameter", "Nozzle diameter", example="80 mm", help="optional; default the last run's bore")],
+}
+PIPE = [
+    Spec("label", "Label", "text"),
+    Spec("length", "Length", example="420 m"),
+    Spec("end_elevation", "Elevation at the run's end", example="352 m"),
+    Spec("diameter", "Inner diameter", example="300 mm", help="leave empty to take it from the size"),
+    Spec("size.standard", "Size table", "select", options="standard"),
+    Spec("size.nominal", "Nominal size", "text", datalist="nominal"),
+    Spec("size.class", "Class", "text", datalist="class"),
+    Spec("material", "Material", "select", options="material"),
+    Spec("roughness", "Roughness", example="0.05 mm", help="leave empty to use the material's"),
+    Spec("wall_thickness", "Wall thickness", example="8 mm", help="optional; else from the size"),
+    Spec("rating", "Pressure rating (gauge)", example="16 bar", help="optional"),
+    Spec("restraint", "Restraint", "select", options="restraint", default="anchored throughout"),
+]
+TURBINE = {
+    "power": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="turbine_mode"),
+              Spec("power", "Shaft power", example="40 kW"),
+              Spec("efficiency", "Efficiency", "ratio", example="0.85 or 85 %")],
+    "head": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="turbine_mode"),
+             Spec("head", "Head taken from the flow", example="60 m"),
+             Spec("efficiency", "Efficiency", "ratio", example="0.85", help="optional; default 1")],
+    "curve": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="turbine_mode"),
+              Spec("efficiency", "Efficiency", "ratio", example="0.85", help="optional; default 1")],
+}
+PUMP = {
+    "curve": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="pump_mode"),
+              Spec("speed_ratio", "Speed ratio", "ratio", example="1", help="affinity laws; default 1"),
+              Spec("efficiency", "Efficiency", "ratio", example="0.75",
+                   help="optional; used when the curve has none")],
+    "head": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="pump_mode"),
+             Spec("head", "Head added to the flow", example="25 m"),
+             Spec("efficiency", "Efficiency", "ratio", example="0.75", help="optional")],
+}
+VALVE = [Spec("label", "Label", "text"), Spec("K", "Loss coefficient K", "ratio", example="0.2"),
+         Spec("diameter", "Diameter", example="150 mm", help="optional; default the run before it")]
+FITTING = {
+    "k": [Spec("K", "K", "ratio", example="0.5"), Spec("label", "Label", "text")],
+    "2k": [Spec("K1", "K1", "ratio", example="800"), Spec("Kinf", "K∞", "ratio", example="0.25"),
+           Spec("label", "Label", "text")],
+    "3k": [Spec("K1", "K1", "ratio", example="800"), Spec("Ki", "Ki", "ratio", example="0.14"),
+           Spec("Kd", "Kd", "ratio", example="4"), Spec("label", "Label", "text")],
+}
+PROFILE_POINT = [Spec("chainage", "Chainage", example="210 m"), Spec("elevation", "Elevation", example="385 m")]
+TURBINE_POINT = [Spec("flow", "Flow", example="100 L/s"), Spec("head", "Head", example="60 m")]
+PUMP_POINT = [Spec("flow", "Flow", example="20 L/s"), Spec("head", "Head", example="36 m"),
+              Spec("efficiency", "Efficiency", "ratio", example="0.7"),
+              Spec("npsh_required", "NPSH required", example="3 m")]
+
+ELEMENT_TITLES = {"pipe": "Pipe run", "turbine": "Turbine", "pump": "Pump", "valve": "Valve"}
+
+
+def field_id(path: str) -> str:
+    """An HTML id for a document path (dots read badly in CSS selectors)."""
+    return "f-" + path.replace(".", "-")
+
+
+def message_id(path: str) -> str:
+    return "m-" + path.replace(".", "-")
+
+
+@dataclass(frozen=True)
+class Field:
+    """A field ready to render: where it writes, what it shows and what is wrong with it."""
+
+    path: str
+    spec: Spec
+    value: str
+    error: str | None
+    options: list[tuple[str, str]]
+    suggestions: list[str]
+    autofocus: bool
+
+    @property
+    def id(self) -> str:
+        return field_id(self.path)
+
+    @property
+    def message_id(self) -> str:
+        return message_id(self.path)
+
+
+def _shown(value: Any) -> str:
+    if is_missing(value) or value is None:
+        return ""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (int, float)):
+        return repr(value) if isinstance(value, float) else str(value)
+    if isinstance(value, str):
+        return value
+    return ""  # a group or list where a value belongs; the parse message says so
+
+
+class FormView:
+    """Builds Field objects for a document and its parse errors; the templates only lay them out."""
+
+    def __init__(self, doc: dict, errors: list | None = None, focus: str | None = None, readonly: bool = False):
+        self.doc = doc
+        self.errors: dict[str, str] = {}
+        for e in errors or []:
+            self.errors.setdefault(e.path, e.message)
+        self.focus = focus
+        self.readonly = readonly
+
+    def get(self, path: str, default: Any = "") -> Any:
+        value = get_path(self.doc, path)
+        return default if is_missing(value) or value is None else value
+
+    def items(self, path: str) -> list:
+        value = get_path(self.doc, path)
+        return value if isinstance(value, list) else []
+
+    def field(self, prefix: str, spec: Spec) -> Field:
+        path = f"{prefix}.{spec.key}"
+        value = _shown(get_path(self.doc, path))
+        options: list[tuple[str, str]] = []
+        if spec.options:
+            options = list(OPTIONS[spec.options]())
+            if value not in {v for v, _ in options}:
+                # Keep what the document holds visible (and posted back unchanged) even if unknown.
+                if value:
+                    text = f"{value} (not a known choice)"
+                else:
+                    text = f"default ({spec.default})" if spec.default else "choose…"
+                options.insert(0, (value, text))
+        suggestions: list[str] = []
+        if spec.datalist:
+            standard = self.get(f"{prefix}.size.standard", "")
+            if standard in tables.size_standards():
+                nominals, classes = tables.size_options(standard)
+                suggestions = nominals if spec.datalist == "nominal" else classes
+        return Field(path, spec, value, self.error_for(path), options, suggestions, path == self.focus)
+
+    def error_for(self, path: str) -> str | None:
+        return self.errors.get(path)
+
+    def fields(self, prefix: str, specs: list[Spec]) -> list[Field]:
+        return [self.field(prefix, s) for s in specs]
+
+    # Each part of the document, as the template lays it out.
+    def header(self) -> list[Field]:
+        return self.fields("header", HEADER)
+
+    def liquid(self) -> list[Field]:
+        kind = self.get("liquid.kind", "water")
+        return self.fields("liquid", LIQUID.get(kind, LIQUID["water"]))
+
+    def site(self) -> list[Field]:
+        return self.fields("site", SITE) + self.fields("settings", SETTINGS)
+
+    def node(self, which: str) -> list[Field]:
+        kind = self.get(f"{which}.kind", "reservoir")
+        specs = NODE.get(kind, NODE["reservoir"])
+        kind_spec = Spec("kind", "Kind", "select", options=f"{which}_kind")
+        return [self.field(which, kind_spec)] + self.fields(which, specs)
+
+    def element_fields(self, index: int) -> list[Field]:
+        prefix = f"elements.{index}"
+        kind = self.get(f"{prefix}.kind", "")
+        if kind == "pipe":
+            return self.fields(prefix, PIPE)
+        if kind == "turbine":
+            return self.fields(prefix, TURBINE.get(self.get(f"{prefix}.mode", "power"), TURBINE["power"]))
+        if kind == "pump":
+            return self.fields(prefix, PUMP.get(self.get(f"{prefix}.mode", "curve"), PUMP["curve"]))
+        if kind == "valve":
+            return self.fields(prefix, VALVE)
+        return [self.field(prefix, Spec("kind", "Kind", "text")), self.field(prefix, Spec("label", "Label", "text"))]
+
+    def point_specs(self, index: int) -> list[Spec] | None:
+        """Columns of the curve table of element ``index``, or None when it shows no curve."""
+        prefix = f"elements.{index}"
+        kind, mode = self.get(f"{prefix}.kind"), self.get(f"{prefix}.mode")
+        if kind == "turbine" and mode == "curve":
+            return TURBINE_POINT
+        if kind == "pump" and mode in ("curve", ""):
+            return PUMP_POINT
+        return None
+
+    def profile_point(self, path: str) -> list[Field]:
+        return self.fields(path, PROFILE_POINT)
+
+    def fitting_fields(self, path: str) -> tuple[Field, Field, list[Field]]:
+        kind = self.get(f"{path}.type", "")
+        type_field = self.field(path, Spec("type", "Fitting", "select", options="fitting_type"))
+        count_field = self.field(path, Spec("count", "Count", "count", example="1"))
+        return type_field, count_field, self.fields(path, FITTING.get(kind, []))
+
+    def message(self, path: str) -> str | None:
+        """The message for a group or list (shown under it), e.g. a curve with too few points."""
+        return self.errors.get(path)
+
+    def elements(self) -> list[tuple[int, str, dict]]:
+        """(index, kind, element) for each element, in flow order."""
+        out = []
+        for i, e in enumerate(self.items("elements")):
+            kind = e.get("kind") if isinstance(e, dict) else None
+            out.append((i, kind if isinstance(kind, str) else "", e if isinstance(e, dict) else {}))
+        return out
+
+    def all_fields(self) -> list[Field]:
+        """Every field the sheet form shows, in page order (the templates call the same methods)."""
+        out = self.header() + self.liquid() + self.site() + self.node("start")
+        for i, kind, _ in self.elements():
+            out += self.element_fields(i)
+            if kind == "pipe":
+                for j, _pt in enumerate(self.items(f"elements.{i}.fittings")):
+                    t, c, rest = self.fitting_fields(f"elements.{i}.fittings.{j}")
+                    out += [t, c] + rest
+                for j, _pt in enumerate(self.items(f"elements.{i}.profile")):
+                    out += self.profile_point(f"elements.{i}.profile.{j}")
+            specs = self.point_specs(i)
+            if specs:
+                for j, _pt in enumerate(self.items(f"elements.{i}.curve")):
+                    out += self.fields(f"elements.{i}.curve.{j}", specs)
+        return out + self.node("end")
+
+
+# -- where a message goes, and how to name a field in words -------------------------------------
+
+_LABELS: dict[str, str] = {}
+for _specs in [HEADER, SITE, SETTINGS, PIPE, VALVE, PROFILE_POINT, PUMP_POINT, TURBINE_POINT,
+               *LIQUID.values(), *NODE.values(), *TURBINE.values(), *PUMP.values(), *FITTING.values()]:
+    for _s in _specs:
+        _LABELS.setdefault(_s.key.split(".")[-1], _s.label)
+_LABELS.update({"kind": "kind", "type": "fitting", "count": "count", "standard": "size table",
+                "nominal": "nominal size", "class": "class", "size": "size", "fittings": "fittings",
+                "profile": "profile", "curve": "curve points", "mode": "given as"})
+_SECTIONS = {"header": "Header", "liquid": "Liquid", "site": "Site", "settings": "Settings", "start": "Start",
+             "end": "End", "elements": "Elements", "format": "Sheet format", "version": "Sheet format version"}
+_ITEMS = {"fittings": "fitting", "profile": "profile point", "curve": "curve point"}
+
+
+def describe(doc: dict, path: str) -> str:
+    """A path in words: ``elements.0.fittings.1.count`` -> ``Element 1 (Penstock) › fitting 2 › count``."""
+    parts = path.split(".") if path else []
+    if not parts:
+        return "Sheet"
+    words = [_SECTIONS.get(parts[0], parts[0])]
+    i = 1
+    if parts[0] == "elements" and len(parts) > 1 and parts[1].isdigit():
+        label = get_path(doc, f"elements.{parts[1]}.label")
+        label = label if isinstance(label, str) and label.strip() else None
+        words = [f"Element {int(parts[1]) + 1}" + (f" ({label})" if label else "")]
+        i = 2
+    while i < len(parts):
+        p = parts[i]
+        if p in _ITEMS and i + 1 < len(parts) and parts[i + 1].isdigit():
+            words.append(f"{_ITEMS[p]} {int(parts[i + 1]) + 1}")
+            i += 2
+            continue
+        words.append(_LABELS.get(p, p.replace("_", " ")))
+        i += 1
+    return " › ".join(words)
+
+
+def slot_paths(form: "FormView") -> tuple[set[str], set[str]]:
+    """Paths with a message slot on the form: (the fields, the groups and lists)."""
+    fields = {f.path for f in form.all_fields()}
+    paths = {"header", "liquid", "site", "settings", "start", "end", "elements"}
+    for i, element in enumerate(form.items("elements")):
+        paths.add(f"elements.{i}")
+        if isinstance(element, dict) and element.get("kind") == "pipe":
+            paths.update({f"elements.{i}.size", f"elements.{i}.fittings", f"elements.{i}.profile"})
+        if form.point_specs(i) is not None:
+            paths.add(f"elements.{i}.curve")
+    return fields, paths
+
+
+def anchor(fields: set[str], groups: set[str], path: str) -> str | None:
+    """Where a link to an error should go: the field itself, else the message under its group."""
+    if path in fields:
+        return field_id(path)
+    parts = path.split(".")
+    while parts:
+        candidate = ".".join(parts)
+        if candidate in groups or candidate in fields:
+            return message_id(candidate) if candidate in groups else field_id(candidate)
+        parts.pop()
+    return None
