@@ -325,7 +325,13 @@ def _pipe(r: _Reader, e: dict, path: str):
     if eps is None and not r.blank(e.get("roughness")):
         pass  # error already recorded
     elif eps is None:
-        if mat is not None:
+        condition = r.choice(e, "condition", f"{path}.condition", ("new", "aged"), "new")
+        if mat is not None and condition == "aged" and mat.eps_aged is None:
+            r.fail(f"{path}.condition", "aged", f"the material table has no aged roughness for {mat.name}: "
+                   "type a roughness instead")
+        elif mat is not None and condition == "aged":
+            eps, eps_source, eps_aged = mat.eps_aged, f"{mat.name}, aged: {mat.source_aged}", mat.eps_aged
+        elif mat is not None:
             eps, eps_source, eps_aged = mat.eps_new, f"{mat.name}: {mat.source_roughness}", mat.eps_aged
         elif r.blank(mkey):
             r.fail(f"{path}.roughness", e.get("roughness"), "is empty: enter a roughness, e.g. 0.05 mm, or choose a material")
@@ -520,6 +526,7 @@ SCHEMA = {
                                     "length": _q("a length"), "diameter": _q("a length"),
                                     "size": {"type": ["object", "null"]}, "material": {"type": ["string", "null"]},
                                     "roughness": _q("a length"), "end_elevation": _q("a length"),
+                                    "condition": {"enum": ["new", "aged"]},
                                     "wall_thickness": _q("a length"), "rating": _q("a gauge pressure"),
                                     "restraint": {"enum": list(RESTRAINTS)},
                                     "profile": {"type": "array", "maxItems": MAX_POINTS},

@@ -144,3 +144,11 @@ def test_material_gives_roughness_with_source():
     doc = with_pipe(roughness="")
     run = parse(doc).line.elements[0]
     assert run.eps > 0 and run.eps_source
+
+
+def test_aged_condition_takes_the_tables_aged_roughness():
+    # Idelchik (2007) aged steel water piping is far rougher than Moody's new commercial steel.
+    new = parse(with_pipe(roughness="", material="steel-commercial")).line.elements[0]
+    aged = parse(with_pipe(roughness="", material="steel-commercial", condition="aged")).line.elements[0]
+    assert aged.eps > 10 * new.eps
+    assert "aged" in aged.eps_source
