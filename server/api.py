@@ -12,7 +12,7 @@ from starlette.concurrency import run_in_threadpool
 
 from calc import sheet as calc_sheet
 
-from server.editing import too_deep
+from server.editing import json_problem
 from server.results import solve_parsed
 from server.store import Revision, SheetSummary, StaleRevision, Store
 
@@ -129,9 +129,9 @@ def field_errors(errors: list) -> list[dict]:
 
 def _check(document: dict) -> JSONResponse | None:
     """A 422 response if the document is not a whole, valid sheet; None if it is."""
-    if too_deep(document):
-        return _error(422, "Invalid sheet", "The document nests too deeply to be a sheet.",
-                      [{"path": "", "message": "nests too deeply", "value": None}])
+    problem = json_problem(document)
+    if problem:
+        return _error(422, "Invalid sheet", f"The document {problem}.", [{"path": "", "message": problem}])
     parsed = calc_sheet.parse(document)
     if not parsed.ok:
         return _error(422, "Invalid sheet", f"The sheet has {len(parsed.errors)} error(s); nothing was saved.",
@@ -201,9 +201,9 @@ def read_revision(request: Request, sheet_id: int, number: int) -> Response:
 
 
 async def solve(request: Request, body: SolveIn) -> Response:
-    if too_deep(body.document):
-        return _error(422, "Invalid sheet", "The document nests too deeply to be a sheet.",
-                      [{"path": "", "message": "nests too deeply", "value": None}])
+    problem = json_problem(body.document)
+    if problem:
+        return _error(422, "Invalid sheet", f"The document {problem}.", [{"path": "", "message": problem}])
     parsed = await run_in_threadpool(calc_sheet.parse, body.document)
     if not parsed.ok:
         return JSONResponse({"ok": False, "errors": field_errors(parsed.errors), "solution": None}, status_code=422)

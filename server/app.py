@@ -187,7 +187,7 @@ async def _unexpected(request: Request, exc: Exception):
 
 def _templates() -> Jinja2Templates:
     env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(TEMPLATES)), autoescape=True,
-                             undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True)
+                             undefined=jinja2.ChainableUndefined, trim_blocks=True, lstrip_blocks=True)
     templates = Jinja2Templates(env=env)
 
     @jinja2.pass_context

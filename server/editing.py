@@ -88,6 +88,17 @@ def too_deep(obj: Any, limit: int = MAX_DEPTH) -> bool:
     return False
 
 
+def json_problem(doc: Any) -> str | None:
+    """Why JSON data cannot be stored as a sheet document (too deep, NaN or infinity), or None."""
+    if too_deep(doc):
+        return "nests too deeply to be a sheet"
+    try:
+        json.dumps(doc, allow_nan=False)
+    except (ValueError, TypeError):
+        return "holds a number that is not finite (NaN or infinity)"
+    return None
+
+
 def _coerce(text: str, old: Any) -> Any:
     """A typed string becomes the stored value; whole counts stay numbers, everything else is kept as typed."""
     if isinstance(old, bool):
@@ -251,7 +262,7 @@ def form_document(form_doc: str | None, stored: dict) -> dict:
             doc = json.loads(form_doc)
         except (ValueError, RecursionError):
             doc = None
-        if isinstance(doc, dict) and not too_deep(doc):
+        if isinstance(doc, dict) and json_problem(doc) is None:
             return doc
     return copy.deepcopy(stored)
 

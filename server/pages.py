@@ -168,7 +168,8 @@ async def _form(request: Request) -> dict[str, str]:
     out: dict[str, str] = {}
     for key, value in data.multi_items():
         if isinstance(value, str) and len(key) <= 200:
-            out[key] = value[: editing.MAX_FIELD_LENGTH]
+            # The document copy may be long (the body limit bounds it); a typed value may not.
+            out[key] = value if key == "doc" else value[: editing.MAX_FIELD_LENGTH]
     return out
 
 
