@@ -1,10 +1,10 @@
-"""One call from a sheet document to everything derived from it: parse, solve, review."""
+"""One call from a sheet document to everything derived from it: parse, solve, review, uncertainty band."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from calc import checks
+from calc import checks, uncertainty
 from calc.elements import Line
 from calc.sheet import Parsed, parse
 from calc.solve import Solution, _json_safe, solve
@@ -13,13 +13,15 @@ from calc.units import InputError
 
 @dataclass
 class Analysis:
-    """The parsed line, its solution and findings; ``errors`` when the sheet does not parse."""
+    """The parsed line, its solution, findings and uncertainty band; ``errors`` when the sheet does not parse."""
 
     doc: dict
     line: Line | None
     solution: Solution | None
     findings: list = field(default_factory=list)
     errors: list[InputError] = field(default_factory=list)
+    band: dict | None = None
+    check_settings: checks.CheckSettings | None = None
 
     @property
     def ok(self) -> bool:
@@ -30,15 +32,19 @@ class Analysis:
             "errors": [{"path": e.path, "message": e.message} for e in self.errors],
             "solution": self.solution.to_dict() if self.solution else None,
             "findings": _json_safe([f.to_dict() for f in self.findings]),
+            "band": _json_safe(self.band),
+            "check_settings": _json_safe(self.check_settings.to_dict()) if self.check_settings else None,
         }
 
 
 def analyse(doc: dict) -> Analysis:
-    """Parse, solve and review a sheet document; never raises on bad input."""
+    """Parse, solve, band and review a sheet document; never raises on bad input."""
     parsed: Parsed = parse(doc)
     if not parsed.ok:
         return Analysis(doc, None, None, errors=parsed.errors)
     line = parsed.line
+    settings = line.settings.get("checks") or checks.CheckSettings()
     solution = solve(line)
-    findings = checks.review(line, solution)
-    return Analysis(doc, line, solution, findings)
+    band = uncertainty.band(line, solution, settings)
+    findings = checks.review(line, solution, settings, band)
+    return Analysis(doc, line, solution, findings, band=band, check_settings=settings)

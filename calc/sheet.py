@@ -6,8 +6,9 @@ import copy
 from dataclasses import dataclass, field
 
 from calc import friction, tables
+from calc.checks import CheckSettings
 from calc.elements import Curve, Fitting, Line, Node, PipeRun, Pump, Turbine, Valve
-from calc.units import (DENSITY, FLOW, LENGTH, MODULUS, POWER, PRESSURE, RATIO, TEMPERATURE,
+from calc.units import (DENSITY, FLOW, LENGTH, MODULUS, POWER, PRESSURE, RATIO, SPEED, TEMPERATURE,
                         VISCOSITY, InputError, Kind, parse_quantity)
 from calc.water import custom_liquid, water
 
@@ -195,6 +196,7 @@ def parse(doc: object) -> Parsed:
     settings = r.obj(doc, "settings", "settings")
     method = r.choice(settings, "friction_method", "settings.friction_method", tuple(friction.METHODS),
                       "colebrook")
+    check_settings = _check_settings(r, r.obj(settings, "checks", "settings.checks"))
 
     start = _node(r, r.obj(doc, "start", "start"), "start", liquid)
     end = _node(r, r.obj(doc, "end", "end"), "end", liquid)
@@ -232,8 +234,74 @@ def parse(doc: object) -> Parsed:
     if r.errors:
         return Parsed(None, r.errors)
     line = Line(start=start, end=end, elements=elements, liquid=liquid, method=method, p_atm=p_atm,
-                header=hdr, settings=dict(settings))
+                header=hdr, settings={**settings, "checks": check_settings})
     return Parsed(line, [])
+
+
+def _check_settings(r: _Reader, d: dict) -> CheckSettings:
+    """``settings.checks``: the limits of the engineering checks and the uncertainty band (defaults if blank)."""
+    p = "settings.checks"
+    given = {}
+
+    def put(name, value):
+        if value is not None:
+            given[name] = value
+
+    put("velocity_max", r.qty(d, "velocity_max", f"{p}.velocity_max", SPEED, required=False, lo=0.0,
+                              lo_open=True, what="the velocity limit"))
+    put("velocity_max_suction", r.qty(d, "velocity_max_suction", f"{p}.velocity_max_suction", SPEED,
+                                      required=False, lo=0.0, lo_open=True, what="the suction velocity limit"))
+    put("velocity_min", r.qty(d, "velocity_min", f"{p}.velocity_min", SPEED, required=False, lo=0.0,
+                              what="the lowest velocity"))
+    put("npsh_margin_ratio", r.qty(d, "npsh_margin_ratio", f"{p}.npsh_margin_ratio", RATIO, required=False,
+                                   lo=1.0, hi=5.0, what="the NPSH margin ratio (NPSHA / NPSHR)"))
+    put("npsh_margin_min", r.qty(d, "npsh_margin_min", f"{p}.npsh_margin_min", LENGTH, required=False, lo=0.0,
+                                 hi=50.0, what="the NPSH margin"))
+    def percent(name, lo, hi, what, lo_open=False):
+        x = r.qty(d, name, f"{p}.{name}", RATIO, required=False, what=what)
+        if x is not None and (x < lo or (lo_open and x == lo) or x > hi):
+            word = "above" if lo_open else "from"
+            return r.fail(f"{p}.{name}", d.get(name),
+                          f"{what} must be {word} {lo * 100:g} % {'and at most' if lo_open else 'to'} {hi * 100:g} %")
+        return x
+
+    put("bep_low", percent("bep_low", 0.0, 1.0, "the low end of the preferred range (of best-efficiency flow)",
+                           lo_open=True))
+    put("bep_high", percent("bep_high", 1.0, 3.0, "the high end of the preferred range (of best-efficiency flow)"))
+    put("k_uncertainty", percent("k_uncertainty", 0.0, 0.9, "the K uncertainty"))
+    put("surge_allowance", r.qty(d, "surge_allowance", f"{p}.surge_allowance", PRESSURE, required=False,
+                                 lo=0.0, what="the surge allowance"))
+    for key in ("roughness_low", "roughness_high"):
+        put(key, _roughness_setting(r, d, key, f"{p}.{key}"))
+    s = CheckSettings(**given, given=tuple(given))
+    if "velocity_min" in given and s.velocity_min >= s.velocity_max:
+        r.fail(f"{p}.velocity_min", d.get("velocity_min"), "must be below velocity_max")
+    lo, hi = s.roughness_low, s.roughness_high
+    if lo and hi and lo[0] == hi[0] and lo[1] > hi[1]:
+        r.fail(f"{p}.roughness_high", d.get("roughness_high"), "must not be below roughness_low")
+    return s
+
+
+def _roughness_setting(r: _Reader, d: dict, key: str, path: str):
+    """A roughness bound: a percentage of each run's roughness ('50 %', 3) or one roughness for every run ('1 mm')."""
+    v = d.get(key)
+    if r.blank(v):
+        return None
+    try:
+        x = parse_quantity(v, RATIO, path)
+        kind = "factor"
+    except InputError:
+        try:
+            x = parse_quantity(v, LENGTH, path)
+            kind = "length"
+        except InputError:
+            return r.fail(path, v, "must be a percentage of each run's roughness, e.g. 300 %, or a roughness, "
+                                   "e.g. 1 mm")
+    if kind == "factor" and not 0.0 < x <= 100.0:
+        return r.fail(path, v, "the factor must be greater than 0 % and at most 10000 %")
+    if kind == "length" and not 0.0 <= x < 0.05:
+        return r.fail(path, v, "the roughness must be zero or more and below 50 mm")
+    return (kind, x)
 
 
 def _liquid(r: _Reader, d: dict):
@@ -517,7 +585,17 @@ SCHEMA = {
             "name": {"type": "string"}, "density": _q("a density"), "viscosity": _q("a viscosity"),
             "vapour_pressure": _q("an absolute pressure"), "bulk_modulus": _q("a modulus")}},
         "site": {"type": "object", "properties": {"atmospheric_pressure": _q("an absolute pressure")}},
-        "settings": {"type": "object", "properties": {"friction_method": {"enum": list(friction.METHODS)}}},
+        "settings": {"type": "object", "properties": {
+            "friction_method": {"enum": list(friction.METHODS)},
+            "checks": {"type": "object", "properties": {
+                "velocity_max": _q("a velocity"), "velocity_max_suction": _q("a velocity"),
+                "velocity_min": _q("a velocity"), "npsh_margin_ratio": _RATIO, "npsh_margin_min": _q("a length"),
+                "bep_low": _RATIO, "bep_high": _RATIO, "k_uncertainty": _RATIO,
+                "roughness_low": {"type": ["string", "number", "null"],
+                                  "description": "a percentage of each run's roughness, or a roughness"},
+                "roughness_high": {"type": ["string", "number", "null"],
+                                   "description": "a percentage of each run's roughness, or a roughness"},
+                "surge_allowance": _q("a pressure")}}}},
         "start": {"$ref": "#/$defs/node"},
         "end": {"$ref": "#/$defs/node"},
         "elements": {"type": "array", "maxItems": MAX_ELEMENTS, "items": {"type": "object", "required": ["kind"],
