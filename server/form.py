@@ -271,6 +271,16 @@ class FormView:
     def profile_point(self, path: str) -> list[Field]:
         return self.fields(path, PROFILE_POINT)
 
+    def fitting_note(self, path: str) -> str:
+        """Where a table fitting's K comes from, in a few words."""
+        key = self.get(f"{path}.type", "")
+        try:
+            model = tables.fitting(str(key)).model
+        except LookupError:
+            return ""
+        return {"k": "K from the fittings table", "2k": "2-K values from the fittings table (Hooper 1981)",
+                "3k": "3-K values from the fittings table (Darby 2001)"}.get(model, "from the fittings table")
+
     def fitting_fields(self, path: str) -> tuple[Field, Field, list[Field]]:
         kind = self.get(f"{path}.type", "")
         type_field = self.field(path, Spec("type", "Fitting", "select", options="fitting_type"))

@@ -155,6 +155,7 @@ class Store:
             # WAL lets readers carry on during a write; it is a property of the file, so set once.
             con.execute("PRAGMA journal_mode=WAL")
             con.executescript(_SCHEMA)
+            con.executescript(_SIGNOFF_SCHEMA)  # sign-off block, end of file
             con.execute(f"PRAGMA user_version={SCHEMA_VERSION}")
 
     @contextmanager
@@ -311,3 +312,133 @@ class Store:
             created = [self._create(con, dump_document(doc), now, "", f"demo sheet {name}") for name, doc in documents]
             con.execute("INSERT INTO meta (key, value) VALUES ('seeded', ?)", (now,))
         return created
+
+    # == sign-off and record fingerprints (the calculation record; server/record.py) ================
+    # Kept apart from the sheet methods above. Tables in _SIGNOFF_SCHEMA at the end of this file.
+
+    def sign(self, sheet_id: int, number: int, role: str, name: str, comment: str, fingerprint: str) -> dict:
+        """Record one role's signature on a revision; the first signature freezes the revision.
+
+        Roles sign in order (preparer, checker, approver), each once; the checker is not the
+        preparer; a revision's first signature must be on the sheet's latest revision. Raises
+        SignOffRefused (with an HTTP-like status) otherwise, SheetNotFound for no such revision.
+        """
+        _valid_id(sheet_id, number)
+        order = ("preparer", "checker", "approver")
+        if role not in order:
+            raise SignOffRefused(422, f"There is no role '{role}'; the roles are preparer, checker and approver.")
+        with self._write() as con:
+            row = con.execute("SELECT frozen FROM revisions WHERE sheet_id = ? AND number = ?",
+                              (sheet_id, number)).fetchone()
+            if row is None:
+                raise SheetNotFound(sheet_id, number)
+            have = {r: (n, s) for r, n, s in con.execute(
+                "SELECT role, name, signed FROM signatures WHERE sheet_id = ? AND number = ?", (sheet_id, number))}
+            if role in have:
+                who, when = have[role]
+                raise SignOffRefused(409, f"Revision {number} was already signed as {role} by {who} on {when[:10]}. "
+                                          "A signed revision cannot change: edit the sheet to start the next revision.")
+            before = order[order.index(role) - 1] if role != "preparer" else None
+            if before is not None and before not in have:
+                raise SignOffRefused(409, f"The {before} signs before the {role}.")
+            if role == "checker" and _same_person(name, have["preparer"][0]):
+                raise SignOffRefused(422, "The checker must be someone other than the preparer.")
+            if not have:
+                latest = con.execute("SELECT MAX(number) FROM revisions WHERE sheet_id = ?", (sheet_id,)).fetchone()[0]
+                if latest != number:
+                    raise SignOffRefused(409, f"Revision {number} has been superseded by revision {latest}: "
+                                              "sign-off starts on the latest revision.")
+                con.execute("UPDATE revisions SET frozen = 1 WHERE sheet_id = ? AND number = ?", (sheet_id, number))
+            signed = _now()
+            con.execute("INSERT INTO signatures (sheet_id, number, role, name, comment, signed, fingerprint) "
+                        "VALUES (?, ?, ?, ?, ?, ?, ?)", (sheet_id, number, role, name, comment, signed, fingerprint))
+        return {"role": role, "name": name, "comment": comment, "signed": signed, "fingerprint": fingerprint}
+
+    def signatures(self, sheet_id: int, number: int) -> list[dict]:
+        """The signatures on one revision, in role order."""
+        _valid_id(sheet_id, number)
+        with self._connect() as con:
+            rows = con.execute(
+                "SELECT role, name, comment, signed, fingerprint FROM signatures WHERE sheet_id = ? AND number = ? "
+                "ORDER BY CASE role WHEN 'preparer' THEN 0 WHEN 'checker' THEN 1 ELSE 2 END",
+                (sheet_id, number)).fetchall()
+        return [dict(zip(("role", "name", "comment", "signed", "fingerprint"), r)) for r in rows]
+
+    def frozen_before(self, sheet_id: int, number: int) -> int:
+        """How many revisions of the sheet before ``number`` are frozen (signed): the record's revision index."""
+        _valid_id(sheet_id, number)
+        with self._connect() as con:
+            return con.execute("SELECT COUNT(*) FROM revisions WHERE sheet_id = ? AND number < ? AND frozen = 1",
+                               (sheet_id, number)).fetchone()[0]
+
+    def remember_fingerprint(self, fingerprint: str, sheet_id: int, number: int, version: str) -> None:
+        """Note that a record of this revision carried this fingerprint, so the verify page can find it."""
+        with self._write() as con:
+            con.execute("INSERT OR IGNORE INTO fingerprints (fingerprint, sheet_id, number, version, created) "
+                        "VALUES (?, ?, ?, ?, ?)", (fingerprint, sheet_id, number, version, _now()))
+
+    def find_fingerprint(self, prefix: str) -> list[dict]:
+        """Revisions whose record fingerprint starts with ``prefix`` (lowercase hex)."""
+        if not prefix or any(c not in "0123456789abcdef" for c in prefix):
+            return []
+        with self._connect() as con:
+            rows = con.execute("SELECT fingerprint, sheet_id, number, version, created FROM fingerprints "
+                               "WHERE fingerprint >= ? AND fingerprint < ? ORDER BY sheet_id, number",
+                               (prefix, prefix + "g")).fetchall()
+        return [dict(zip(("fingerprint", "sheet_id", "number", "version", "created"), r)) for r in rows]
+
+    def revisions_without_fingerprint(self, version: str, limit: int) -> list[Revision]:
+        """Revisions no record fingerprint of this program version is known for (oldest first)."""
+        with self._connect() as con:
+            rows = con.execute(
+                f"SELECT {_REVISION_COLUMNS} FROM revisions r WHERE NOT EXISTS (SELECT 1 FROM fingerprints f "
+                "WHERE f.sheet_id = r.sheet_id AND f.number = r.number AND f.version = ?) "
+                "ORDER BY sheet_id, number LIMIT ?", (version, limit)).fetchall()
+        return [_revision(r) for r in rows]
+
+
+class SignOffRefused(StoreError):
+    """A signature the rules do not allow; ``status`` is 409 (the revision's state) or 422 (the input)."""
+
+    def __init__(self, status: int, message: str):
+        self.status = status
+        super().__init__(message)
+
+
+def _same_person(a: str, b: str) -> bool:
+    return " ".join(a.split()).casefold() == " ".join(b.split()).casefold()
+
+
+# Signatures, like revisions, are never rewritten or removed; a signature needs a frozen revision.
+_SIGNOFF_SCHEMA = """
+CREATE TABLE IF NOT EXISTS signatures (
+    sheet_id    INTEGER NOT NULL,
+    number      INTEGER NOT NULL,
+    role        TEXT NOT NULL CHECK (role IN ('preparer', 'checker', 'approver')),
+    name        TEXT NOT NULL,
+    comment     TEXT NOT NULL DEFAULT '',
+    signed      TEXT NOT NULL,
+    fingerprint TEXT NOT NULL,
+    PRIMARY KEY (sheet_id, number, role),
+    FOREIGN KEY (sheet_id, number) REFERENCES revisions(sheet_id, number)
+);
+CREATE TRIGGER IF NOT EXISTS signatures_need_frozen
+BEFORE INSERT ON signatures
+WHEN (SELECT frozen FROM revisions WHERE sheet_id = NEW.sheet_id AND number = NEW.number) IS NOT 1
+BEGIN SELECT RAISE(ABORT, 'a signature needs a frozen revision'); END;
+CREATE TRIGGER IF NOT EXISTS signatures_never_changed
+BEFORE UPDATE ON signatures
+BEGIN SELECT RAISE(ABORT, 'signatures are never changed'); END;
+CREATE TRIGGER IF NOT EXISTS signatures_never_deleted
+BEFORE DELETE ON signatures
+BEGIN SELECT RAISE(ABORT, 'signatures are never deleted'); END;
+CREATE TABLE IF NOT EXISTS fingerprints (
+    fingerprint TEXT NOT NULL,
+    sheet_id    INTEGER NOT NULL,
+    number      INTEGER NOT NULL,
+    version     TEXT NOT NULL,
+    created     TEXT NOT NULL,
+    PRIMARY KEY (fingerprint, sheet_id, number)
+);
+CREATE INDEX IF NOT EXISTS fingerprints_by_revision ON fingerprints (sheet_id, number, version);
+"""
