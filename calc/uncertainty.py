@@ -29,20 +29,26 @@ SOURCE = ("re-solves of this line: roughness new to aged (material table) or as 
 # ----------------------------------------------------------------------------- variants of the line
 
 def roughness_range(run: PipeRun, s: CheckSettings) -> tuple[float, float, str]:
-    """(low, high) roughness of a run for the band [m], and a note when there is no aged value."""
+    """(low, high) roughness of a run for the band [m], and a note when there is no aged value.
+
+    Default: from the material's new roughness (or the run's own, if lower) to its aged roughness
+    (or the run's own, if higher); a setting replaces either end.
+    """
     def bound(setting, default):
         if setting is None:
             return default
         kind, x = setting
         return run.eps * x if kind == "factor" else x
 
+    mat = run.material
     aged = run.eps_aged
-    if aged is None and run.material is not None:
-        aged = run.material.eps_aged
+    if aged is None and mat is not None:
+        aged = mat.eps_aged
     note = ""
     if s.roughness_high is None and aged is None:
         note = f"{run.label or 'a run'}: no aged roughness known; held at {run.eps * 1e3:.3g} mm"
-    lo = bound(s.roughness_low, run.eps)
+    # A run declared aged still spans new to aged: the issue is how far the wall has gone.
+    lo = bound(s.roughness_low, min(run.eps, mat.eps_new) if mat is not None else run.eps)
     hi = bound(s.roughness_high, max(run.eps, aged) if aged is not None else run.eps)
     # Keep eps/D where the friction formulas are meant to work.
     cap = 0.05 * run.D

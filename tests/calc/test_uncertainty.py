@@ -1,0 +1,246 @@
+"""The uncertainty band against independent reference solves with the `fluids` friction formulas."""
+
+import dataclasses
+import json
+import math
+
+import fluids.friction
+import pytest
+from scipy.optimize import brentq
+
+from calc import checks, uncertainty
+from calc.analysis import analyse
+from calc.sheet import blank_sheet, parse
+from calc.solve import solve
+from calc.water import G
+
+# fluids' implementations of the same published formulas (tests only).
+FLUIDS = {
+    "colebrook": fluids.friction.Colebrook,
+    "swamee_jain_1976": fluids.friction.Swamee_Jain_1976,
+    "haaland_1983": fluids.friction.Haaland,
+    "churchill_1977": fluids.friction.Churchill_1977,
+    "serghides_1984": fluids.friction.Serghides_1,
+}
+
+STEEL_NEW, STEEL_AGED = 0.045e-3, 1.35e-3  # material table: Moody 1944 new; Idelchik 2007 used steel
+
+
+def gravity_doc(checks_=None, material="steel-commercial", roughness=""):
+    doc = blank_sheet()
+    doc["elements"][0].update({"length": "500 m", "diameter": "150 mm", "material": material,
+                               "roughness": roughness, "end_elevation": "80 m",
+                               "fittings": [{"type": "k", "K": "0.5", "count": 1},
+                                            {"type": "k", "K": "1.0", "count": 1}]})
+    if checks_:
+        doc["settings"]["checks"] = checks_
+    return doc
+
+
+def line_of(doc):
+    parsed = parse(doc)
+    assert parsed.ok, parsed.errors
+    return parsed.line
+
+
+def reference_flow(line, eps, K=1.5, method="colebrook", dH=20.0, L=500.0, D=0.15):
+    """Independent: the gravity flow by a fluids friction formula and brentq (tests only)."""
+    rho, mu = line.liquid.rho, line.liquid.mu
+    A = math.pi * D * D / 4
+    ff = FLUIDS[method]
+
+    def E(Q):
+        V = Q / A
+        return dH - (ff(rho * V * D / mu, eps / D) * L / D + K) * V * V / (2 * G)
+
+    return brentq(E, 1e-3, 1.0, xtol=1e-16, rtol=1e-15)  # turbulent here: Re above 1e4 from 1 L/s
+
+
+def band_of(doc):
+    line = line_of(doc)
+    sol = solve(line)
+    return line, sol, uncertainty.band(line, sol, line.settings["checks"])
+
+
+def case(b, key):
+    return next(c for c in b["cases"] if c["key"] == key)
+
+
+def test_band_brackets_nominal_and_aged_roughness_gives_less_flow():
+    line, sol, b = band_of(gravity_doc())
+    Q0 = sol.design["Q"]
+    assert b["Q_nominal"] == Q0
+    assert b["Q_low"] < Q0 < b["Q_high"]
+    aged = case(b, "roughness-high")
+    assert aged["Q"] < Q0
+    # Aged steel (1.35 mm, Idelchik 2007 via the material table) by fluids' Colebrook.
+    assert aged["Q"] == pytest.approx(reference_flow(line, STEEL_AGED), rel=1e-9)
+    # New roughness is the nominal here, so no separate low-roughness solve is made.
+    assert not [c for c in b["cases"] if c["key"] == "roughness-low"]
+    assert b["complete"] and b["full_scans"] == 0
+
+
+def test_fitting_k_cases_match_reference():
+    # K values 0.5 + 1.0 varied by the default 20 % (common practice).
+    line, sol, b = band_of(gravity_doc())
+    assert case(b, "fittings-low")["Q"] == pytest.approx(reference_flow(line, STEEL_NEW, K=1.2), rel=1e-9)
+    assert case(b, "fittings-high")["Q"] == pytest.approx(reference_flow(line, STEEL_NEW, K=1.8), rel=1e-9)
+
+
+@pytest.mark.parametrize("method", ["swamee_jain_1976", "haaland_1983", "churchill_1977", "serghides_1984"])
+def test_friction_formula_cases_match_fluids(method):
+    # Swamee and Jain 1976, Haaland 1983, Churchill 1977, Serghides 1984 as implemented in fluids.
+    # fluids writes Swamee and Jain's 5.74/Re^0.9 as (6.97/Re)^0.9 (6.97^0.9 = 5.73997), which moves
+    # the flow by a few parts in 1e7: hence 1e-6.
+    line, sol, b = band_of(gravity_doc())
+    c = case(b, f"friction-{method}")
+    assert c["method"] == method
+    assert c["Q"] == pytest.approx(reference_flow(line, STEEL_NEW, method=method), rel=1e-6)
+
+
+def test_combined_cases_stack_the_changes():
+    line, sol, b = band_of(gravity_doc())
+    low, high = case(b, "combined-low"), case(b, "combined-high")
+    worst_method = min((c for c in b["cases"] if c["factor"] == "friction"), key=lambda c: c["Q"])["method"]
+    best_method = max((c for c in b["cases"] if c["factor"] == "friction"), key=lambda c: c["Q"])["method"]
+    assert low["Q"] == pytest.approx(reference_flow(line, STEEL_AGED, K=1.8, method=worst_method), rel=1e-7)
+    assert high["Q"] == pytest.approx(reference_flow(line, STEEL_NEW, K=1.2, method=best_method), rel=1e-7)
+    assert b["Q_low"] == low["Q"] and b["Q_high"] == high["Q"]
+
+
+def test_user_roughness_range():
+    doc = gravity_doc({"roughness_low": "50 %", "roughness_high": "0.5 mm"})
+    line, sol, b = band_of(doc)
+    lo, hi = case(b, "roughness-low"), case(b, "roughness-high")
+    assert lo["Q"] == pytest.approx(reference_flow(line, STEEL_NEW / 2), rel=1e-9)
+    assert hi["Q"] == pytest.approx(reference_flow(line, 0.5e-3), rel=1e-9)
+    assert lo["Q"] > sol.design["Q"] > hi["Q"]
+
+
+def test_typed_roughness_without_material_has_no_roughness_spread_and_says_so():
+    line, sol, b = band_of(gravity_doc(material="", roughness="0.1 mm"))
+    assert not [c for c in b["cases"] if c["factor"] == "roughness"]
+    assert b["notes"] and "no aged roughness" in b["notes"][0]
+
+
+def test_no_k_spread_when_set_to_zero():
+    _, _, b = band_of(gravity_doc({"k_uncertainty": "0 %"}))
+    assert not [c for c in b["cases"] if c["factor"] == "fittings"]
+
+
+def test_band_does_not_change_the_line():
+    line = line_of(gravity_doc())
+    sol = solve(line)
+    before = json.dumps(sol.to_dict(), sort_keys=True)
+    params = [dict(f.params) for f in line.elements[0].fittings]
+    uncertainty.band(line, sol)
+    assert [dict(f.params) for f in line.elements[0].fittings] == params
+    assert line.elements[0].eps == pytest.approx(STEEL_NEW, rel=1e-12) and line.method == "colebrook"
+    assert json.dumps(solve(line).to_dict(), sort_keys=True) == before
+
+
+def turbine_doc(power="15 kW"):
+    doc = gravity_doc()
+    doc["end"]["elevation"] = "20 m"
+    doc["elements"][0]["end_elevation"] = "20 m"
+    doc["elements"].append({"kind": "turbine", "label": "T1", "mode": "power", "power": power, "efficiency": "0.8"})
+    return doc
+
+
+def test_turbine_band_stays_on_the_design_branch():
+    # A turbine at set power has two operating points; the design point is the lower flow. Every
+    # case must be that same branch: the full solve of the changed line picks the same flow.
+    line, sol, b = band_of(turbine_doc())
+    assert len(sol.points) == 2 and sol.design_index == 0
+    for c in b["cases"]:
+        args = {}
+        if c["factor"] == "roughness":
+            args["eps"] = [STEEL_AGED]
+        elif c["key"] == "fittings-low":
+            args["k_factor"] = 0.8
+        elif c["key"] == "fittings-high":
+            args["k_factor"] = 1.2
+        elif c["factor"] == "friction":
+            args["method"] = c["method"]
+        else:
+            continue
+        full = solve(uncertainty.variant(line, **args))
+        assert c["Q"] == pytest.approx(full.design["Q"], rel=1e-9), c["key"]
+    # More loss asks more water for the same power on the low-flow branch.
+    assert case(b, "roughness-high")["Q"] > sol.design["Q"]
+    shaft = b["machines"][0]
+    assert shaft["what"] == "shaft power" and shaft["low"] == pytest.approx(15e3) == shaft["high"]
+
+
+def test_turbine_that_aged_pipe_cannot_feed_is_a_warning():
+    line = line_of(turbine_doc())
+    P_max = solve(line).machines[0]["power_max"]
+    a = analyse(turbine_doc(power=f"{0.99 * P_max / 1e3} kW"))
+    assert a.solution.design is not None
+    assert case(a.band, "roughness-high")["Q"] is None
+    assert not a.band["complete"]
+    f = [f for f in a.findings if f.code == "band-no-point"]
+    assert len(f) == 1 and f[0].severity == "warning" and "aged" in f[0].message
+
+
+def test_turbine_head_mode_band_gives_a_power_range():
+    doc = turbine_doc()
+    doc["elements"][1].update({"mode": "head", "head": "50 m", "power": ""})
+    line, sol, b = band_of(doc)
+    m = b["machines"][0]
+    assert m["low"] < m["nominal"] < m["high"]
+    # P = eta rho g Q H at the lowest and highest flows (fixed head)
+    assert m["low"] == pytest.approx(0.8 * line.liquid.rho * G * b["Q_low"] * 50.0, rel=1e-12)
+    assert m["high"] == pytest.approx(0.8 * line.liquid.rho * G * b["Q_high"] * 50.0, rel=1e-12)
+
+
+def test_pump_band_reports_head_from_the_curve():
+    doc = gravity_doc()
+    doc["start"]["elevation"] = "80 m"
+    doc["end"]["elevation"] = "100 m"
+    doc["elements"][0]["end_elevation"] = "100 m"
+    doc["elements"].insert(0, {"kind": "pump", "label": "P", "mode": "curve", "curve": [
+        {"flow": "0 L/s", "head": "40 m"}, {"flow": "20 L/s", "head": "36 m"}, {"flow": "40 L/s", "head": "25 m"}]})
+    line, sol, b = band_of(doc)
+    pump = line.elements[0]
+    aged = case(b, "roughness-high")
+    assert aged["Q"] < sol.design["Q"]
+    assert aged["machines"][0]["head"] == pytest.approx(float(pump.pump_head(aged["Q"])), rel=1e-12)
+    m = b["machines"][0]
+    assert m["what"] == "pump head" and m["low"] < m["nominal"] < m["high"]
+
+
+def test_root_near_recovers_from_a_poor_start():
+    # Started a decade away from the root, the local search still closes on the same root (or the
+    # full scan does), matching the full solve.
+    line = line_of(gravity_doc())
+    sol = solve(line)
+    p = sol.design
+    for Q_start in (p["Q"] * 10, p["Q"] / 10):
+        Q, _ = uncertainty.root_near(line, Q_start, p["slope"])
+        assert Q == pytest.approx(p["Q"], rel=1e-9)
+
+
+def test_band_is_json_safe_and_in_the_analysis():
+    a = analyse(gravity_doc())
+    d = json.loads(json.dumps(a.to_dict(), allow_nan=False))
+    assert d["band"]["Q_low"] < d["band"]["Q_nominal"] < d["band"]["Q_high"]
+    assert d["check_settings"]["k_uncertainty"]["value"] == 0.2
+    assert "common practice" in d["check_settings"]["k_uncertainty"]["source"]
+    flow = [f for f in a.findings if f.code == "band-flow"][0]
+    assert flow.severity == "info" and flow.value == a.band["Q_nominal"]
+
+
+def test_variant_scales_every_k_model():
+    # K is linear in K of a plain item, in K1 and Kinf (Hooper 1981) and in K1 and Ki (Darby 2001).
+    doc = gravity_doc()
+    doc["elements"][0]["fittings"] = [{"type": "2k", "K1": "800", "Kinf": "0.25"},
+                                      {"type": "3k", "K1": "800", "Ki": "0.14", "Kd": "4"}]
+    doc["elements"].append({"kind": "valve", "label": "V", "K": "2"})
+    line = line_of(doc)
+    v = uncertainty.variant(line, k_factor=1.25)
+    run, run2 = line.elements[0], v.elements[0]
+    for f1, f2 in zip(run.fittings, run2.fittings):
+        assert f2.K(1e5, 0.15) == pytest.approx(1.25 * f1.K(1e5, 0.15), rel=1e-12)
+    assert v.elements[1].K == pytest.approx(2.5)
+    assert dataclasses.replace(run) is not run and run.fittings[0].params["K1"] == 800.0
