@@ -15,6 +15,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+from calc import checks, uncertainty  # noqa: E402
+from calc.analysis import analyse  # noqa: E402
 from calc.sheet import parse  # noqa: E402
 from calc.solve import solve  # noqa: E402
 from calc.water import G  # noqa: E402
@@ -94,6 +96,29 @@ def main() -> None:
     print(f"plain script (fluids + brentq, two points, no detail):  median {t_ref * 1e3:.3f} ms")
     print(f"parse of the sheet document:                            median {t_parse * 1e3:.3f} ms")
     print(f"ratio headsheet / plain: {t_ours / t_ref:.2f}")
+
+    settings = line.settings["checks"]
+
+    def solve_checks_band():
+        sol = solve(line)
+        band = uncertainty.band(line, sol, settings)
+        return checks.review(line, sol, settings, band)
+
+    band = uncertainty.band(line, sol, settings)
+    t_band = median_time(lambda: uncertainty.band(line, sol, settings), 100)
+    t_checks = median_time(lambda: checks.review(line, sol, settings, band), 100)
+    t_all = median_time(solve_checks_band, 100)
+    t_analyse = median_time(lambda: analyse(twelve_element_doc()), 100)
+    print(f"uncertainty band alone ({band['solves']} re-solves, {band['full_scans']} full scans):    "
+          f"median {t_band * 1e3:.3f} ms")
+    print(f"checks alone (findings from the solution and band):    median {t_checks * 1e3:.3f} ms")
+    print(f"solve + checks + band:                                 median {t_all * 1e3:.3f} ms")
+    print(f"analyse(doc): parse + solve + band + checks:           median {t_analyse * 1e3:.3f} ms")
+    examples = Path(__file__).resolve().parents[1] / "examples"
+    for path in sorted(examples.glob("*.json")):
+        import json
+        doc = json.loads(path.read_text())
+        print(f"analyse({path.name}): median {median_time(lambda: analyse(doc), 50) * 1e3:.3f} ms")
 
 
 if __name__ == "__main__":
