@@ -2,29 +2,9 @@
 
 from __future__ import annotations
 
-import os
-import shutil
-import socket
-import threading
-import time
-from pathlib import Path
-
 import pytest
-import uvicorn
+from browsertools import CHROMIUM_ARGS, LiveServer, chromium_path
 from playwright.sync_api import sync_playwright
-
-from server.app import create_app
-
-SHOTS = Path(os.environ.get("HEADSHEET_SHOTS", "/tmp/shots"))
-CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
-                 "--disable-component-update", "--no-first-run"]
-
-
-def chromium_path() -> str:
-    path = os.environ.get("HEADSHEET_CHROMIUM") or shutil.which("chromium") or shutil.which("chromium-browser")
-    if not path:
-        raise RuntimeError("No Chromium found: install Debian's chromium or set HEADSHEET_CHROMIUM to its path")
-    return path
 
 
 @pytest.fixture(scope="session")
@@ -34,34 +14,6 @@ def browser():
         print(f"\nbrowser: Chromium {browser.version} at {chromium_path()}")
         yield browser
         browser.close()
-
-
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-class LiveServer:
-    def __init__(self, data_dir: Path):
-        self.port = _free_port()
-        self.url = f"http://127.0.0.1:{self.port}"
-        config = uvicorn.Config(create_app(data_dir), host="127.0.0.1", port=self.port, log_level="warning")
-        self.server = uvicorn.Server(config)
-        self.thread = threading.Thread(target=self.server.run, daemon=True)
-
-    def __enter__(self):
-        self.thread.start()
-        deadline = time.monotonic() + 20
-        while not self.server.started:
-            if time.monotonic() > deadline or not self.thread.is_alive():
-                raise RuntimeError("the test server did not start")
-            time.sleep(0.02)
-        return self
-
-    def __exit__(self, *exc):
-        self.server.should_exit = True
-        self.thread.join(timeout=10)
 
 
 @pytest.fixture
@@ -83,8 +35,3 @@ def page(browser, live):
     page.set_default_timeout(10_000)
     yield page
     context.close()
-
-
-def shot(page, name: str) -> None:
-    SHOTS.mkdir(parents=True, exist_ok=True)
-    page.screenshot(path=str(SHOTS / f"{name}.png"), full_page=True)

@@ -6,7 +6,7 @@ import json
 import re
 import urllib.request
 
-from conftest import shot
+from browsertools import shot
 from playwright.sync_api import expect
 
 from calc import sheet as calc_sheet

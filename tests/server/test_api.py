@@ -6,7 +6,7 @@ import copy
 import json
 
 import pytest
-from conftest import demo_files
+from servertools import demo_files
 
 from calc import sheet as calc_sheet
 from server.app import create_app

@@ -6,7 +6,7 @@ import json
 import re
 
 import pytest
-from conftest import HX, demo_files, form_fields
+from servertools import HX, demo_files, form_fields
 
 from calc import sheet as calc_sheet
 from calc import solve as calc_solve

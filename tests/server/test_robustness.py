@@ -10,7 +10,7 @@ from pathlib import Path
 
 import pytest
 
-from conftest import HX, form_fields
+from servertools import HX, form_fields
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
