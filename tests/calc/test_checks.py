@@ -525,7 +525,7 @@ def test_every_check_setting_is_documented_and_in_the_schema():
         assert f"`{n}`" in text, n
 
 
-def test_examples_are_not_changed_by_the_checks():
+def test_checks_do_not_change_the_solution():
     # The checks read the solution; they must not alter it (the record fingerprints it).
     doc = pump_line_doc()
     line = line_of(copy.deepcopy(doc))
