@@ -314,6 +314,11 @@ roughness = st.floats(min_value=0.0, max_value=0.05)
 @given(Re1=turbulent_Re, Re2=turbulent_Re, eD=roughness, method=st.sampled_from(list(METHODS)))
 def test_f_falls_as_Re_rises_in_turbulent_flow(Re1, Re2, eD, method):
     # Moody (1944) chart: at fixed eps/D each curve falls with Re in turbulent flow.
+    # Churchill (1977) is one equation across all regimes; for very rough pipe (eps/D above
+    # about 0.02) its curve still rises just past Re 4000 (up to Re 4552 at eps/D 0.05,
+    # found by a dense scan), so for it the property is checked from Re 5000.
+    if method == "churchill_1977":
+        Re1, Re2 = max(Re1, 5000.0), max(Re2, 5000.0)
     lo, hi = sorted((Re1, Re2))
     f_lo, f_hi = friction_factor(lo, eD, method), friction_factor(hi, eD, method)
     assert f_hi <= f_lo
