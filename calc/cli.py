@@ -37,16 +37,34 @@ def _flow(text: str) -> float:
 
 
 def cmd_solve(args) -> int:
-    from calc.solve import solve
+    from calc.analysis import analyse
 
     doc, line = _load(args.file)
-    sol = solve(line)
+    a = analyse(doc)
+    sol = a.solution
     if args.json:
-        json.dump(sol.to_dict(), sys.stdout, indent=2)
+        data = sol.to_dict()
+        extra = a.to_dict()
+        data["findings"], data["band"] = extra["findings"], extra["band"]
+        json.dump(data, sys.stdout, indent=2, allow_nan=False)
         print()
         return 0 if sol.points else 1
-    print(format_solution(sol, line.header.get("units", "SI"), doc.get("header", {}).get("title", "")))
+    system = a.line.header.get("units", "SI")
+    print(format_solution(sol, system, doc.get("header", {}).get("title", "")))
+    print(format_findings(a.findings, args.all))
     return 0 if sol.points else 1
+
+
+def format_findings(findings, everything: bool = False) -> str:
+    """Findings worst first; the general cautions and plain information only with ``everything``."""
+    shown = [f for f in findings if everything or (f.severity in ("error", "warning")
+                                                   or (f.severity == "caution" and not f.code.startswith("general")))]
+    hidden = len(findings) - len(shown)
+    out = ["", "Checks:" if shown else "Checks: nothing above information level."]
+    out += [f"  [{f.severity}] {f.title}: {f.message}" + (f" (limit: {f.source})" if f.source else "") for f in shown]
+    if hidden:
+        out.append(f"  ({hidden} more: general cautions and information; --all shows them)")
+    return "\n".join(out)
 
 
 def _u(value, quantity, system, sig=4):
@@ -174,6 +192,7 @@ def build_parser() -> argparse.ArgumentParser:
     s = sub.add_parser("solve", help="solve a sheet file and print the operating points")
     s.add_argument("file")
     s.add_argument("--json", action="store_true", help="the full result in SI base units, as JSON")
+    s.add_argument("--all", action="store_true", help="also print the general cautions and information findings")
     s.set_defaults(func=cmd_solve)
     s = sub.add_parser("schema", help="print the JSON Schema of the sheet document")
     s.set_defaults(func=cmd_schema)

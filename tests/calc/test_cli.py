@@ -97,3 +97,14 @@ def test_head_command(capsys):
     path = Path(__file__).resolve().parents[2] / "examples" / "pumped-main.json"
     assert main(["head", str(path), "--flow", "30 L/s"]) == 0
     assert "extra head needed" in capsys.readouterr().out
+
+
+def test_solve_prints_findings_and_json_carries_them(capsys):
+    path = Path(__file__).resolve().parents[2] / "examples" / "siphon-check.json"
+    main(["solve", str(path), "--all"])
+    out = capsys.readouterr().out
+    assert "Checks:" in out and "[caution]" in out
+    main(["solve", str(path), "--json"])
+    data = json.loads(capsys.readouterr().out)
+    assert data["findings"] and all("severity" in f for f in data["findings"])
+    assert data["band"] is not None
