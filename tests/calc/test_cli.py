@@ -95,7 +95,7 @@ def test_size_command(capsys):
 
 def test_head_command(capsys):
     path = Path(__file__).resolve().parents[2] / "examples" / "pumped-main.json"
-    assert main(["head", str(path), "--flow", "30 L/s"]) == 0
+    assert main(["head", str(path), "--flow", "40 L/s"]) == 0
     assert "extra head needed" in capsys.readouterr().out
 
 
