@@ -12,6 +12,7 @@ import copy
 import json
 import re
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any, Callable
 
 from calc import sheet as calc_sheet
@@ -38,8 +39,9 @@ _INT = re.compile(r"^\s*[+-]?\d{1,9}\s*$")
 _MISSING = object()
 
 
-def split_path(path: str) -> list[str | int] | None:
-    """``'elements.2.length'`` -> ``['elements', 2, 'length']``; None if it is not a document path."""
+@lru_cache(maxsize=65536)
+def split_path(path: str) -> tuple[str | int, ...] | None:
+    """``'elements.2.length'`` -> ``('elements', 2, 'length')``; None if it is not a document path."""
     parts = path.split(".")
     if not parts or parts[0] not in SECTIONS:
         return None
@@ -51,10 +53,10 @@ def split_path(path: str) -> list[str | int] | None:
             out.append(p)
         else:
             return None
-    return out
+    return tuple(out)
 
 
-def get_path(doc: Any, path: str | list) -> Any:
+def get_path(doc: Any, path: str | tuple | list) -> Any:
     """The value at a dotted path, or the module's missing marker."""
     parts = split_path(path) if isinstance(path, str) else path
     if parts is None:
@@ -146,7 +148,7 @@ def set_field(doc: dict, path: str, text: str) -> bool:
     return True
 
 
-def _set_raw(doc: dict, parts: list, value: Any) -> None:
+def _set_raw(doc: dict, parts: tuple, value: Any) -> None:
     parent = get_path(doc, parts[:-1])
     key = parts[-1]
     if value is _MISSING:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Any
 
 from calc import friction, tables
@@ -58,6 +59,12 @@ OPTIONS = {
     "pump_mode": lambda: [("curve", "head-flow curve"), ("head", "fixed head")],
     "fitting_type": _fitting_types,
 }
+
+@lru_cache(maxsize=None)
+def _options(name: str) -> tuple[tuple[str, str], ...]:
+    # The tables behind the choices are loaded once and never change while the server runs.
+    return tuple(OPTIONS[name]())
+
 
 HEADER = [
     Spec("title", "Title", "text", wide=True),
@@ -206,7 +213,7 @@ class FormView:
         value = _shown(get_path(self.doc, path))
         options: list[tuple[str, str]] = []
         if spec.options:
-            options = list(OPTIONS[spec.options]())
+            options = list(_options(spec.options))
             if value not in {v for v, _ in options}:
                 # Keep what the document holds visible (and posted back unchanged) even if unknown.
                 if value:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import json
 import sqlite3
+import threading
 from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import datetime, timezone
@@ -145,12 +146,15 @@ def _text(value: Any) -> str:
 
 
 class Store:
-    """All SQL of the program. One connection per call: cheap with SQLite, and safe across threads."""
+    """All SQL of the program. Each thread keeps one connection, so the WAL is not checkpointed on every call."""
 
     def __init__(self, data_dir: Path):
         self.data_dir = Path(data_dir)
         self.data_dir.mkdir(parents=True, exist_ok=True)
         self.path = self.data_dir / DB_NAME
+        self._local = threading.local()
+        self._opened: list[sqlite3.Connection] = []
+        self._lock = threading.Lock()
         with self._connect() as con:
             # WAL lets readers carry on during a write; it is a property of the file, so set once.
             con.execute("PRAGMA journal_mode=WAL")
@@ -160,14 +164,29 @@ class Store:
 
     @contextmanager
     def _connect(self) -> Iterator[sqlite3.Connection]:
-        con = sqlite3.connect(self.path, timeout=10, isolation_level=None, check_same_thread=False)
-        try:
+        # Closing the last connection to a WAL database checkpoints it (a few ms of syncing), so
+        # connections are kept per thread rather than opened for each call.
+        con = getattr(self._local, "con", None)
+        if con is None:
+            con = sqlite3.connect(self.path, timeout=10, isolation_level=None, check_same_thread=False)
             con.execute("PRAGMA synchronous=FULL")  # a saved revision survives a power cut
             con.execute("PRAGMA busy_timeout=10000")
             con.execute("PRAGMA foreign_keys=ON")
-            yield con
-        finally:
-            con.close()
+            self._local.con = con
+            with self._lock:
+                self._opened.append(con)
+        yield con
+
+    def close(self) -> None:
+        """Close every connection this store opened (the file stays consistent either way)."""
+        with self._lock:
+            opened, self._opened = self._opened, []
+        self._local = threading.local()
+        for con in opened:
+            try:
+                con.close()
+            except sqlite3.Error:
+                pass
 
     @contextmanager
     def _write(self) -> Iterator[sqlite3.Connection]:
@@ -195,7 +214,7 @@ class Store:
 
     def _summaries(self, where: str, params: tuple) -> list[SheetSummary]:
         with self._connect() as con:
-            rows = con.execute(f"{self._SUMMARY_SQL} WHERE {where} ORDER BY r.created DESC, s.id DESC", params).fetchall()
+            rows = con.execute(f"{self._SUMMARY_SQL} WHERE {where} ORDER BY r.rowid DESC", params).fetchall()
         return [
             SheetSummary(id_, created, bool(arch), number, changed, _text(title), _text(calc), _text(project))
             for id_, created, arch, number, changed, title, calc, project in rows

@@ -13,8 +13,8 @@ from server.editing import apply_action, edit, get_path, set_field, split_path, 
 
 
 def test_split_path():
-    assert split_path("elements.2.length") == ["elements", 2, "length"]
-    assert split_path("elements.0.fittings.1.K") == ["elements", 0, "fittings", 1, "K"]
+    assert split_path("elements.2.length") == ("elements", 2, "length")
+    assert split_path("elements.0.fittings.1.K") == ("elements", 0, "fittings", 1, "K")
     for bad in ("base", "doc", "action", "elements..length", "elements.-1.length", "elements.01.x",
                 "header.__class__x!", "elements.999999.length"):
         assert split_path(bad) is None, bad
