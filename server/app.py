@@ -17,6 +17,7 @@ from fastapi.templating import Jinja2Templates
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from server import api, pages
+from server import record  # the calculation record: record, PDF, sign-off, verify, compare
 from server.form import message_id
 from server.results import SolveCache, lowest_pressure, number, quantity
 from server.store import SheetNotFound, Store
@@ -232,6 +233,7 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None) -> FastAPI:
         else:
             kwargs["response_class"] = HTMLResponse
         app.add_api_route(path, endpoint, **kwargs)
+    app.include_router(record.router)
     app.mount("/static", StaticFiles(directory=str(STATIC)), name="static")
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _validation_error)

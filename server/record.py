@@ -1,0 +1,384 @@
+"""The calculation record in the browser and as PDF, its sign-off, the verify page and the comparison of two revisions."""
+
+from __future__ import annotations
+
+import json
+import logging
+import re
+from datetime import datetime, timezone
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+from fastapi import APIRouter, Request
+from fastapi.responses import JSONResponse, RedirectResponse, Response
+from pydantic import BaseModel, Field
+from starlette.concurrency import run_in_threadpool
+
+from calc import fingerprint as fp
+from calc import record as calc_record
+from calc.analysis import Analysis, analyse
+
+from server import pdf
+from server.store import Revision, SheetNotFound, SignOffRefused, Store
+
+log = logging.getLogger("headsheet.record")
+
+MAX_NAME = 100
+MAX_COMMENT = 500
+#: Shortest fingerprint prefix the verify page accepts: 16 hex digits, 64 bits, no accidental match.
+MIN_PREFIX = 16
+#: Revisions fingerprinted per verify request when a fingerprint is not yet indexed.
+INDEX_BATCH = 500
+TITLE_RUNNING = 90  # characters of the title in the running header
+STATIC = Path(__file__).resolve().parents[1] / "static"
+
+
+def _store(request: Request) -> Store:
+    return request.app.state.store
+
+
+@lru_cache(maxsize=32)
+def _analysis(document_json: str) -> Analysis:
+    """The analysis of a stored revision, by its exact text: a record and its PDF solve once."""
+    return analyse(json.loads(document_json))
+
+
+def _url(request: Request, name: str, **params) -> str:
+    return request.scope.get("root_path", "") + str(request.app.url_path_for(name, **params))
+
+
+def _now() -> str:
+    return datetime.now(timezone.utc).isoformat(timespec="seconds")
+
+
+def _label(store: Store, rev: Revision) -> tuple[int, str]:
+    doc = rev.document
+    header = doc.get("header") if isinstance(doc, dict) and isinstance(doc.get("header"), dict) else {}
+    scheme = header.get("revision_scheme") if header.get("revision_scheme") in ("letters", "numbers") else "letters"
+    index = store.frozen_before(rev.sheet_id, rev.number)
+    return index, scheme
+
+
+def build_record(request: Request, rev: Revision, remember: bool = True) -> tuple[calc_record.Record, Analysis]:
+    """The record of a stored revision, with its label, signatures and verify address; notes its fingerprint."""
+    store = _store(request)
+    analysis = _analysis(rev.document_json)
+    index, _ = _label(store, rev)
+    version = fp.program_version()
+    fprint = fp.fingerprint(analysis, version)
+    meta = calc_record.Meta(
+        sheet_id=rev.sheet_id, store_revision=rev.number, label_index=index, created=rev.created,
+        printed=_now(), frozen=rev.frozen, signatures=store.signatures(rev.sheet_id, rev.number),
+        verify_url=str(request.url_for("verify_one", fingerprint=fprint)),
+    )
+    rec = calc_record.build(analysis, meta, version)
+    if remember:
+        store.remember_fingerprint(rec.fingerprint, rev.sheet_id, rev.number, version)
+    return rec, analysis
+
+
+def record_context(request: Request, sheet_id: int, number: int, *, for_pdf: bool = False, paper: str = "a4",
+                   message: str | None = None, message_kind: str = "info", form: dict | None = None) -> dict:
+    """The one context of the record page and of its PDF."""
+    store = _store(request)
+    rev = store.revision(sheet_id, number)
+    latest = store.latest(sheet_id)
+    summary = store.sheet(sheet_id)
+    rec, analysis = build_record(request, rev)
+    scheme = rec.header["revision_scheme"]
+    next_label = calc_record.revision_label(store.frozen_before(sheet_id, number) + 1, scheme)
+    signed_roles = [s.role for s in rec.signoff if s.done]
+    next_role = next((r for r in calc_record.ROLES if r not in signed_roles), None)
+    if for_pdf:
+        def asset(path: str) -> str:
+            return f"{pdf.ASSET_ORIGIN}/static/{path}"
+    else:
+        def asset(path: str) -> str:
+            return _url(request, "static", path=path)
+    title = rec.header["title"] or "(untitled sheet)"
+    return {
+        "r": rec,
+        "sheet": summary,
+        "revision": rev,
+        "latest": latest,
+        "next_label": next_label,
+        "draft": not rec.signed,
+        "next_role": next_role if analysis.ok else None,
+        "role_titles": calc_record.ROLE_TITLES,
+        "severity_titles": calc_record.SEVERITY_TITLES,
+        "for_pdf": for_pdf,
+        "paper": paper,
+        "paper_size": pdf.PAPERS.get(paper, "A4"),
+        "asset": asset,
+        "title_running": title if len(title) <= TITLE_RUNNING else title[: TITLE_RUNNING - 1] + "…",
+        "message": message,
+        "message_kind": message_kind,
+        "form": form or {},
+        "max_name": MAX_NAME,
+        "max_comment": MAX_COMMENT,
+    }
+
+
+def _render(request: Request, template: str, context: dict, status: int = 200) -> Response:
+    return request.app.state.templates.TemplateResponse(request, template, context, status_code=status)
+
+
+def _error_page(request: Request, status: int, title: str, message: str) -> Response:
+    return _render(request, "error.html", {"status": status, "title": title, "message": message, "errors": []}, status)
+
+
+def _json_error(status: int, title: str, message: str, errors: list | None = None) -> JSONResponse:
+    return JSONResponse({"ok": False, "status": status, "title": title, "message": message, "errors": errors or []},
+                        status_code=status)
+
+
+# -- the record -----------------------------------------------------------------------------------
+
+def latest_record(request: Request, sheet_id: int) -> Response:
+    latest = _store(request).latest(sheet_id)
+    return RedirectResponse(_url(request, "record", sheet_id=sheet_id, number=latest.number), status_code=303)
+
+
+async def record_page(request: Request, sheet_id: int, number: int) -> Response:
+    context = await run_in_threadpool(record_context, request, sheet_id, number)
+    return _render(request, "record.html", context)
+
+
+def safe_filename(text: str, fallback: str) -> str:
+    """A file name from user text: letters, digits, dot, dash and underscore only.
+
+    >>> safe_filename('GA/H "001"\\r\\n', "sheet-1")
+    'GA-H-001'
+    """
+    name = re.sub(r"[^A-Za-z0-9._-]+", "-", text).strip("-.")[:80]
+    return name or fallback
+
+
+def render_record_pdf(request: Request, sheet_id: int, number: int, paper: str,
+                      fetcher: pdf.StaticFetcher | None = None) -> tuple[bytes, dict]:
+    """The PDF bytes of a revision's record and the context it was drawn from."""
+    context = record_context(request, sheet_id, number, for_pdf=True, paper=paper)
+    html = request.app.state.templates.env.get_template("record.html").render({**context, "request": request})
+    return pdf.render_pdf(html, STATIC, fetcher), context
+
+
+async def record_pdf(request: Request, sheet_id: int, number: int, paper: str = "a4") -> Response:
+    if paper not in pdf.PAPERS:
+        return _error_page(request, 422, "Invalid input", "Paper must be a4 or letter.")
+    rev = _store(request).revision(sheet_id, number)
+    if not _analysis(rev.document_json).ok:
+        return _error_page(request, 422, "No record",
+                           "This revision has input errors, so it has no record. Fix the sheet first.")
+    body, context = await run_in_threadpool(render_record_pdf, request, sheet_id, number, paper)
+    r = context["r"]
+    name = safe_filename(f"{r.header['calc_number']}-rev-{r.header['revision']}", f"sheet-{sheet_id}-rev-{number}")
+    return Response(body, media_type="application/pdf",
+                    headers={"Content-Disposition": f'attachment; filename="{name}.pdf"'})
+
+
+# -- sign-off -------------------------------------------------------------------------------------
+
+def _check_signature(role: str, name: str, comment: str) -> str | None:
+    if role not in calc_record.ROLES:
+        return "Choose a role: preparer, checker or approver."
+    if not name.strip():
+        return "Type your name to sign."
+    if len(name) > MAX_NAME:
+        return f"A name may be at most {MAX_NAME} characters."
+    if len(comment) > MAX_COMMENT:
+        return f"A comment may be at most {MAX_COMMENT} characters."
+    return None
+
+
+def sign(request: Request, sheet_id: int, number: int, role: str, name: str, comment: str,
+         seen: str | None) -> dict:
+    """Validate and store one signature; raises SignOffRefused with the status to answer."""
+    store = _store(request)
+    rev = store.revision(sheet_id, number)
+    problem = _check_signature(role, name, comment)
+    if problem:
+        raise SignOffRefused(422, problem)
+    analysis = _analysis(rev.document_json)
+    if not analysis.ok:
+        raise SignOffRefused(422, "This revision has input errors, so it has no record to sign.")
+    current = fp.fingerprint(analysis)
+    if seen is not None and fp.normalise(seen) != current:
+        raise SignOffRefused(409, "The record has changed since it was opened (its fingerprint differs): "
+                                  "read it again before signing.")
+    store.remember_fingerprint(current, sheet_id, number, fp.program_version())
+    return store.sign(sheet_id, number, role, " ".join(name.split()), comment.strip(), current)
+
+
+async def sign_form(request: Request, sheet_id: int, number: int) -> Response:
+    try:
+        data = await request.form(max_fields=20, max_files=0)
+    except Exception:  # a malformed form reads as empty
+        data = {}
+    form = {k: (data.get(k) if isinstance(data.get(k), str) else "") for k in ("role", "name", "comment", "fingerprint")}
+    try:
+        await run_in_threadpool(sign, request, sheet_id, number, form["role"], form["name"][:2000],
+                                form["comment"][:5000], form["fingerprint"])
+    except SignOffRefused as refused:
+        context = await run_in_threadpool(record_context, request, sheet_id, number, message=str(refused),
+                                          message_kind="error", form=form)
+        return _render(request, "record.html", context, refused.status)
+    return RedirectResponse(_url(request, "record", sheet_id=sheet_id, number=number) + "#sign-off", status_code=303)
+
+
+class SignIn(BaseModel):
+    role: str = Field(description="preparer, checker or approver; they sign in that order")
+    name: str = Field(max_length=MAX_NAME)
+    comment: str = Field("", max_length=MAX_COMMENT)
+    fingerprint: str | None = Field(None, description="the fingerprint the signer read; 409 if the record differs")
+
+
+def _record_json(request: Request, rev: Revision) -> dict:
+    rec, analysis = build_record(request, rev)
+    return {"sheet_id": rev.sheet_id, "revision": rev.number, "label": rec.header["revision"],
+            "frozen": rev.frozen, "signed": rec.signed, "ok": analysis.ok, "fingerprint": rec.fingerprint,
+            "version": rec.version, "verify_url": rec.verify_url,
+            "signatures": [{"role": s.role, "name": s.name, "comment": s.comment, "signed": s.signed}
+                           for s in rec.signoff if s.done]}
+
+
+async def api_record(request: Request, sheet_id: int, number: int) -> Response:
+    rev = _store(request).revision(sheet_id, number)
+    return JSONResponse(await run_in_threadpool(_record_json, request, rev))
+
+
+async def api_sign(request: Request, sheet_id: int, number: int, body: SignIn) -> Response:
+    try:
+        await run_in_threadpool(sign, request, sheet_id, number, body.role, body.name, body.comment, body.fingerprint)
+    except SignOffRefused as refused:
+        title = "Conflict" if refused.status == 409 else "Invalid input"
+        return _json_error(refused.status, title, str(refused))
+    rev = _store(request).revision(sheet_id, number)
+    return JSONResponse(await run_in_threadpool(_record_json, request, rev), status_code=201)
+
+
+# -- verify ---------------------------------------------------------------------------------------
+
+def _index_missing(store: Store, version: str) -> int:
+    """Fingerprint revisions not yet fingerprinted by this version (a record never opened, or an old version's)."""
+    revs = store.revisions_without_fingerprint(version, INDEX_BATCH)
+    for rev in revs:
+        store.remember_fingerprint(fp.fingerprint(_analysis(rev.document_json), version), rev.sheet_id, rev.number,
+                                   version)
+    return len(revs)
+
+
+def verify(request: Request, typed: str) -> dict:
+    """Matches of a typed fingerprint, each with its revision, label, signatures and whether it is current."""
+    store = _store(request)
+    text = fp.normalise(typed)
+    if not text:
+        return {"typed": typed, "problem": None, "matches": [], "asked": False}
+    if any(c not in "0123456789abcdef" for c in text) or not MIN_PREFIX <= len(text) <= 64:
+        return {"typed": typed, "asked": True, "matches": [],
+                "problem": (f"A fingerprint is 64 characters, the digits 0-9 and letters a-f. Type it whole, "
+                            f"or at least its first {MIN_PREFIX} characters (spaces do not matter).")}
+    found = store.find_fingerprint(text)
+    if not found and _index_missing(store, fp.program_version()):
+        found = store.find_fingerprint(text)
+    matches = []
+    for f in found:
+        try:
+            rev = store.revision(f["sheet_id"], f["number"])
+            summary = store.sheet(f["sheet_id"])
+        except SheetNotFound:
+            continue
+        rec, _ = build_record(request, rev, remember=False)
+        matches.append({"fingerprint": f["fingerprint"], "grouped": fp.grouped(f["fingerprint"]),
+                        "version": f["version"], "sheet": summary, "revision": rev, "label": rec.header["revision"],
+                        "record": rec, "current": rec.fingerprint == f["fingerprint"],
+                        "latest": store.latest(rev.sheet_id).number == rev.number})
+    return {"typed": typed, "problem": None, "matches": matches, "asked": True, "whole": len(text) == 64}
+
+
+async def verify_page(request: Request, fingerprint: str = "") -> Response:
+    context = await run_in_threadpool(verify, request, fingerprint[:200])
+    return _render(request, "verify.html", context)
+
+
+async def verify_one(request: Request, fingerprint: str) -> Response:
+    return await verify_page(request, fingerprint)
+
+
+# -- compare --------------------------------------------------------------------------------------
+
+def compare(request: Request, sheet_id: int, a: int | None, b: int | None) -> dict:
+    store = _store(request)
+    revisions = store.revisions(sheet_id)  # newest first
+    numbers = [r.number for r in revisions]
+    if b is None or b not in numbers:
+        b = numbers[0]
+    if a is None or a not in numbers:
+        frozen = [r.number for r in revisions if r.frozen and r.number < b]
+        a = frozen[0] if frozen else max([n for n in numbers if n < b], default=b)
+    rev_a, rev_b = store.revision(sheet_id, a), store.revision(sheet_id, b)
+    an_a, an_b = _analysis(rev_a.document_json), _analysis(rev_b.document_json)
+    doc_b = rev_b.document
+    header = doc_b.get("header") if isinstance(doc_b.get("header"), dict) else {}
+    system = header.get("units") if header.get("units") in ("SI", "US") else "SI"
+    labels = {}
+    for r in revisions:
+        index, scheme = _label(store, r)
+        labels[r.number] = calc_record.revision_label(index, scheme)
+    return {
+        "sheet": store.sheet(sheet_id),
+        "revisions": revisions,
+        "labels": labels,
+        "a": rev_a,
+        "b": rev_b,
+        "changes": calc_record.input_changes(rev_a.document, doc_b),
+        "results": calc_record.compare(an_a, an_b, system),
+        "errors_a": [e.message for e in an_a.errors],
+        "errors_b": [e.message for e in an_b.errors],
+        "system": system,
+    }
+
+
+def _value(v: Any) -> str:
+    if v is None:
+        return "(none)"
+    if isinstance(v, str):
+        return v if v.strip() else "(empty)"
+    return json.dumps(v, ensure_ascii=False)
+
+
+async def compare_page(request: Request, sheet_id: int, a: int | None = None, b: int | None = None) -> Response:
+    context = await run_in_threadpool(compare, request, sheet_id, a, b)
+    context["show"] = _value
+    return _render(request, "compare.html", context)
+
+
+# -- routes ---------------------------------------------------------------------------------------
+
+_API_DOCS = {
+    "api_record": {"summary": "A revision's record: label, fingerprint, signatures", "tags": ["record"]},
+    "api_sign": {"summary": "Sign a revision as preparer, checker or approver", "tags": ["record"],
+                 "status_code": 201,
+                 "responses": {409: {"description": "already signed, out of order, superseded, or the record "
+                                                    "differs from the fingerprint given"},
+                               422: {"description": "no such role, no name, the checker is the preparer, or "
+                                                    "the revision has input errors"}}},
+}
+
+#: The record's routes: (path, name, methods, endpoint, in the API schema).
+ROUTES: list[tuple[str, str, list[str], Any, bool]] = [
+    ("/sheets/{sheet_id:int}/record", "record_latest", ["GET"], latest_record, False),
+    ("/sheets/{sheet_id:int}/revisions/{number:int}/record", "record", ["GET"], record_page, False),
+    ("/sheets/{sheet_id:int}/revisions/{number:int}/record.pdf", "record_pdf", ["GET"], record_pdf, False),
+    ("/sheets/{sheet_id:int}/revisions/{number:int}/signatures", "record_sign", ["POST"], sign_form, False),
+    ("/sheets/{sheet_id:int}/compare", "compare", ["GET"], compare_page, False),
+    ("/verify", "verify", ["GET"], verify_page, False),
+    ("/verify/{fingerprint}", "verify_one", ["GET"], verify_one, False),
+    ("/api/sheets/{sheet_id}/revisions/{number}/record", "api_record", ["GET"], api_record, True),
+    ("/api/sheets/{sheet_id}/revisions/{number}/signatures", "api_sign", ["POST"], api_sign, True),
+]
+
+router = APIRouter()
+for _path, _name, _methods, _endpoint, _in_schema in ROUTES:
+    router.add_api_route(_path, _endpoint, name=_name, methods=_methods, include_in_schema=_in_schema,
+                         **(_API_DOCS.get(_name, {}) if _in_schema else {}))
