@@ -132,6 +132,16 @@ def test_every_field_has_a_label_and_a_message_slot(client):
         assert f'id="m-{field_id[2:]}"' in html, field_id
 
 
+@pytest.mark.parametrize("index", range(len(demo_files())))
+def test_ids_on_the_sheet_page_are_unique(client, index):
+    html = client.get(f"/sheets/{index + 1}").text
+    ids = re.findall(r'\sid="([^"]+)"', html)
+    assert len(ids) == len(set(ids))
+    # Every link inside the page points at something on it.
+    for target in re.findall(r'href="#([^"]+)"', html):
+        assert target in ids or target == "main", target
+
+
 def test_units_of_the_results_follow_the_header(client, sheet_form):
     fields = sheet_form(1)
     for system, unit in (("SI", "L/s"), ("US", "gpm")):
