@@ -29,6 +29,8 @@ LIST_TEMPLATES: dict[str, tuple[dict, int]] = {
     "profile": (calc_sheet.PROFILE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
     "curve": (calc_sheet.CURVE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
 }
+#: Fields a new pipe run takes from the last one on the sheet.
+CARRIED_ON = ("diameter", "size", "material", "roughness", "wall_thickness", "end_elevation", "rating")
 ELEMENT_NAMES = {"pipe": "pipe run", "turbine": "turbine", "pump": "pump", "valve": "valve"}
 MAX_DEPTH = 12
 MAX_FIELD_LENGTH = 5000
@@ -194,8 +196,13 @@ def apply_action(doc: dict, action: str) -> ActionResult:
         if len(elements) >= calc_sheet.MAX_ELEMENTS:
             return ActionResult(doc, message=f"A sheet holds at most {calc_sheet.MAX_ELEMENTS} elements.")
         new = copy.deepcopy(template)
-        same = sum(1 for e in elements if isinstance(e, dict) and e.get("kind") == kind)
-        new["label"] = f"{template.get('label', kind)} {same + 1}"
+        same = [e for e in elements if isinstance(e, dict) and e.get("kind") == kind]
+        new["label"] = f"{template.get('label', kind)} {len(same) + 1}"
+        if kind == "pipe" and same:
+            # A new run usually carries on from the last one: same bore and wall, level to start with.
+            for key in CARRIED_ON:
+                if key in same[-1]:
+                    new[key] = copy.deepcopy(same[-1][key])
         elements.append(new)
         return ActionResult(doc, focus=f"elements.{len(elements) - 1}.label")
     parts = split_path(target)

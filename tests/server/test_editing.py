@@ -75,6 +75,16 @@ def test_add_element_from_template_with_a_numbered_label():
     assert parse(result.doc).ok
 
 
+def test_a_new_pipe_run_carries_on_from_the_last_one():
+    doc = blank_sheet()
+    last = doc["elements"][0]
+    last.update(diameter="6 in", end_elevation="42 ft", material="pvc-u")
+    new = apply_action(doc, "add:elements:pipe").doc["elements"][-1]
+    assert (new["diameter"], new["end_elevation"], new["material"]) == ("6 in", "42 ft", "pvc-u")
+    assert new["length"] == calc_sheet.ELEMENT_TEMPLATES["pipe"]["length"]
+    assert new["fittings"] == calc_sheet.ELEMENT_TEMPLATES["pipe"]["fittings"]
+
+
 @pytest.mark.parametrize("kind", ["pipe", "turbine", "pump", "valve"])
 def test_every_kind_can_be_added(kind):
     result = apply_action(blank_sheet(), f"add:elements:{kind}")
