@@ -7,6 +7,9 @@ from browsertools import CHROMIUM_ARGS, LiveServer, chromium_path
 from playwright.sync_api import sync_playwright
 
 
+# Not test modules: kept out of --doctest-modules, which would import two files named conftest.
+collect_ignore = ["conftest.py", "browsertools.py"]
+
 @pytest.fixture(scope="session")
 def browser():
     with sync_playwright() as p:
