@@ -10,6 +10,7 @@ from playwright.sync_api import sync_playwright
 # Not test modules: kept out of --doctest-modules, which would import two files named conftest.
 collect_ignore = ["conftest.py", "browsertools.py"]
 
+
 @pytest.fixture(scope="session")
 def browser():
     with sync_playwright() as p:

@@ -18,6 +18,7 @@ from server.app import create_app
 # Not test modules: kept out of --doctest-modules, which would import two files named conftest.
 collect_ignore = ["conftest.py", "servertools.py"]
 
+
 @pytest.fixture
 def data_dir(tmp_path: Path) -> Path:
     return tmp_path / "data"
