@@ -187,7 +187,7 @@ def find_roots(f, f_array, Q_lo: float, Q_hi: float, n: int = SCAN_POINTS):
             continue
         if E[i] == 0.0:
             brackets.append((grid[i], grid[i], 0.0, 0.0))
-        elif E[i] * E[i + 1] < 0.0:
+        elif (E[i] < 0.0) != (E[i + 1] < 0.0):  # a sign change; no product, which can overflow
             brackets.append((grid[i], grid[i + 1], E[i], E[i + 1]))
     # A pair of roots closer together than the grid spacing shows only as an extremum
     # of E on the near side of zero: refine the extremum and split there if it crosses.
@@ -207,7 +207,7 @@ def find_roots(f, f_array, Q_lo: float, Q_hi: float, n: int = SCAN_POINTS):
         e_star = f(q_star)
         if e_star == 0.0:
             brackets.append((q_star, q_star, 0.0, 0.0))
-        elif e_star * E[i] < 0.0:
+        elif (e_star < 0.0) != (E[i] < 0.0):
             brackets.append((grid[i - 1], q_star, E[i - 1], e_star))
             brackets.append((q_star, grid[i + 1], e_star, E[i + 1]))
     roots = []
