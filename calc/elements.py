@@ -44,9 +44,12 @@ class Fitting:
 
     def K(self, Re: float, D: float) -> float:
         """Loss coefficient on the run's velocity head, for one item."""
-        if self.model == "k":
-            return self.params["K"]
-        return tables.fitting_K({"model": self.model, "params": self.params}, Re, D)
+        a, b = self.coefficients(D)
+        return a / Re + b
+
+    def coefficients(self, D: float) -> tuple[float, float]:
+        """(a, b) with K = a / Re + b in a bore D [m] (see tables.k_coefficients)."""
+        return tables.k_coefficients(self.model, self.params, D)
 
     @property
     def position(self) -> str:
@@ -152,39 +155,41 @@ class PipeRun:
     def A(self) -> float:
         return math.pi * self.D * self.D / 4.0
 
-    def _fixed_K(self) -> float | None:
-        """Sum of count*K when every fitting is plain K (the usual case: no Re dependence)."""
-        if all(ft.model == "k" for ft in self.fittings):
-            return sum(ft.count * ft.params["K"] for ft in self.fittings)
-        return None
+    def K_coefficients(self) -> tuple[float, float]:
+        """(A, B) with the run's total fitting K = A / Re + B: each fitting's K has that form."""
+        A = B = 0.0
+        for ft in self.fittings:
+            a, b = ft.coefficients(self.D)
+            A += ft.count * a
+            B += ft.count * b
+        return A, B
+
+    def constants(self) -> tuple:
+        """(1/A, D, eps/D, L/D, K_A, K_B): what the head needs besides the flow, worked out once."""
+        D = self.D
+        key = (D, self.L, self.eps,
+               tuple((ft.model, ft.count, *sorted(ft.params.items())) for ft in self.fittings))
+        if self._cache_key != key:
+            self._cache_key = key
+            self._cache = (4.0 / (math.pi * D * D), D, self.eps / D, self.L / D, *self.K_coefficients())
+        return self._cache
 
     def head(self, Q: float, fluid: Fluid) -> float:
         """h = (f L / D + sum K) V^2 / 2g  [m]."""
         if Q <= 0.0:
             return 0.0
-        # The solver calls this some twenty times a solve: keep the per-call work to arithmetic.
-        D = self.D
-        key = (D, self.L, self.eps, len(self.fittings))
-        if self._cache_key != key:
-            self._cache_key = key
-            self._cache = (4.0 / (math.pi * D * D), self.eps / D, self.L / D, self._fixed_K())
-        inv_A, eD, L_D, K = self._cache
+        inv_A, D, eD, L_D, KA, KB = self.constants()
         V = Q * inv_A
         Re = V * D / fluid.nu
         f = friction.friction_factor(Re, eD, fluid.method)
-        if K is None:
-            K = sum(ft.count * ft.K(Re, D) for ft in self.fittings)
-        return (f * L_D + K) * V * V * _INV_2G
+        return (f * L_D + KA / Re + KB) * V * V * _INV_2G
 
     def head_array(self, Q: np.ndarray, fluid: Fluid) -> np.ndarray:
-        D = self.D
-        V = Q / self.A
+        inv_A, D, eD, L_D, KA, KB = self.constants()
+        V = Q * inv_A
         Re = V * D / fluid.nu
-        f = friction.friction_factor_array(Re, self.eps / D, fluid.method)
-        K = self._fixed_K()
-        if K is None:
-            K = sum(ft.count * np.array([ft.K(r, D) for r in Re]) for ft in self.fittings)
-        return (f * self.L / D + K) * V * V / (2 * G)
+        f = friction.friction_factor_array(Re, eD, fluid.method)
+        return (f * L_D + KA / Re + KB) * V * V * _INV_2G
 
     def detail(self, Q: float, fluid: Fluid) -> dict:
         D = self.D

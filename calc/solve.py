@@ -114,8 +114,9 @@ def make_residual(line: Line, skip: int | None = None):
     for i, el in enumerate(line.elements):
         if i == skip:
             continue
-        if isinstance(el, PipeRun) and (K := el._fixed_K()) is not None:
-            pipes.append((4.0 / (math.pi * el.D * el.D), el.D / nu, el.eps / el.D, el.L / el.D, K))
+        if isinstance(el, PipeRun):
+            inv_A, D, eD, L_D, KA, KB = el.constants()
+            pipes.append((inv_A, D / nu, eD, L_D, KA, KB))
         else:
             others.append(el)
     ff = friction.friction_factor
@@ -123,9 +124,10 @@ def make_residual(line: Line, skip: int | None = None):
 
     def E(Q: float) -> float:
         e = static + c * Q * Q
-        for inv_A, D_nu, eD, L_D, K in pipes:
+        for inv_A, D_nu, eD, L_D, KA, KB in pipes:
             V = Q * inv_A
-            e -= (ff(V * D_nu, eD, method) * L_D + K) * V * V * inv_2g
+            Re = V * D_nu
+            e -= (ff(Re, eD, method) * L_D + KA / Re + KB) * V * V * inv_2g
         for el in others:
             e -= el.head(Q, fluid)
         return e
@@ -134,8 +136,8 @@ def make_residual(line: Line, skip: int | None = None):
 
 
 def residual_array(line: Line, Q: np.ndarray, skip: int | None = None) -> np.ndarray:
-    """E(Q) on an array of flows (the scan). Pipe runs with plain K values go through one batched
-    friction call, since numpy's cost here is per call rather than per value."""
+    """E(Q) on an array of flows (the scan). Every pipe run goes through one batched friction
+    call, since numpy's cost here is per call rather than per value."""
     fluid = line.fluid
     rho = line.liquid.rho
     static = line.start.static_head(rho) - line.end.static_head(rho)
@@ -145,17 +147,17 @@ def residual_array(line: Line, Q: np.ndarray, skip: int | None = None) -> np.nda
     for i, el in enumerate(line.elements):
         if i == skip:
             continue
-        if isinstance(el, PipeRun) and (K := el._fixed_K()) is not None:
-            batch.append((el.D, el.L, el.eps, K))
+        if isinstance(el, PipeRun):
+            batch.append(el.constants())
         else:
             E = E - el.head_array(Q, fluid)
     if batch:
-        D, L, eps, K = (np.array(col)[:, None] for col in zip(*batch))
-        V = Q[None, :] * (4.0 / (np.pi * D * D))
+        inv_A, D, eD, L_D, KA, KB = (np.array(col)[:, None] for col in zip(*batch))
+        V = Q[None, :] * inv_A
         Re = V * D / fluid.nu
-        f = friction.friction_factor_array(Re.ravel(), np.broadcast_to(eps / D, Re.shape).ravel(),
+        f = friction.friction_factor_array(Re.ravel(), np.broadcast_to(eD, Re.shape).ravel(),
                                            fluid.method).reshape(Re.shape)
-        E = E - ((f * L / D + K) * V * V / (2 * G)).sum(axis=0)
+        E = E - ((f * L_D + KA / Re + KB) * V * V / (2 * G)).sum(axis=0)
     return E
 
 

@@ -28,6 +28,7 @@ __all__ = [
     "k_darby_2001",
     "darby_nominal_size",
     "fitting_K",
+    "k_coefficients",
 ]
 
 INCH = 0.0254  # [m], exact by definition
@@ -412,6 +413,28 @@ def darby_nominal_size(D: float) -> float:
         x0, x1, y0, y1 = _S40_ID[i - 1], _S40_ID[i], _S40_NPS[i - 1], _S40_NPS[i]
         nps = y0 + (y1 - y0) * (D - x0) / (x1 - x0)
     return nps * INCH
+
+
+def k_coefficients(model: str, params: Mapping, D: float) -> tuple[float, float]:
+    """(a, b) such that K = a / Re + b, for a fitting in a pipe of inside diameter D [m].
+
+    Plain K, Hooper's 2-K and Darby's 3-K all have this form once the size is fixed, so a
+    run's whole set of fittings reduces to two numbers and the solver need not call
+    :func:`fitting_K` for every flow it tries.
+
+    >>> a, b = k_coefficients("3k", {"K1": 950, "Ki": 0.25, "Kd": 4}, 0.30318)
+    >>> round(a / 1e4 + b, 4) == round(fitting_K({"type": "3k", "K1": 950, "Ki": 0.25, "Kd": 4}, 1e4, 0.30318), 4)
+    True
+    """
+    D = _check_positive("D", D)
+    if model == "k":
+        return 0.0, float(params["K"])
+    if model == "2k":
+        return float(params["K1"]), float(params["Kinf"]) * (1.0 + 1.0 / (D / INCH))
+    if model == "3k":
+        Dn = darby_nominal_size(D)
+        return float(params["K1"]), float(params["Ki"]) * (1.0 + float(params["Kd"]) / (Dn / INCH) ** 0.3)
+    raise InputError("fitting.model", model, "must be 'k', '2k' or '3k'")
 
 
 def _number(params: Mapping, name: str, path: str) -> float:

@@ -585,3 +585,13 @@ def test_fitting_K_rejects_impossible_input_naming_the_field():
         t.fitting_K(42, 1e5, 0.1)
     with pytest.raises(LookupError):
         t.fitting_K({"type": "no-such-fitting"}, 1e5, 0.1)
+
+
+@pytest.mark.parametrize("key", [f.key for f in t.fittings()])
+def test_k_coefficients_reproduce_fitting_K(key):
+    # K = a/Re + b must equal the 2-K / 3-K / plain formula itself at any Re and bore.
+    ft = t.fitting(key)
+    for D in (0.02, 0.1524, 0.6):
+        a, b = t.k_coefficients(ft.model, ft.params, D)
+        for Re in (500.0, 1e4, 1e6):
+            assert a / Re + b == pytest.approx(t.fitting_K(ft, Re, D), rel=1e-13)
