@@ -110,11 +110,7 @@ class Node:
         return self.elevation + self.pressure / (rho * G)
 
     def velocity_head(self, Q: float) -> float:
-        D = self.nozzle_diameter if (self.kind == "jet" and self.nozzle_diameter) else self.D_adjacent
-        if self.kind == "reservoir" or not D:
-            return 0.0
-        V = Q / (math.pi * D * D / 4.0)
-        return V * V / (2 * G)
+        return self.velocity_head_coefficient() * Q * Q
 
     def velocity_head_coefficient(self) -> float:
         """c in velocity head = c Q^2, so that arrays need no loop."""
