@@ -89,6 +89,19 @@ def sub(x: float | None) -> str:
     return mantissa + times + power
 
 
+def si(x: float | None) -> str:
+    """An SI input value: six significant figures, trailing zeros dropped.
+
+    >>> si(640.0), si(0.2776), si(4.5e-05), si(262000.7773)
+    ('640', '0.2776', '4.5×10⁻⁵', '262001')
+    """
+    text = num(x, 6)
+    mantissa, times, power = text.partition("×")
+    if "." in mantissa:
+        mantissa = mantissa.rstrip("0").rstrip(".")
+    return mantissa + times + power
+
+
 def paren(x: float) -> str:
     """A substituted number, in brackets when negative or written with a power of ten."""
     s = sub(x)
@@ -209,6 +222,7 @@ class Record:
     solve_log: list[Table]
     solve_notes: list[str]
     results: list[dict]
+    points_table: Table | None
     no_point: str
     plots: list[plots.Plot]
     findings: dict[str, list[dict]]
@@ -329,10 +343,11 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
                   version=version)
     if not analysis.ok:
         return Record(scope=[], references=[], assumptions=[], inputs=[], equations=[], steps=[],
-                      steps_point="", solve_log=[], solve_notes=[], results=[], no_point="", plots=[], findings={},
+                      steps_point="", solve_log=[], solve_notes=[], results=[], points_table=None, no_point="", plots=[], findings={},
                       solver_notes=[], uncertainty=[],
                       errors=[{"path": e.path, "message": e.message} for e in analysis.errors], **common)
     b = _Builder(analysis, system)
+    results = b.results()
     return Record(
         scope=b.scope(),
         assumptions=b.assumptions(),
@@ -342,7 +357,8 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
         steps_point=b.steps_point(),
         solve_log=b.solve_log(),
         solve_notes=b.solve_notes(),
-        results=b.results(),
+        results=results,
+        points_table=b.points_table(results),
         no_point=b.no_point(),
         plots=plots.all_plots(analysis, system),
         findings=b.findings(),
@@ -444,8 +460,8 @@ class _Builder:
                        "64/Re; between Re 2000 and 4000 the factor is blended and flagged as uncertain."),
             Assumption(props),
             Assumption(f"Standard gravity g = 9.80665 m/s² {self.ref_g}."),
-            Assumption("Roughness of new pipe from the material table unless typed; pipe roughens with age "
-                       "and deposits, which raises the losses.", verify=True),
+            Assumption("Roughness from the material table (new pipe, or aged where a run says so) unless typed; "
+                       "pipe roughens with age and deposits, which raises the losses.", verify=True),
             Assumption("Fitting losses as loss coefficients K on the velocity head of the run they sit on. "
                        "On the grade lines, entrance losses fall at the start of a run, exit losses at its end, "
                        "and all other losses are spread evenly along it."),
@@ -474,8 +490,8 @@ class _Builder:
         if v is None or (isinstance(v, str) and not v.strip()):
             return None
         try:
-            si = parse_quantity(v, kind, key)
-            si_text = f"{num(si, 6)} {_SI_UNIT[kind]}" if kind is not RATIO else num(si, 6)
+            value = parse_quantity(v, kind, key)
+            si_text = f"{si(value)} {_SI_UNIT[kind]}" if kind is not RATIO else si(value)
         except ValueError:
             si_text = "–"
         return [label, _text(v), si_text, source]
@@ -503,14 +519,14 @@ class _Builder:
             if r:
                 rows.append(r)
             src = self.ref_liquid
-            rows += [["Density ρ", "", f"{num(lq.rho, 6)} kg/m³", f"IAPWS {src}"],
-                     ["Viscosity μ", "", f"{num(lq.mu, 6)} Pa·s", f"IAPWS {src}"],
-                     ["Vapour pressure (absolute)", "", f"{num(lq.p_vap, 6)} Pa", f"IAPWS {src}"]]
+            rows += [["Density ρ", "", f"{si(lq.rho)} kg/m³", f"IAPWS {src}"],
+                     ["Viscosity μ", "", f"{si(lq.mu)} Pa·s", f"IAPWS {src}"],
+                     ["Vapour pressure (absolute)", "", f"{si(lq.p_vap)} Pa", f"IAPWS {src}"]]
             if lq.bulk_modulus:
-                rows.append(["Bulk modulus", "", f"{num(lq.bulk_modulus, 6)} Pa", f"IAPWS {src}"])
+                rows.append(["Bulk modulus", "", f"{si(lq.bulk_modulus)} Pa", f"IAPWS {src}"])
         site = doc.get("site") or {}
         r = self._typed(site, "atmospheric_pressure", PRESSURE, "Atmospheric pressure (absolute)")
-        rows.append(r or ["Atmospheric pressure (absolute)", "", f"{num(self.line.p_atm, 6)} Pa", "default"])
+        rows.append(r or ["Atmospheric pressure (absolute)", "", f"{si(self.line.p_atm)} Pa", "default"])
         rows.append(["Friction method", _text((doc.get("settings") or {}).get("friction_method")) or "colebrook",
                      self.method.name, f"chosen {self.ref_method}"])
         rows.append(["Gravity g", "", "9.80665 m/s²", f"standard {self.ref_g}"])
@@ -544,50 +560,51 @@ class _Builder:
                 refs, _ = self.refs.cite_source(el.size.source, "pipe sizes")
                 size = e.get("size") or {}
                 rows.append(["Inner diameter D", f"size {_text(size.get('nominal'))} {_text(size.get('class'))}",
-                             f"{num(el.D, 6)} m",
-                             f"size table: {el.size.nominal} {el.size.klass}, OD {num(el.size.OD * 1e3, 6)} mm, "
-                             f"wall {num(el.size.wall * 1e3, 6)} mm {refs}"])
+                             f"{si(el.D)} m",
+                             f"size table: {el.size.nominal} {el.size.klass}, OD {si(el.size.OD * 1e3)} mm, "
+                             f"wall {si(el.size.wall * 1e3)} mm {refs}"])
             else:
                 rows.append(r)
+            aged = e.get("condition") == "aged"
             r = self._typed(e, "roughness", LENGTH, "Roughness ε")
             if r is None and el.material is not None:
-                refs, detail = self.refs.cite_source(el.material.source_roughness, "pipe roughness")
-                rows.append(["Roughness ε", f"material {_text(e.get('material'))}", f"{num(el.eps, 6)} m",
-                             f"material table: {el.material.name}" + (f" ({detail})" if detail else "") + f" {refs}"])
+                source = el.material.source_aged if aged else el.material.source_roughness
+                refs, detail = self.refs.cite_source(source or "", "aged roughness" if aged else "pipe roughness")
+                rows.append(["Roughness ε" + (" (aged pipe)" if aged else ""),
+                             f"material {_text(e.get('material'))}" + (", condition aged" if aged else ""),
+                             f"{si(el.eps)} m", f"material table: {el.material.name}"
+                             + (f" ({detail})" if detail else "") + f" {refs}"])
             else:
                 rows.append(r)
-            if el.material is not None and el.eps_aged:
+            if el.material is not None and el.eps_aged and not aged and r is None:
                 refs, detail = self.refs.cite_source(el.material.source_aged or "", "aged roughness")
-                rows.append(["Roughness of aged pipe (not used; for comparison)", "", f"{num(el.eps_aged, 6)} m",
-                             f"material table" + (f" ({detail})" if detail else "") + f" {refs}"])
+                rows.append(["Roughness of aged pipe (upper end of the uncertainty band; not the solve)", "",
+                             f"{si(el.eps_aged)} m",
+                             "material table" + (f" ({detail})" if detail else "") + f" {refs}"])
             rows.append(self._typed(e, "end_elevation", LENGTH, "Elevation at the end of the run"))
             r = self._typed(e, "wall_thickness", LENGTH, "Wall thickness")
             if r is None and el.size is not None:
-                r = ["Wall thickness", "", f"{num(el.size.wall, 6)} m", "size table"]
+                r = ["Wall thickness", "", f"{si(el.size.wall)} m", "size table"]
             rows.append(r)
             rows.append(self._typed(e, "rating", PRESSURE, "Pressure rating (gauge)"))
             if e.get("restraint"):
                 rows.append(["Restraint", _text(e.get("restraint")), "", "typed"])
+            # Profile points and fittings go in the same table (one table per element lays out faster).
+            for j, p in enumerate(x for x in (e.get("profile") or []) if isinstance(x, dict)):
+                ch = parse_quantity(p.get("chainage"), LENGTH, "chainage")
+                z = parse_quantity(p.get("elevation"), LENGTH, "elevation")
+                rows.append([f"Profile point {j + 1}: chainage in the run, elevation",
+                             f"{_text(p.get('chainage'))}, {_text(p.get('elevation'))}",
+                             f"{si(ch)} m, {si(z)} m", "typed"])
+            for ft in el.fittings:
+                refs, detail = self.fitting_ref(ft)
+                consts = ", ".join(f"{k} = {sub(v)}" for k, v in ft.params.items())
+                where = "typed" if ft.source.startswith("typed") else "fitting table"
+                model = {"k": "K", "2k": "2-K", "3k": "3-K"}[ft.model]
+                rows.append([f"Fitting: {ft.name}" + (f" × {ft.count}" if ft.count > 1 else ""),
+                             f"{ft.key}, count {ft.count}", f"{model}: {consts}",
+                             where + (f" ({detail})" if detail else "") + (f" {refs}" if refs else "")])
             out.append(Table(head, [r for r in rows if r], title, align, css="inputs"))
-            prof = [p for p in (e.get("profile") or []) if isinstance(p, dict)]
-            if prof:
-                prow = []
-                for p in prof:
-                    s = parse_quantity(p.get("chainage"), LENGTH, "chainage")
-                    z = parse_quantity(p.get("elevation"), LENGTH, "elevation")
-                    prow.append([_text(p.get("chainage")), _text(p.get("elevation")), f"{num(s, 6)} m", f"{num(z, 6)} m"])
-                out.append(Table(["Chainage in the run (typed)", "Elevation (typed)", "Chainage (SI)", "Elevation (SI)"],
-                                 prow, f"{title}: profile points", ["r", "r", "r", "r"], css="compact profile"))
-            if el.fittings:
-                frow = []
-                for ft in el.fittings:
-                    refs, detail = self.fitting_ref(ft)
-                    consts = ", ".join(f"{k} = {sub(v)}" for k, v in ft.params.items())
-                    where = "typed" if ft.source.startswith("typed") else "fitting table"
-                    frow.append([ft.name, str(ft.count), {"k": "K", "2k": "2-K", "3k": "3-K"}[ft.model], consts,
-                                 f"{where}" + (f" ({detail})" if detail else "") + (f" {refs}" if refs else "")])
-                out.append(Table(["Fitting", "Count", "Model", "Constants", "Source"], frow,
-                                 f"{title}: fittings", ["l", "r", "l", "l", "l"], css="compact fittings"))
             return out
         if isinstance(el, Turbine):
             rows.append(["Mode", _text(e.get("mode")) or "power", "", "typed"])
@@ -603,18 +620,17 @@ class _Builder:
         elif isinstance(el, Valve):
             rows.append(self._typed(e, "K", RATIO, "Loss coefficient K"))
             r = self._typed(e, "diameter", LENGTH, "Diameter D")
-            rows.append(r or ["Diameter D", "", f"{num(el.D, 6)} m", el.D_source])
-        out.append(Table(head, [r for r in rows if r], title, align, css="inputs"))
+            rows.append(r or ["Diameter D", "", f"{si(el.D)} m", el.D_source])
         curve = [p for p in (e.get("curve") or []) if isinstance(p, dict)] if e.get("mode") == "curve" else []
-        if curve:
-            crow = []
-            for p in curve:
-                q = parse_quantity(p.get("flow"), FLOW, "flow")
-                h = parse_quantity(p.get("head"), LENGTH, "head")
-                crow.append([_text(p.get("flow")), _text(p.get("head")), _text(p.get("efficiency")) or "–",
-                             _text(p.get("npsh_required")) or "–", f"{num(q, 6)} m³/s", f"{num(h, 6)} m"])
-            out.append(Table(["Flow (typed)", "Head (typed)", "Efficiency", "NPSH required", "Flow (SI)", "Head (SI)"],
-                             crow, f"{title}: curve points (typed by the user)", ["r"] * 6, css="compact curve"))
+        for j, p in enumerate(curve):
+            q = parse_quantity(p.get("flow"), FLOW, "flow")
+            h = parse_quantity(p.get("head"), LENGTH, "head")
+            extra = [_text(p.get(k)) for k in ("efficiency", "npsh_required") if _text(p.get(k)).strip()]
+            rows.append([f"Curve point {j + 1}: flow, head" + (", efficiency" if _text(p.get("efficiency")).strip() else "")
+                         + (", NPSH required" if _text(p.get("npsh_required")).strip() else ""),
+                         ", ".join([_text(p.get("flow")), _text(p.get("head"))] + extra),
+                         f"{si(q)} m³/s, {si(h)} m", "typed"])
+        out.append(Table(head, [r for r in rows if r], title, align, css="inputs"))
         return out
 
     # -- method ------------------------------------------------------------------------------
@@ -766,7 +782,7 @@ class _Builder:
                 Step("f", "friction factor (Colebrook, solved)", "1/√f = -2 log₁₀( (ε/D)/3.7 + 2.51/(Re √f) )",
                      f"1/√f = -2 log₁₀( {sub(eD)}/3.7 + 2.51/({sub(Re)} √f) )", num(f), "–", f, ref),
                 Step("check", "both sides at this f", "1/√f  and  -2 log₁₀(…)",
-                     f"1/√{sub(f)} = {num(lhs, 6)};  right side = {num(rhs, 6)}", "equal", "", lhs - rhs),
+                     f"1/√{sub(f)} = {si(lhs)};  right side = {si(rhs)}", "equal", "", lhs - rhs),
             ]
         if method == "swamee_jain_1976":
             s = f"= 0.25 / [log₁₀({sub(eD)}/3.7 + 5.74/{sub(Re)}^0.9)]²"
@@ -942,14 +958,18 @@ class _Builder:
                 else:
                     rows.append([name, "–", "–", "–", "–", "–", shown(d["head_change"], "head", s),
                                  shown(d.get("power_shaft"), "power", s)])
-            elements = Table(["Element", "V", "Re", "f", "Friction loss", "Fitting loss", "Head taken", "Shaft power"],
-                             rows, "", ["l"] + ["r"] * 7, css="elements")
-            stations = [[shown(st["chainage"], "length", s), shown(st["elevation"], "length", s),
-                         shown(st["hgl"], "head", s), shown(st["egl"], "head", s), shown(st["pressure_head"], "head", s),
-                         shown(st["pressure_head"] * self.liquid.rho * G, "pressure", s)]
-                        for st in p["profile"]]
-            grade = Table(["Chainage", "Elevation", "HGL", "EGL", "Pressure head", "Pressure (gauge)"], stations,
-                          "", ["r"] * 6, css="compact grade")
+            design = bool(p.get("is_design"))
+            elements = grade = None
+            if design:  # the other points are summed up in the table of points
+                elements = Table(["Element", "V", "Re", "f", "Friction loss", "Fitting loss", "Head taken",
+                                  "Shaft power"], rows, "", ["l"] + ["r"] * 7, css="elements")
+                stations = [[shown(st["chainage"], "length", s), shown(st["elevation"], "length", s),
+                             shown(st["hgl"], "head", s), shown(st["egl"], "head", s),
+                             shown(st["pressure_head"], "head", s),
+                             shown(st["pressure_head"] * self.liquid.rho * G, "pressure", s)]
+                            for st in p["profile"]]
+                grade = Table(["Chainage", "Elevation", "HGL", "EGL", "Pressure head", "Pressure (gauge)"], stations,
+                              "", ["r"] * 6, css="compact grade")
             low = min(p["profile"], key=lambda st: st["pressure_head"]) if p["profile"] else None
             summary = [["Flow Q", shown(p["Q"], "flow", s)],
                        ["Total head at the start", shown(p["head_start"], "head", s)],
@@ -957,26 +977,43 @@ class _Builder:
             losses = sum(d["head_change"] for d in p["elements"] if d["kind"] in ("pipe", "valve"))
             summary.append(["Line losses (pipe runs and valves)", shown(losses, "head", s)])
             for el, d in zip(self.line.elements, p["elements"]):
-                if d["kind"] == "turbine":
-                    summary.append([f"{el.label or 'Turbine'}: head taken", shown(d["head"], "head", s)])
-                    summary.append([f"{el.label or 'Turbine'}: shaft power", shown(d["power_shaft"], "power", s)])
+                name = f"{d['index'] + 1}. {el.label or el.kind}"
+                if d["kind"] == "pipe":
+                    summary.append([f"{name}: velocity", shown(d["V"], "velocity", s)])
+                elif d["kind"] == "turbine":
+                    summary.append([f"{name}: head taken", shown(d["head"], "head", s)])
+                    summary.append([f"{name}: shaft power", shown(d["power_shaft"], "power", s)])
                 elif d["kind"] == "pump":
-                    summary.append([f"{el.label or 'Pump'}: head added", shown(d["head"], "head", s)])
+                    summary.append([f"{name}: head added", shown(d["head"], "head", s)])
                     if d.get("power_shaft") is not None:
-                        summary.append([f"{el.label or 'Pump'}: shaft power", shown(d["power_shaft"], "power", s)])
+                        summary.append([f"{name}: shaft power", shown(d["power_shaft"], "power", s)])
             if low is not None:
-                where = f"at chainage {shown(low['chainage'], 'length', s)}"
-                summary.append(["Lowest pressure head", f"{shown(low['pressure_head'], 'head', s)} {where}"])
+                summary.append(["Lowest pressure head", shown(low["pressure_head"], "head", s)])
+                summary.append(["… at chainage", shown(low["chainage"], "length", s)])
             out.append({
                 "number": k + 1,
-                "design": bool(p.get("is_design")),
+                "design": design,
                 "why": p.get("why", ""),
                 "Q": shown(p["Q"], "flow", s),
-                "summary": Table(["Quantity", "Value"], summary, "", ["l", "r"], css="summary"),
+                "summary": summary,
                 "elements": elements,
                 "grade": grade,
             })
         return out
+
+    def points_table(self, results: list[dict]) -> Table | None:
+        """Every operating point side by side: one column each, the design point marked."""
+        if not results:
+            return None
+        labels: list[str] = []
+        for r in results:
+            for label, _ in r["summary"]:
+                if label not in labels:
+                    labels.append(label)
+        values = [dict((label, v) for label, v in r["summary"]) for r in results]
+        head = ["Quantity"] + [f"Point {r['number']}" + (" (design)" if r["design"] else "") for r in results]
+        rows = [[label] + [v.get(label, "–") for v in values] for label in labels]
+        return Table(head, rows, "", ["l"] + ["r"] * len(results), css=f"points points-{len(results)}")
 
     def no_point(self) -> str:
         return self.sol.no_point["reason"] if self.sol.no_point else ""
@@ -1032,19 +1069,6 @@ class _Builder:
         out = [Table(["Factor", "Lowest flow", "Nominal flow", "Highest flow"], rows,
                      "Design flow over the range of the uncertain inputs", ["l", "r", "r", "r"], css="band-factors",
                      note=_text(band.get("describe")))]
-        cases = []
-        for c in band.get("cases") or []:
-            if not isinstance(c, dict):
-                continue
-            machines = "; ".join(
-                f"{self.line.elements[m['index']].label or 'machine'}: {shown(m.get('head'), 'head', s)}, "
-                f"{shown(m.get('power_shaft'), 'power', s)}"
-                for m in c.get("machines") or [] if isinstance(m, dict) and 0 <= m.get("index", -1) < len(self.line.elements))
-            cases.append([_text(c.get("label")), shown(c.get("Q"), "flow", s) if c.get("Q") is not None else
-                          "no operating point", machines or "–"])
-        if cases:
-            out.append(Table(["Case", "Flow", "Machines (head, shaft power)"], cases, "Cases re-solved",
-                             ["l", "r", "l"], css="compact band-cases"))
         notes = [n for n in band.get("notes") or [] if isinstance(n, str)]
         if notes:
             out[0].note = (out[0].note + ". " if out[0].note else "") + "; ".join(notes)

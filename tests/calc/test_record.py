@@ -1,0 +1,513 @@
+"""The calculation record as data: worked steps a checker can repeat, references actually used, inputs with SI
+values, the fingerprint, the plots and the comparison of two revisions."""
+
+from __future__ import annotations
+
+import ast
+import copy
+import json
+import math
+import operator
+import re
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+import fluids
+import pytest
+
+from calc import fingerprint as fp
+from calc import plots, record
+from calc.analysis import analyse
+
+EXAMPLES = Path(__file__).resolve().parents[2] / "examples"
+
+
+# Scenarios of our own for the checks that depend on exact inputs (the demo sheets may be retuned).
+HYDRO = {'format': 'headsheet-sheet',
+ 'version': 1,
+ 'header': {'project': 'Test beck hydro (test scenario)',
+            'calc_number': 'CB-HY-003',
+            'title': 'Penstock and turbine operating point',
+            'purpose': "Find the flow and shaft power of the intake-to-powerhouse line at the turbine's "
+                       'rated output, and the most the line could deliver.',
+            'revision_scheme': 'letters',
+            'units': 'SI'},
+ 'liquid': {'kind': 'water', 'temperature': '6 degC'},
+ 'site': {'atmospheric_pressure': '96.5 kPa'},
+ 'settings': {'friction_method': 'colebrook'},
+ 'start': {'kind': 'reservoir', 'elevation': '412.0 m', 'pressure': '0 kPa', 'outlet_elevation': '410.6 m'},
+ 'end': {'kind': 'reservoir', 'elevation': '317.2 m', 'pressure': '0 kPa'},
+ 'elements': [{'kind': 'pipe',
+               'label': 'Upper penstock (PE)',
+               'length': '640 m',
+               'diameter': '',
+               'size': {'standard': 'pe-iso4427', 'nominal': '315', 'class': 'SDR17'},
+               'material': 'pe100',
+               'roughness': '',
+               'end_elevation': '352.0 m',
+               'profile': [{'chainage': '120 m', 'elevation': '404.5 m'},
+                           {'chainage': '260 m', 'elevation': '399.0 m'},
+                           {'chainage': '330 m', 'elevation': '400.2 m'},
+                           {'chainage': '480 m', 'elevation': '377.0 m'}],
+               'fittings': [{'type': 'k', 'count': 1, 'K': '0.3', 'label': 'intake screen'},
+                            {'type': 'entrance-sharp', 'count': 1},
+                            {'type': 'elbow-45-long-radius', 'count': 4}],
+               'rating': '10 bar',
+               'restraint': 'anchored'},
+              {'kind': 'pipe',
+               'label': 'Lower penstock (steel)',
+               'length': '185 m',
+               'diameter': '',
+               'size': {'standard': 'asme-b36.10m', 'nominal': '12', 'class': 'STD'},
+               'material': 'steel-commercial',
+               'roughness': '',
+               'end_elevation': '319.0 m',
+               'profile': [{'chainage': '90 m', 'elevation': '334.0 m'}],
+               'fittings': [{'type': 'elbow-90-long-radius', 'count': 2},
+                            {'type': 'bend-90-rd4', 'count': 1}],
+               'rating': '25 bar'},
+              {'kind': 'valve', 'label': 'Turbine inlet butterfly valve', 'K': '0.25', 'diameter': ''},
+              {'kind': 'turbine',
+               'label': 'Turbine-generator',
+               'mode': 'power',
+               'power': '85 kW',
+               'efficiency': '0.84',
+               'head': '',
+               'curve': []}]}
+PUMPED = {'format': 'headsheet-sheet',
+ 'version': 1,
+ 'header': {'project': 'Test rising main (test scenario)',
+            'calc_number': 'RW-PM-011',
+            'title': 'Sump-to-tank rising main duty point',
+            'purpose': 'Confirm the duty point of the borehole sump pump against the rising main to Ridgeway '
+                       'tank, and its suction conditions.',
+            'revision_scheme': 'numbers',
+            'units': 'SI'},
+ 'liquid': {'kind': 'water', 'temperature': '12 degC'},
+ 'site': {'atmospheric_pressure': '100.1 kPa'},
+ 'settings': {'friction_method': 'colebrook'},
+ 'start': {'kind': 'reservoir', 'elevation': '52.0 m', 'pressure': '0 kPa', 'outlet_elevation': '50.6 m'},
+ 'end': {'kind': 'reservoir', 'elevation': '121.5 m', 'pressure': '0 kPa'},
+ 'elements': [{'kind': 'pipe',
+               'label': 'Suction',
+               'length': '9 m',
+               'diameter': '',
+               'size': {'standard': 'asme-b36.10m', 'nominal': '6', 'class': '40'},
+               'material': 'steel-commercial',
+               'roughness': '',
+               'end_elevation': '53.4 m',
+               'profile': [],
+               'fittings': [{'type': 'entrance-rounded', 'count': 1},
+                            {'type': 'elbow-90-long-radius', 'count': 2},
+                            {'type': 'valve-gate-open', 'count': 1}]},
+              {'kind': 'pump',
+               'label': 'Duty pump',
+               'mode': 'curve',
+               'speed_ratio': '1',
+               'head': '',
+               'curve': [{'flow': '0 L/s', 'head': '96 m', 'efficiency': '', 'npsh_required': ''},
+                         {'flow': '10 L/s', 'head': '94 m', 'efficiency': '0.52', 'npsh_required': '1.8 m'},
+                         {'flow': '20 L/s', 'head': '89 m', 'efficiency': '0.68', 'npsh_required': '2.2 m'},
+                         {'flow': '30 L/s', 'head': '81 m', 'efficiency': '0.74', 'npsh_required': '2.9 m'},
+                         {'flow': '40 L/s', 'head': '70 m', 'efficiency': '0.72', 'npsh_required': '3.9 m'},
+                         {'flow': '50 L/s', 'head': '55 m', 'efficiency': '0.62', 'npsh_required': '5.2 m'}]},
+              {'kind': 'pipe',
+               'label': 'Pump discharge',
+               'length': '12 m',
+               'diameter': '',
+               'size': {'standard': 'asme-b36.10m', 'nominal': '6', 'class': '40'},
+               'material': 'steel-commercial',
+               'roughness': '',
+               'end_elevation': '54.0 m',
+               'profile': [],
+               'fittings': [{'type': 'valve-check-swing', 'count': 1},
+                            {'type': 'valve-gate-open', 'count': 1},
+                            {'type': 'elbow-90-standard-flanged', 'count': 2}],
+               'rating': '16 bar'},
+              {'kind': 'pipe',
+               'label': 'Rising main',
+               'length': '2100 m',
+               'diameter': '155 mm',
+               'size': None,
+               'material': 'ductile-iron-cement-lined',
+               'roughness': '',
+               'end_elevation': '120.0 m',
+               'profile': [{'chainage': '400 m', 'elevation': '66 m'},
+                           {'chainage': '900 m', 'elevation': '95 m'},
+                           {'chainage': '1250 m', 'elevation': '88 m'},
+                           {'chainage': '1700 m', 'elevation': '112 m'}],
+               'fittings': [{'type': 'elbow-45-long-radius', 'count': 6},
+                            {'type': 'valve-gate-open', 'count': 2},
+                            {'type': 'exit', 'count': 1}],
+               'wall_thickness': '6 mm',
+               'rating': '25 bar'}]}
+
+
+def demo(name: str) -> dict:
+    if name == "hydro-penstock":
+        return copy.deepcopy(HYDRO)
+    if name == "pumped-main":
+        return copy.deepcopy(PUMPED)
+    return json.loads((EXAMPLES / f"{name}.json").read_text(encoding="utf-8"))
+
+
+@pytest.fixture(scope="module")
+def hydro():
+    return analyse(demo("hydro-penstock"))
+
+
+@pytest.fixture(scope="module")
+def pumped():
+    return analyse(demo("pumped-main"))
+
+
+@pytest.fixture(scope="module")
+def cooling():
+    return analyse(demo("cooling-water"))
+
+
+# ----------------------------------------------------------------------------- evaluating a substituted line
+
+_SUP = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻", "0123456789-")
+_OPS = {ast.Add: operator.add, ast.Sub: operator.sub, ast.Mult: operator.mul, ast.Div: operator.truediv,
+        ast.Pow: operator.pow, ast.USub: operator.neg}
+
+
+def _eval(node):
+    if isinstance(node, ast.Expression):
+        return _eval(node.body)
+    if isinstance(node, ast.Constant) and isinstance(node.value, (int, float)):
+        return float(node.value)
+    if isinstance(node, ast.Name) and node.id == "pi":
+        return math.pi
+    if isinstance(node, ast.BinOp) and type(node.op) in _OPS:
+        return _OPS[type(node.op)](_eval(node.left), _eval(node.right))
+    if isinstance(node, ast.UnaryOp) and type(node.op) in _OPS:
+        return _OPS[type(node.op)](_eval(node.operand))
+    raise ValueError(f"not plain arithmetic: {ast.dump(node)}")
+
+
+def calculator(text: str) -> float:
+    """What a checker's calculator gives for a substituted line such as '= π × 0.2776² / 4'."""
+    expr = text.strip().removeprefix("=").strip()
+    expr = re.sub(r"×10([⁻⁰¹²³⁴⁵⁶⁷⁸⁹]+)", lambda m: "e" + m.group(1).translate(_SUP), expr)
+    expr = expr.replace("×", "*").replace("²", "**2").replace("^", "**").replace("π", "pi")
+    return _eval(ast.parse(expr, mode="eval"))
+
+
+def printed(result: str) -> float:
+    return float(result.replace("×10", "e").translate(_SUP))
+
+
+def _arithmetic_steps(rec):
+    for g in rec.steps:
+        for s in g.steps:
+            if s.substituted.startswith("= ") and s.value is not None:
+                yield g, s
+
+
+# ----------------------------------------------------------------------------- worked steps
+
+@pytest.mark.parametrize("name", ["hydro-penstock", "pumped-main", "cooling-water"])
+def test_every_substituted_line_gives_the_printed_result_on_a_calculator(name):
+    # The record's promise to a checker: the numbers substituted (5 figures) reproduce the printed
+    # result (4 figures). Tolerance: half a unit in the 4th figure plus the rounding of the inputs.
+    rec = record.build(analyse(demo(name)))
+    checked = 0
+    for g, s in _arithmetic_steps(rec):
+        if s.symbol == "E":  # the balance residual is round-off, checked below
+            continue
+        value = calculator(s.substituted)
+        assert value == pytest.approx(s.value, rel=1e-3, abs=1e-9), (g.title, s.symbol, s.substituted)
+        assert value == pytest.approx(printed(s.result), rel=1e-3, abs=1e-9), (g.title, s.symbol, s.result)
+        checked += 1
+    assert checked >= 20
+
+
+def test_results_are_printed_at_four_significant_figures(hydro):
+    rec = record.build(hydro)
+    for _, s in _arithmetic_steps(rec):
+        if s.symbol in ("E",) or abs(s.value) < 1e-9:
+            continue
+        digits = re.sub(r"×10.*$", "", s.result).replace("-", "").replace(".", "").lstrip("0")
+        assert len(digits) >= 4 or abs(s.value) >= 1e4, (s.symbol, s.result)
+        assert printed(s.result) == pytest.approx(s.value, rel=5e-4), (s.symbol, s.result)
+
+
+def test_pipe_steps_agree_with_an_independent_calculation(hydro):
+    # Reference: fluids (Colebrook solved by its own method; Darcy-Weisbach as in Moody 1944),
+    # tolerance 1e-9 relative: both solve the same equation to machine precision.
+    rec = record.build(hydro)
+    point = hydro.solution.design
+    liquid = hydro.line.liquid
+    run = hydro.line.elements[0]
+    d = point["elements"][0]
+    group = next(g for g in rec.steps if g.kind == "pipe")
+    steps = {s.symbol: s for s in group.steps}
+    Q = point["Q"]
+    V = Q / (math.pi * run.D ** 2 / 4)
+    Re = V * run.D * liquid.rho / liquid.mu
+    f = fluids.friction.Colebrook(Re, run.eps / run.D)
+    assert steps["V"].value == pytest.approx(V, rel=1e-12)
+    assert steps["Re"].value == pytest.approx(Re, rel=1e-12)
+    assert steps["f"].value == pytest.approx(f, rel=1e-9)
+    assert steps["h_f"].value == pytest.approx(f * run.L / run.D * V ** 2 / (2 * 9.80665), rel=1e-9)
+    assert steps["h"].value == pytest.approx(d["head_change"], rel=1e-12)
+    # The check line shows both sides of Colebrook's equation equal at the printed f.
+    check = steps["check"]
+    lhs, rhs = re.findall(r"= ([0-9.]+);.*= ([0-9.]+)", check.substituted)[0]
+    assert lhs == rhs
+
+
+def test_turbine_steps_follow_p_equals_eta_rho_g_q_h(hydro):
+    # P = eta rho g Q H (standard turbine power relation); the set power is 85 kW at efficiency 0.84.
+    rec = record.build(hydro)
+    g = next(g for g in rec.steps if g.kind == "turbine")
+    steps = {s.symbol: s for s in g.steps}
+    Q = hydro.solution.design["Q"]
+    rho = hydro.line.liquid.rho
+    H = 85e3 / (0.84 * rho * 9.80665 * Q)
+    assert steps["H_t"].value == pytest.approx(H, rel=1e-12)
+    assert steps["P"].value == pytest.approx(85e3, rel=1e-12)
+    assert "most shaft power the line can give" in " ".join(g.notes)
+
+
+def test_energy_balance_closes(hydro, pumped, cooling):
+    for a in (hydro, pumped, cooling):
+        rec = record.build(a)
+        balance = next(g for g in rec.steps if g.kind == "balance")
+        E = next(s for s in balance.steps if s.symbol == "E")
+        assert abs(E.value) < 1e-9
+
+
+# ----------------------------------------------------------------------------- references and inputs
+
+def _citations(rec) -> str:
+    return "\n".join(r.citation for r in rec.references)
+
+
+def test_references_are_the_sources_used_and_only_those(hydro, pumped, cooling):
+    h = _citations(record.build(hydro))
+    for needle in ("Colebrook", "IAPWS", "ISO 4427", "ASME B36.10M", "Moody", "Darby", "Idelchik", "9.80665",
+                   "Korteweg", "Joukowsky"):
+        assert needle in h, needle
+    c = _citations(record.build(cooling))
+    assert "ISO 4427" not in c  # no PE pipe on the cooling-water sheet
+    assert "ASME B36.10M" in c
+    p = _citations(record.build(pumped))
+    assert "Rennels" in p  # the pipe exit's K comes from Rennels and Hudson (fitting table)
+    assert "ISO 4427" not in p
+
+
+def test_reference_numbers_are_unique_and_every_cited_number_exists(hydro):
+    rec = record.build(hydro)
+    numbers = [r.number for r in rec.references]
+    assert numbers == list(range(1, len(numbers) + 1))
+    citations = [r.citation for r in rec.references]
+    assert len(set(citations)) == len(citations)
+    cited = set()
+    for g in rec.steps:
+        for s in g.steps:
+            cited |= {int(n) for n in re.findall(r"\[(\d+)\]", s.ref)}
+    for t in rec.inputs:
+        for row in t.rows:
+            cited |= {int(n) for n in re.findall(r"\[(\d+)\]", row[-1])}
+    assert cited and cited <= set(numbers)
+
+
+def test_another_friction_method_cites_its_own_author():
+    doc = demo("pumped-main")
+    doc["settings"]["friction_method"] = "haaland_1983"
+    rec = record.build(analyse(doc))
+    assert rec.references[0].citation.startswith("Haaland")
+    assert "Colebrook, C. F. (1939)" not in _citations(rec)
+
+
+def test_inputs_show_the_text_as_typed_its_si_value_and_its_source(hydro, cooling):
+    rows = [row for t in record.build(hydro).inputs for row in t.rows]
+    assert ["Length L", "640 m", "640 m", "typed"] in rows
+    diameter = next(r for r in rows if r[0] == "Inner diameter D" and "315" in r[1])
+    # ISO 4427-2: PE 315 SDR 17, wall 18.7 mm, bore 315 - 2 x 18.7 = 277.6 mm.
+    assert diameter[2] == "0.2776 m" and diameter[3].startswith("size table")
+    roughness = next(r for r in rows if r[0] == "Roughness ε" and "pe100" in r[1])
+    assert "material table" in roughness[3]
+    # US customary as typed: 38 psi = 38 x 6894.757 Pa (psi by definition, NIST SP 811) = 262001 Pa.
+    us_rows = [row for t in record.build(cooling).inputs for row in t.rows]
+    assert ["Pressure (gauge)", "38 psi", "262001 Pa", "typed"] in us_rows
+
+
+# ----------------------------------------------------------------------------- fingerprint
+
+def test_fingerprint_is_reproducible_and_ignores_key_order(hydro):
+    doc = demo("hydro-penstock")
+    reordered = json.loads(json.dumps(doc, sort_keys=True))
+    assert fp.fingerprint(hydro, "1") == fp.fingerprint(analyse(copy.deepcopy(doc)), "1")
+    assert fp.fingerprint(hydro, "1") == fp.fingerprint(analyse(reordered), "1")
+    assert fp.fingerprint(hydro, "1") != fp.fingerprint(hydro, "2")
+    assert re.fullmatch(r"[0-9a-f]{64}", fp.fingerprint(hydro))
+
+
+def _changed(value):
+    if isinstance(value, bool):
+        return not value
+    if isinstance(value, (int, float)):
+        return value + 1
+    if isinstance(value, str):
+        return value + " " if not value.strip() else value.replace(value.strip(), value.strip() + "0", 1)
+    return "x"
+
+
+def _set(doc, path, value):
+    keys = [int(k) if k.isdigit() else k for k in path.split(".")]
+    node = doc
+    for k in keys[:-1]:
+        node = node[k]
+    node[keys[-1]] = value
+
+
+@pytest.mark.parametrize("name", ["hydro-penstock", "pumped-main"])
+def test_fingerprint_changes_when_any_input_changes(name):
+    doc = demo(name)
+    base = fp.fingerprint(analyse(doc), "1")
+    seen = {base}
+    for path, value in record.flatten(doc).items():
+        if isinstance(value, list):
+            continue
+        other = copy.deepcopy(doc)
+        _set(other, path, _changed(value))
+        f = fp.fingerprint(analyse(other), "1")
+        assert f != base, path
+        seen.add(f)
+    assert len(seen) > 50
+
+
+def test_normalise_and_group_round_trip():
+    f = "ab" * 32
+    assert fp.normalise(fp.grouped(f).upper()) == f
+
+
+# ----------------------------------------------------------------------------- record shape
+
+def test_revision_labels_letters_and_numbers():
+    assert [record.revision_label(i) for i in (0, 1, 25, 26, 27, 701, 702)] == ["A", "B", "Z", "AA", "AB", "ZZ", "AAA"]
+    assert [record.revision_label(i, "numbers") for i in (0, 1, 10)] == ["0", "1", "10"]
+
+
+def test_header_signoff_and_draft(hydro):
+    meta = record.Meta(sheet_id=4, store_revision=7, label_index=1, signatures=[
+        {"role": "preparer", "name": "A. Preparer", "comment": "", "signed": "2026-01-02T03:04:05"}])
+    rec = record.build(hydro, meta)
+    assert rec.header["revision"] == "B" and rec.header["calc_number"] == "CB-HY-003"
+    assert [s.done for s in rec.signoff] == [True, False, False] and not rec.signed
+    meta.signatures += [{"role": "checker", "name": "B", "signed": "x"}, {"role": "approver", "name": "C", "signed": "y"}]
+    assert record.build(hydro, meta).signed
+
+
+def test_findings_are_grouped_worst_first(hydro):
+    from calc.checks import SEVERITIES
+
+    rec = record.build(hydro)
+    order = [SEVERITIES.index(s) for s in rec.findings]
+    assert order == sorted(order) and sum(len(v) for v in rec.findings.values()) == len(hydro.findings)
+    assert DISCLAIMER_WORDS <= set(rec.disclaimer.lower().split())
+
+
+DISCLAIMER_WORDS = {"does", "not", "replace", "licensed", "engineer"}
+
+
+def test_uncertainty_band_is_shown(pumped):
+    rec = record.build(pumped)
+    assert rec.uncertainty and rec.uncertainty[0].rows[0][0] == "All factors together"
+    lo, nominal, hi = (printed(c.split()[0]) for c in rec.uncertainty[0].rows[0][1:])
+    assert lo <= nominal <= hi
+
+
+def test_a_sheet_with_errors_has_a_record_of_its_errors_only():
+    doc = demo("pumped-main")
+    doc["elements"][0]["length"] = "-3 m"
+    rec = record.build(analyse(doc))
+    assert rec.errors and rec.errors[0]["path"] == "elements.0.length"
+    assert rec.steps == [] and rec.plots == [] and len(rec.fingerprint) == 64
+
+
+def test_a_turbine_asked_for_too_much_power_records_why_there_is_no_point():
+    doc = demo("hydro-penstock")
+    doc["elements"][-1]["power"] = "400 kW"
+    a = analyse(doc)
+    rec = record.build(a)
+    assert a.solution.points == [] and "cannot deliver" in rec.no_point
+    assert [p.key for p in rec.plots] == ["curves", "power"]
+
+
+# ----------------------------------------------------------------------------- plots
+
+def _svg(plot) -> ET.Element:
+    return ET.fromstring(plot.svg)
+
+
+def test_plots_are_plain_well_formed_svg_with_text_as_text(hydro, pumped):
+    for a in (hydro, pumped):
+        for plot in record.build(a).plots:
+            root = _svg(plot)
+            tags = {el.tag.split("}")[1] for el in root.iter()}
+            assert tags <= {"svg", "title", "line", "polyline", "rect", "circle", "text"}, tags
+            assert "foreignObject" not in plot.svg and "<image" not in plot.svg and "href" not in plot.svg
+            assert len([el for el in root.iter() if el.tag.endswith("text")]) > 10
+
+
+def test_curves_plot_marks_every_operating_point_and_the_power_maximum(hydro):
+    kinds = {p.key: p for p in plots.all_plots(hydro)}
+    assert set(kinds) == {"profile", "curves", "power"}
+    labels = [el.text for el in _svg(kinds["curves"]).iter() if el.tag.endswith("text")]
+    assert "1 (design)" in labels and "2" in labels
+    power_labels = [el.text for el in _svg(kinds["power"]).iter() if el.tag.endswith("text")]
+    assert "max" in power_labels
+
+
+def test_profile_plot_spans_the_chainage_and_marks_machines(hydro):
+    svg = _svg(plots.profile_plot(hydro))
+    texts = [el.text for el in svg.iter() if el.tag.endswith("text")]
+    assert "T1" in texts and "V1" in texts
+    assert "Chainage along the line [m]" in texts
+    ticks = [float(t) for t in texts if t and re.fullmatch(r"-?\d+(\.\d+)?", t)]
+    assert max(ticks) >= 825.0  # the line is 640 + 185 m long
+
+
+def test_user_labels_are_escaped_and_cut_in_plots():
+    doc = demo("hydro-penstock")
+    doc["elements"][-1]["label"] = '<script>alert("x")</script> & ' + "Ω" * 80
+    for plot in plots.all_plots(analyse(doc)):
+        assert "<script>" not in plot.svg
+        root = _svg(plot)  # still well formed
+        for el in root.iter():
+            if el.tag.endswith("text") and el.text and "script" in el.text:
+                assert el.text.startswith('<script>alert("x")') and len(el.text) <= 60
+
+
+def test_nice_ticks_cover_the_range():
+    for lo, hi in ((0, 1), (317.2, 412.0), (-5.5, 3.2), (1e-4, 3e-4), (0, 118.9)):
+        ticks = plots.nice_ticks(lo, hi)
+        assert ticks[0] <= lo and ticks[-1] >= hi and 3 <= len(ticks) <= 12
+
+
+def test_us_sheet_plots_in_us_units(cooling):
+    texts = [el.text for p in record.build(cooling).plots for el in _svg(p).iter() if el.tag.endswith("text")]
+    assert "Flow [gpm]" in texts and "Chainage along the line [ft]" in texts
+
+
+# ----------------------------------------------------------------------------- comparing revisions
+
+def test_input_changes_name_each_field_and_compare_gives_before_and_after():
+    a = demo("pumped-main")
+    b = copy.deepcopy(a)
+    b["elements"][3]["length"] = "2400 m"
+    b["header"]["title"] = "Longer main"
+    changes = record.input_changes(a, b)
+    assert {c["path"] for c in changes} == {"elements.3.length", "header.title"}
+    length = next(c for c in changes if c["path"] == "elements.3.length")
+    assert length["before"] == "2100 m" and length["after"] == "2400 m"
+    assert length["where"] == "element 4 (pipe «Rising main») › length"
+    table = record.compare(analyse(a), analyse(b), "SI")
+    flow = next(r for r in table.rows if r[0] == "Flow at the design point")
+    # A longer main needs more head, so the pump delivers less.
+    assert printed(flow[2].split()[0]) < printed(flow[1].split()[0]) and flow[3].startswith("-")
