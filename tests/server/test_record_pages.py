@@ -63,7 +63,15 @@ def sign(client, sheet_id, number, role, name, comment="", api=True, fingerprint
         body["fingerprint"] = fingerprint
     if api:
         return client.post(f"/api/sheets/{sheet_id}/revisions/{number}/signatures", json=body)
+    body.update(form_token(client, sheet_id, number))
     return client.post(f"/sheets/{sheet_id}/revisions/{number}/signatures", data=body, follow_redirects=False)
+
+
+def form_token(client, sheet_id, number) -> dict:
+    """The hidden fields a browser would post with the sign-off form (the form token, when the server sets one)."""
+    page = client.get(f"/sheets/{sheet_id}/revisions/{number}/record").text
+    m = re.search(r'name="csrf_token" value="([^"]*)"', page)
+    return {"csrf_token": m.group(1)} if m else {}
 
 
 @pytest.fixture
@@ -236,7 +244,8 @@ def test_sign_form_without_javascript(client, sheet_id):
     page = client.get(f"/sheets/{sheet_id}/revisions/1/record").text
     fingerprint = re.search(r'name="fingerprint" value="([0-9a-f]{64})"', page).group(1)
     response = client.post(f"/sheets/{sheet_id}/revisions/1/signatures",
-                           data={"role": "preparer", "name": "Ada", "comment": "ok", "fingerprint": fingerprint},
+                           data={"role": "preparer", "name": "Ada", "comment": "ok", "fingerprint": fingerprint,
+                                 **form_token(client, sheet_id, 1)},
                            follow_redirects=False)
     assert response.status_code == 303 and response.headers["location"].endswith("/revisions/1/record#sign-off")
     page = client.get(f"/sheets/{sheet_id}/revisions/1/record").text
