@@ -174,6 +174,33 @@ def shape(doc: Any) -> Any:
     return None
 
 
+def leaves(doc: Any, prefix: str = "") -> dict[str, Any]:
+    """Every value of a document by dotted path (an empty list or group counts as one value).
+
+    >>> leaves({"header": {"title": "A"}, "elements": [{"length": "5 m", "fittings": []}]})
+    {'header.title': 'A', 'elements.0.length': '5 m', 'elements.0.fittings': []}
+    """
+    out: dict[str, Any] = {}
+    stack = [(prefix, doc)]
+    while stack:
+        path, node = stack.pop()
+        if isinstance(node, dict) and node:
+            stack.extend((f"{path}.{k}" if path else str(k), v) for k, v in reversed(list(node.items())))
+        elif isinstance(node, list) and node:
+            stack.extend((f"{path}.{i}" if path else str(i), v) for i, v in reversed(list(enumerate(node))))
+        else:
+            out[path] = node
+    return out
+
+
+def differences(a: Any, b: Any) -> list[tuple[str, Any, Any]]:
+    """(path, value in ``a``, value in ``b``) for each value that differs; the missing marker where one has none."""
+    la, lb = leaves(a), leaves(b)
+    return [(p, la.get(p, _MISSING), lb.get(p, _MISSING))
+            for p in dict.fromkeys([*la, *lb]) if la.get(p, _MISSING) != lb.get(p, _MISSING)
+            or type(la.get(p, _MISSING)) is not type(lb.get(p, _MISSING))]
+
+
 # -- list actions ------------------------------------------------------------------------------
 
 @dataclass

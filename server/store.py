@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
+import secrets
 import sqlite3
 import threading
 from contextlib import contextmanager
@@ -160,6 +162,7 @@ class Store:
             con.execute("PRAGMA journal_mode=WAL")
             con.executescript(_SCHEMA)
             con.executescript(_SIGNOFF_SCHEMA)  # sign-off block, end of file
+            con.executescript(_SHARING_SCHEMA)  # read-only links, below the sign-off block
             con.execute(f"PRAGMA user_version={SCHEMA_VERSION}")
 
     @contextmanager
@@ -264,6 +267,16 @@ class Store:
         if not rows:
             raise SheetNotFound(sheet_id)
         return [_revision(r) for r in rows]
+
+    def revisions_since(self, sheet_id: int, number: int, limit: int = 20) -> tuple[list[Revision], int]:
+        """Revisions after ``number``, newest first (at most ``limit``), and how many there are in all."""
+        _valid_id(sheet_id)
+        with self._connect() as con:
+            rows = con.execute(f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? AND number > ? "
+                               "ORDER BY number DESC LIMIT ?", (sheet_id, number, limit)).fetchall()
+            total = con.execute("SELECT COUNT(*) FROM revisions WHERE sheet_id = ? AND number > ?",
+                                (sheet_id, number)).fetchone()[0]
+        return [_revision(r) for r in rows], total
 
     # -- writing ---------------------------------------------------------------------------
 
@@ -414,6 +427,152 @@ class Store:
                 "WHERE f.sheet_id = r.sheet_id AND f.number = r.number AND f.version = ?) "
                 "ORDER BY sheet_id, number LIMIT ?", (version, limit)).fetchall()
         return [_revision(r) for r in rows]
+
+
+    # == sharing: the server's secret, read-only links, whole-sheet export and import, backup ===========
+
+    def secret(self) -> bytes:
+        """The store's own random secret (made once), which signs the server's cookies."""
+        with self._write() as con:
+            con.execute("INSERT OR IGNORE INTO meta (key, value) VALUES ('secret', ?)", (secrets.token_hex(32),))
+            return bytes.fromhex(con.execute("SELECT value FROM meta WHERE key = 'secret'").fetchone()[0])
+
+    def create_view_link(self, sheet_id: int, note: str = "") -> ViewLink:
+        """A new read-only link to a sheet: a random token that opens the sheet to view, print and sign."""
+        _valid_id(sheet_id)
+        link = ViewLink(secrets.token_urlsafe(18), sheet_id, _now(), note, None)
+        with self._write() as con:
+            if con.execute("SELECT 1 FROM sheets WHERE id = ?", (sheet_id,)).fetchone() is None:
+                raise SheetNotFound(sheet_id)
+            con.execute("INSERT INTO view_links (token, sheet_id, created, note) VALUES (?, ?, ?, ?)",
+                        (link.token, sheet_id, link.created, note))
+        return link
+
+    def view_links(self, sheet_id: int) -> list[ViewLink]:
+        """The sheet's read-only links that still work, newest first."""
+        _valid_id(sheet_id)
+        with self._connect() as con:
+            rows = con.execute("SELECT token, sheet_id, created, note, revoked FROM view_links "
+                               "WHERE sheet_id = ? AND revoked IS NULL ORDER BY rowid DESC", (sheet_id,)).fetchall()
+        return [ViewLink(*r) for r in rows]
+
+    def view_link_sheet(self, token: str) -> int | None:
+        """The sheet a read-only link opens, or None for an unknown or revoked link."""
+        if not token or len(token) > 100:
+            return None
+        with self._connect() as con:
+            row = con.execute("SELECT sheet_id FROM view_links WHERE token = ? AND revoked IS NULL",
+                              (token,)).fetchone()
+        return row[0] if row else None
+
+    def revoke_view_link(self, sheet_id: int, token: str) -> bool:
+        """Stop a read-only link from working; returns whether a working link was revoked."""
+        _valid_id(sheet_id)
+        with self._write() as con:
+            cur = con.execute("UPDATE view_links SET revoked = ? WHERE token = ? AND sheet_id = ? AND revoked IS NULL",
+                              (_now(), token, sheet_id))
+            return cur.rowcount == 1
+
+    def export_rows(self, sheet_id: int) -> dict:
+        """A sheet, every revision and every signature, read in one transaction (so from one moment)."""
+        _valid_id(sheet_id)
+        with self._connect() as con:
+            con.execute("BEGIN")
+            try:
+                sheet = con.execute("SELECT id, created, archived FROM sheets WHERE id = ?", (sheet_id,)).fetchone()
+                revisions = con.execute(f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? "
+                                        "ORDER BY number", (sheet_id,)).fetchall()
+                signatures = con.execute(
+                    "SELECT number, role, name, comment, signed, fingerprint FROM signatures WHERE sheet_id = ? "
+                    "ORDER BY number, CASE role WHEN 'preparer' THEN 0 WHEN 'checker' THEN 1 ELSE 2 END",
+                    (sheet_id,)).fetchall()
+            finally:
+                con.execute("COMMIT")
+        if sheet is None or not revisions:
+            raise SheetNotFound(sheet_id)
+        return {"sheet": {"id": sheet[0], "created": sheet[1], "archived": bool(sheet[2])},
+                "revisions": [_revision(r) for r in revisions],
+                "signatures": [dict(zip(("number", "role", "name", "comment", "signed", "fingerprint"), s))
+                               for s in signatures]}
+
+    def import_rows(self, created: str, revisions: list[Revision], signatures: list[dict], origin: dict) -> int:
+        """A new sheet holding the given revisions and signatures word for word; returns its id.
+
+        Everything goes in one transaction, so a failed import leaves no trace. Revisions keep
+        their numbers, times, authors, notes and frozen state; nothing existing is touched.
+        """
+        with self._write() as con:
+            sheet_id = con.execute("INSERT INTO sheets (created) VALUES (?)", (created,)).lastrowid
+            con.executemany(
+                f"INSERT INTO revisions ({_REVISION_COLUMNS}) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                [(sheet_id, r.number, r.document_json, r.digest, r.created, r.author, r.note, r.base,
+                  1 if r.frozen else 0) for r in revisions])
+            con.executemany(
+                "INSERT INTO signatures (sheet_id, number, role, name, comment, signed, fingerprint) "
+                "VALUES (?, ?, ?, ?, ?, ?, ?)",
+                [(sheet_id, s["number"], s["role"], s["name"], s["comment"], s["signed"], s["fingerprint"])
+                 for s in signatures])
+            con.execute("INSERT INTO meta (key, value) VALUES (?, ?)",
+                        (f"imported:{sheet_id}", json.dumps({**origin, "imported": _now()}, ensure_ascii=False)))
+        return sheet_id
+
+    def backup(self, out: Path) -> dict:
+        """A consistent copy of the whole store in ``out`` (a single file), taken while others may be writing.
+
+        SQLite's online backup copies one snapshot; the copy is checked and switched out of
+        write-ahead logging so it is one self-contained file. Returns what the copy holds.
+        """
+        out = Path(out)
+        tmp = out.with_name(f".{out.name}.{os.getpid()}.partial")
+        tmp.unlink(missing_ok=True)
+        src = sqlite3.connect(self.path, timeout=10)
+        try:
+            src.execute("PRAGMA busy_timeout=10000")
+            dst = sqlite3.connect(tmp)
+            try:
+                src.backup(dst)
+                dst.execute("PRAGMA journal_mode=DELETE")
+                check = dst.execute("PRAGMA integrity_check").fetchone()[0]
+                counts = {t: dst.execute(f"SELECT COUNT(*) FROM {t}").fetchone()[0]
+                          for t in ("sheets", "revisions", "signatures")}
+            finally:
+                dst.close()
+        finally:
+            src.close()
+        if check != "ok":
+            tmp.unlink(missing_ok=True)
+            raise StoreError(f"the copy failed its integrity check: {check}")
+        with open(tmp, "rb") as f:
+            os.fsync(f.fileno())
+        os.replace(tmp, out)
+        return counts
+
+
+@dataclass(frozen=True)
+class ViewLink:
+    """A read-only link to one sheet."""
+
+    token: str
+    sheet_id: int
+    created: str
+    note: str
+    revoked: str | None
+
+
+# Read-only links are revoked, never deleted, so the store keeps who was given access and when.
+_SHARING_SCHEMA = """
+CREATE TABLE IF NOT EXISTS view_links (
+    token    TEXT PRIMARY KEY,
+    sheet_id INTEGER NOT NULL REFERENCES sheets(id),
+    created  TEXT NOT NULL,
+    note     TEXT NOT NULL DEFAULT '',
+    revoked  TEXT
+);
+CREATE INDEX IF NOT EXISTS view_links_by_sheet ON view_links (sheet_id);
+CREATE TRIGGER IF NOT EXISTS view_links_never_deleted
+BEFORE DELETE ON view_links
+BEGIN SELECT RAISE(ABORT, 'read-only links are revoked, never deleted'); END;
+"""
 
 
 class SignOffRefused(StoreError):

@@ -1,0 +1,179 @@
+"""One sheet with its whole history and signatures as a single JSON file: export, checks on import, import.
+
+The file is our own format (``headsheet-sheet-export``, version 1)::
+
+    {"format": "headsheet-sheet-export", "version": 1, "exported": "<UTC time>", "program": "<version>",
+     "sheet": {"id": 7, "created": "...", "archived": false},
+     "revisions": [{"number": 1, "created": "...", "author": "", "note": "...", "base": null,
+                    "frozen": false, "digest": "<SHA-256 of the stored document text>", "document": {...}}, ...],
+     "signatures": [{"number": 3, "role": "preparer", "name": "...", "comment": "", "signed": "...",
+                     "fingerprint": "..."}, ...],
+     "checksum": "sha256:<hex>"}
+
+``checksum`` is the SHA-256 of the rest of the object written as canonical JSON (keys sorted,
+no spaces, UTF-8), so a file altered by hand or cut short is refused. Each revision's
+``digest`` is checked against its document too. Importing always makes a new sheet.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from datetime import datetime, timezone
+from typing import Any
+
+from server.editing import json_problem
+from server.store import Revision, Store, digest_of, dump_document
+
+FORMAT = "headsheet-sheet-export"
+VERSION = 1
+ROLES = ("preparer", "checker", "approver")
+#: Most revisions a file may carry: years of work on one sheet, not an attempt to fill the disk.
+MAX_REVISIONS = 20_000
+MAX_TEXT = 2_000
+
+
+class ImportRefused(ValueError):
+    """A file that cannot be imported, and why, in words for the user."""
+
+
+def _canonical(obj: Any) -> bytes:
+    return json.dumps(obj, ensure_ascii=False, sort_keys=True, separators=(",", ":"), allow_nan=False).encode("utf-8")
+
+
+def checksum(payload: dict) -> str:
+    """The checksum of an export object (every key but ``checksum`` itself)."""
+    body = {k: v for k, v in payload.items() if k != "checksum"}
+    return "sha256:" + hashlib.sha256(_canonical(body)).hexdigest()
+
+
+def _program() -> str:
+    try:
+        from calc.fingerprint import program_version
+        return program_version()
+    except Exception:  # the version is a courtesy in the file, never a reason to fail an export
+        return "unknown"
+
+
+def export_sheet(store: Store, sheet_id: int) -> dict:
+    """The export object of one sheet (raises SheetNotFound)."""
+    rows = store.export_rows(sheet_id)
+    payload = {
+        "format": FORMAT,
+        "version": VERSION,
+        "exported": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "program": _program(),
+        "sheet": rows["sheet"],
+        "revisions": [{"number": r.number, "created": r.created, "author": r.author, "note": r.note, "base": r.base,
+                       "frozen": r.frozen, "digest": r.digest, "document": json.loads(r.document_json)}
+                      for r in rows["revisions"]],
+        "signatures": rows["signatures"],
+    }
+    payload["checksum"] = checksum(payload)
+    return payload
+
+
+def export_bytes(store: Store, sheet_id: int) -> bytes:
+    return json.dumps(export_sheet(store, sheet_id), ensure_ascii=False, indent=1, allow_nan=False).encode("utf-8")
+
+
+def _text(obj: dict, key: str, where: str, required: bool = True) -> str:
+    value = obj.get(key, None if required else "")
+    if not isinstance(value, str):
+        raise ImportRefused(f"{where}: '{key}' must be text.")
+    if len(value) > MAX_TEXT:
+        raise ImportRefused(f"{where}: '{key}' is longer than {MAX_TEXT} characters.")
+    return value
+
+
+def read_export(raw: bytes | str) -> dict:
+    """Parse and check an export file; ImportRefused says exactly what is wrong with it."""
+    try:
+        data = json.loads(raw, parse_constant=_no_constant)
+    except RecursionError:
+        raise ImportRefused("The file nests too deeply to be a Headsheet export.") from None
+    except (ValueError, UnicodeDecodeError) as e:
+        raise ImportRefused(f"The file is not JSON ({str(e)[:120]}).") from None
+    if not isinstance(data, dict) or data.get("format") != FORMAT:
+        raise ImportRefused(f"The file is not a Headsheet sheet export (its 'format' should be '{FORMAT}').")
+    version = data.get("version")
+    if version != VERSION:
+        if isinstance(version, int) and not isinstance(version, bool) and version > VERSION:
+            raise ImportRefused(f"The file is export version {version}, made by a newer Headsheet; "
+                                f"this one reads version {VERSION}.")
+        raise ImportRefused(f"The file's export version ({str(version)[:20]}) is not one this program reads.")
+    if data.get("checksum") != checksum(data):
+        raise ImportRefused("The file's checksum does not match its contents: it was changed or cut short "
+                            "after it was exported.")
+    return data
+
+
+def _no_constant(name: str):
+    raise ValueError(f"{name} is not a number JSON allows")
+
+
+def check_export(data: dict) -> tuple[str, list[Revision], list[dict], dict]:
+    """The sheet's creation time, revisions and signatures from a read export, each checked."""
+    sheet = data.get("sheet")
+    if not isinstance(sheet, dict):
+        raise ImportRefused("The file has no 'sheet' object.")
+    created = _text(sheet, "created", "sheet")
+    revisions = data.get("revisions")
+    if not isinstance(revisions, list) or not revisions:
+        raise ImportRefused("The file holds no revisions.")
+    if len(revisions) > MAX_REVISIONS:
+        raise ImportRefused(f"The file holds {len(revisions)} revisions; at most {MAX_REVISIONS} can be imported.")
+    out: list[Revision] = []
+    for i, r in enumerate(revisions):
+        where = f"revision {i + 1}"
+        if not isinstance(r, dict):
+            raise ImportRefused(f"{where} is not an object.")
+        number = r.get("number")
+        if number != i + 1 or isinstance(number, bool):
+            raise ImportRefused(f"{where}: revisions must be numbered 1, 2, 3… in order (found {str(number)[:20]}).")
+        base = r.get("base")
+        if base is not None and (not isinstance(base, int) or isinstance(base, bool) or not 0 < base < number):
+            raise ImportRefused(f"{where}: 'base' must be an earlier revision number or null.")
+        frozen = r.get("frozen")
+        if not isinstance(frozen, bool):
+            raise ImportRefused(f"{where}: 'frozen' must be true or false.")
+        document = r.get("document")
+        if not isinstance(document, dict):
+            raise ImportRefused(f"{where}: 'document' must be a sheet document (an object).")
+        problem = json_problem(document)
+        if problem:
+            raise ImportRefused(f"{where}: the document {problem}.")
+        text = dump_document(document)
+        if digest_of(text) != r.get("digest"):
+            raise ImportRefused(f"{where}: the document does not match its digest.")
+        out.append(Revision(0, number, text, digest_of(text), _text(r, "created", where), _text(r, "author", where),
+                            _text(r, "note", where), base, frozen))
+    signatures = data.get("signatures", [])
+    if not isinstance(signatures, list):
+        raise ImportRefused("'signatures' must be a list.")
+    seen: set[tuple[int, str]] = set()
+    sigs: list[dict] = []
+    for k, s in enumerate(signatures):
+        where = f"signature {k + 1}"
+        if not isinstance(s, dict):
+            raise ImportRefused(f"{where} is not an object.")
+        number, role = s.get("number"), s.get("role")
+        if not isinstance(number, int) or isinstance(number, bool) or not 0 < number <= len(out):
+            raise ImportRefused(f"{where}: 'number' names no revision in the file.")
+        if not out[number - 1].frozen:
+            raise ImportRefused(f"{where}: revision {number} is signed but not frozen.")
+        if role not in ROLES or (number, role) in seen:
+            raise ImportRefused(f"{where}: the role must be preparer, checker or approver, once per revision.")
+        seen.add((number, role))
+        sigs.append({"number": number, "role": role, **{key: _text(s, key, where) for key in
+                                                         ("name", "comment", "signed", "fingerprint")}})
+    origin = {"sheet_id": sheet.get("id") if isinstance(sheet.get("id"), int) else None,
+              "exported": str(data.get("exported", ""))[:40], "program": str(data.get("program", ""))[:40],
+              "checksum": data["checksum"]}
+    return created, out, sigs, origin
+
+
+def import_sheet(store: Store, raw: bytes | str) -> int:
+    """Import an export file as a new sheet; returns the new sheet's id. Never overwrites anything."""
+    created, revisions, signatures, origin = check_export(read_export(raw))
+    return store.import_rows(created, revisions, signatures, origin)
