@@ -16,9 +16,13 @@ from fastapi.staticfiles import StaticFiles
 from fastapi.templating import Jinja2Templates
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
-from server import api, pages
+from markupsafe import Markup, escape
+
+from server import api, pages, sharing
 from server import record  # the calculation record: record, PDF, sign-off, verify, compare
+from server.access import KeyFile, Sharing, Signer
 from server.form import message_id
+from server.guard import CSRF_FIELD, Guard
 from server.results import SolveCache, lowest_pressure, number, quantity
 from server.store import SheetNotFound, Store
 
@@ -53,7 +57,12 @@ ROUTES: list[tuple[str, str, list[str], Any, bool]] = [
     ("/api/sheets/{sheet_id}/revisions/{number}", "api_revision", ["GET"], api.read_revision, True),
     ("/api/solve", "api_solve", ["POST"], api.solve, True),
     ("/api/schema", "api_schema", ["GET"], api.schema, True),
-]
+] + [(path, name, methods, endpoint, False) for path, name, methods, endpoint in sharing.ROUTES]
+
+
+def body_limit(path: str) -> int:
+    """Largest request body for a path [bytes]: MAX_BODY, except the import page's file upload."""
+    return sharing.import_limit(path) or MAX_BODY
 
 
 @dataclass
@@ -82,19 +91,23 @@ def load_demos(folder: Path = EXAMPLES) -> list[Demo]:
 class BodyLimit:
     """Refuses request bodies over ``limit`` bytes with 413 before any parsing (pure ASGI, so it sees every route)."""
 
-    def __init__(self, app, limit: int = MAX_BODY):
+    def __init__(self, app, limit: int = MAX_BODY, limit_for=None):
         self.app = app
         self.limit = limit
+        self.limit_for = limit_for
 
     async def __call__(self, scope, receive, send):
         if scope["type"] != "http" or scope["method"] in ("GET", "HEAD", "OPTIONS"):
             await self.app(scope, receive, send)
             return
+        limit = self.limit
+        if self.limit_for is not None:
+            limit = self.limit_for((scope.get("headsheet") or {}).get("route_path", scope.get("path", "")))
         declared = dict(scope.get("headers") or []).get(b"content-length")
         too_big = False
         if declared is not None:
             try:
-                too_big = int(declared) > self.limit
+                too_big = int(declared) > limit
             except ValueError:
                 too_big = True
         chunks: list[bytes] = []
@@ -106,14 +119,14 @@ class BodyLimit:
                 return
             chunk = message.get("body", b"")
             size += len(chunk)
-            if size > self.limit:
+            if size > limit:
                 too_big = True
                 break
             chunks.append(chunk)
             more = message.get("more_body", False)
         if too_big:
             response = error_response(scope.get("path", ""), 413, "Request too large",
-                                      f"A request may carry at most {self.limit // 1000} kB.", scope=scope)
+                                      f"A request may carry at most {limit // 1000} kB.", scope=scope)
             await response(scope, receive, send)
             return
         body = b"".join(chunks)
@@ -152,8 +165,9 @@ def error_response(path: str, status: int, title: str, message: str, errors: lis
                                       status_code=status)
 
 
-_TITLES = {400: "Bad request", 404: "Not found", 405: "Method not allowed", 409: "Conflict",
-           413: "Request too large", 422: "Invalid input", 500: "Internal error"}
+_TITLES = {400: "Bad request", 401: "Access key needed", 403: "Refused", 404: "Not found",
+           405: "Method not allowed", 409: "Conflict", 413: "Request too large", 415: "Unsupported media type",
+           422: "Invalid input", 429: "Too many tries", 500: "Internal error"}
 
 
 async def _http_error(request: Request, exc: StarletteHTTPException):
@@ -197,7 +211,27 @@ def _templates() -> Jinja2Templates:
         request: Request = context["request"]
         return request.scope.get("root_path", "") + str(request.app.url_path_for(name, **params))
 
+    @jinja2.pass_context
+    def csrf_token(context) -> str:
+        request = context.get("request")
+        info = request.scope.get("headsheet") if request is not None else None
+        return info["csrf"] if info else ""
+
+    @jinja2.pass_context
+    def csrf_field(context) -> Markup:
+        """The hidden form token every posting form carries (server.guard checks it)."""
+        return Markup(f'<input type="hidden" name="{CSRF_FIELD}" value="{escape(csrf_token(context))}">')
+
+    @jinja2.pass_context
+    def view_prefix(context) -> str:
+        request = context.get("request")
+        info = request.scope.get("headsheet") if request is not None else None
+        return info["view_prefix"] if info else ""
+
     env.globals["url_for"] = url_for
+    env.globals["csrf_token"] = csrf_token
+    env.globals["csrf_field"] = csrf_field
+    env.globals["view_prefix"] = view_prefix
     env.globals["htmx_path"] = HTMX
     env.filters["q"] = quantity
     env.filters["num"] = number
@@ -207,8 +241,13 @@ def _templates() -> Jinja2Templates:
     return templates
 
 
-def create_app(data_dir: Path, demos: list[Demo] | None = None) -> FastAPI:
-    """The application over the store in ``data_dir``; demo sheets are seeded when the store is new."""
+def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = False,
+               addresses: list[str] | None = None) -> FastAPI:
+    """The application over the store in ``data_dir``; demo sheets are seeded when the store is new.
+
+    With ``share``, every request needs the access key kept in the data folder (made now if there
+    is none); ``addresses`` are the network addresses the server is reachable at, for the links it shows.
+    """
     app = FastAPI(
         title="Headsheet",
         summary="Pressurised water line calculation sheets: store, solve and read them.",
@@ -226,6 +265,10 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None) -> FastAPI:
     app.state.solver = SolveCache()
     app.state.templates = _templates()
     app.state.store.seed_once([(d.name, d.document) for d in app.state.demos])
+    app.state.sharing = Sharing(KeyFile(data_dir), Signer(app.state.store.secret()), share=share)
+    app.state.addresses = list(addresses or [])
+    if share:
+        app.state.sharing.keys.ensure()
     for path, name, methods, endpoint, in_schema in ROUTES:
         kwargs: dict[str, Any] = {"name": name, "methods": methods, "include_in_schema": in_schema}
         if in_schema:
@@ -239,5 +282,7 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None) -> FastAPI:
     app.add_exception_handler(RequestValidationError, _validation_error)
     app.add_exception_handler(SheetNotFound, _not_found)
     app.add_exception_handler(Exception, _unexpected)
-    app.add_middleware(BodyLimit, limit=MAX_BODY)
+    app.add_middleware(BodyLimit, limit=MAX_BODY, limit_for=body_limit)
+    # Added last, so it runs first: nothing is read or parsed for a request that may not be served.
+    app.add_middleware(Guard, sharing=app.state.sharing, state=app.state, limit_for=body_limit)
     return app

@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import copy
+import json
 from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
+from urllib.parse import quote, unquote
 
 from fastapi import Request
 from fastapi.responses import RedirectResponse, Response
@@ -15,11 +17,15 @@ from calc import sheet as calc_sheet
 
 from server import editing
 from server.form import FormView, anchor, describe, slot_paths
+from server.guard import cookie_name
 from server.store import Revision, StaleRevision, Store, dump_document
 
 #: Most form fields a post may carry: a sheet at every list limit has about 30 000.
 MAX_FIELDS = 40_000
 MAX_NOTE_PATHS = 6
+MAX_AUTHOR = 100
+#: Changes listed in a conflict message before "and N more".
+MAX_LISTED = 30
 
 
 def when(iso: str | None) -> str:
@@ -51,6 +57,28 @@ def _redirect(request: Request, name: str, fragment: str = "", **params) -> Redi
 
 def _is_htmx(request: Request) -> bool:
     return request.headers.get("HX-Request") == "true"
+
+
+def viewer(request: Request) -> int | None:
+    """The sheet a read-only link opened, when the request came through one (server.guard)."""
+    info = request.scope.get("headsheet") or {}
+    return info.get("viewer")
+
+
+def clean_author(text: str) -> str:
+    """A name typed for the history: one line, no control characters, at most MAX_AUTHOR characters."""
+    return " ".join("".join(c for c in text if c.isprintable()).split())[:MAX_AUTHOR]
+
+
+def author_of(request: Request) -> str:
+    """The name this browser gave last time (kept in a cookie), for the history of its edits."""
+    return clean_author(unquote(request.cookies.get(cookie_name("author", request.scope), "")))
+
+
+def remember_author(request: Request, response: Response, author: str) -> None:
+    if author != author_of(request):
+        response.set_cookie(cookie_name("author", request.scope), quote(author), max_age=365 * 86400,
+                            httponly=True, samesite="strict")
 
 
 # -- home -----------------------------------------------------------------------------------------
@@ -103,6 +131,55 @@ async def unarchive_sheet(request: Request, sheet_id: int) -> Response:
 
 # -- the sheet ------------------------------------------------------------------------------------
 
+def _shown(value: Any) -> str:
+    if editing.is_missing(value) or value is None:
+        return "(none)"
+    if isinstance(value, str):
+        return value if value.strip() else "(empty)"
+    return json.dumps(value, ensure_ascii=False)
+
+
+@dataclass
+class Conflict:
+    """A refused edit: who changed the sheet since the form's revision, what they changed, and what was typed."""
+
+    base: int | None  # the revision the form was drawn from (None if the form did not say)
+    current: Revision  # the sheet's latest revision
+    since: list[Revision]  # revisions after ``base``, newest first (the first MAX_LISTED)
+    since_total: int
+    theirs: list[dict]  # {path, where, before, after}: base -> current
+    theirs_total: int
+    yours: list[dict]  # {path, where, value, text, clash}: base -> what was typed
+    yours_total: int
+    reapply: bool  # the typed changes can be posted again onto the current revision as they are
+    message: str
+
+
+def conflict_view(store: Store, refused: StaleRevision, base_doc: dict | None, typed: dict) -> Conflict:
+    """What the page says about a refused edit, so nothing typed is lost without the user seeing it."""
+    current = refused.current
+    current_doc = current.document
+    base = refused.base if isinstance(refused.base, int) and 0 < refused.base < current.number else None
+    since, since_total, theirs = [], 0, []
+    if base is not None and base_doc is not None:
+        since, since_total = store.revisions_since(current.sheet_id, base, MAX_LISTED)
+        theirs = [{"path": p, "where": describe(current_doc if not editing.is_missing(b) else base_doc, p),
+                   "before": _shown(a), "after": _shown(b)}
+                  for p, a, b in editing.differences(base_doc, current_doc)]
+    reference = base_doc if base_doc is not None else current_doc
+    their_paths = {t["path"] for t in theirs}
+    yours = [{"path": p, "where": describe(typed if not editing.is_missing(b) else reference, p), "value": b,
+              "text": _shown(b), "clash": any(editing.related(p, q) for q in their_paths)}
+             for p, a, b in editing.differences(reference, typed)]
+    same_shape = editing.shape(typed) == editing.shape(reference) == editing.shape(current_doc)
+    reapply = bool(yours) and same_shape and len(yours) <= MAX_LISTED and all(
+        isinstance(y["value"], (str, int)) and not isinstance(y["value"], bool) for y in yours)
+    for y in yours:
+        y["value"] = str(y["value"]) if not editing.is_missing(y["value"]) else ""
+    return Conflict(base, current, since, since_total, theirs[:MAX_LISTED], len(theirs), yours[:MAX_LISTED],
+                    len(yours), reapply, str(refused))
+
+
 @dataclass
 class SheetState:
     """Everything the sheet page and its fragments show, from one edit (or none)."""
@@ -115,7 +192,7 @@ class SheetState:
     stale: bool = False
     focus: str | None = None
     message: str | None = None
-    conflict: StaleRevision | None = None
+    conflict: Conflict | None = None
     saved: bool = False  # this request added a revision
     relayout: bool = False  # the form's fields changed shape: send the whole form back
 
@@ -135,6 +212,7 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
     error_paths = {e.path for e in state.errors if e.path in slots}
     return {
         "sheet": summary,
+        "author": author_of(request),
         "revision": state.latest,
         "header": header,
         "form": form,
@@ -151,12 +229,40 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
     }
 
 
+def page_extras(request: Request, sheet_id: int) -> dict:
+    """What only the whole sheet page shows: its read-only links."""
+    store = _store(request)
+    links = [{"link": link, "urls": view_urls(request, link.token)} for link in store.view_links(sheet_id)]
+    return {"links": links}
+
+
+def view_urls(request: Request, token: str) -> list[str]:
+    """The addresses of a read-only link that a colleague can open.
+
+    A page opened on the server itself (127.0.0.1) would give a loopback address, useless to
+    anyone else, so a shared server lists its network addresses instead.
+    """
+    path = str(request.app.url_path_for("view_link", token=token))
+    host = request.url.hostname or ""
+    addresses = getattr(request.app.state, "addresses", [])
+    if addresses and (host in ("127.0.0.1", "localhost", "::1") or host.startswith("127.")):
+        port = request.url.port
+        return [f"http://{a}{f':{port}' if port else ''}{path}" for a in addresses]
+    return [str(request.base_url).rstrip("/") + path]
+
+
 def sheet_page(request: Request, sheet_id: int) -> Response:
     latest = _store(request).latest(sheet_id)
     doc = latest.document
     parsed = calc_sheet.parse(doc)
     state = SheetState(latest, doc, parsed.errors, doc, parsed)
-    return _render(request, "sheet.html", sheet_context(request, state), vary=True)
+    context = sheet_context(request, state)
+    if viewer(request) is not None:
+        # A read-only link: the same sheet and results, with no control that could change them.
+        context.update({"readonly": True, "form": FormView(doc, parsed.errors, readonly=True)})
+        return _render(request, "view.html", context)
+    context.update(page_extras(request, sheet_id))
+    return _render(request, "sheet.html", context, vary=True)
 
 
 async def _form(request: Request) -> dict[str, str]:
@@ -192,7 +298,7 @@ def _note(edit: editing.Edit, action: str | None, stored: dict) -> str:
     return "; ".join(words) or "saved from the sheet form"
 
 
-def _apply_edit(request: Request, sheet_id: int, form: dict[str, str]) -> SheetState:
+def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: str = "") -> SheetState:
     store = _store(request)
     latest = store.latest(sheet_id)
     stored = latest.document
@@ -208,20 +314,23 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str]) -> SheetS
         base_doc = stored
         if base is not None and 0 < base < latest.number:
             base_doc = store.revision(sheet_id, base).document
-        conflict = StaleRevision(sheet_id, base, latest)
+        refused = StaleRevision(sheet_id, base, latest)
         typed = copy.deepcopy(drawn_from)
         for path, text in fields.items():
             editing.set_field(typed, path, text)
+        known = base is not None and 0 < base < latest.number
+        conflict = conflict_view(store, refused, base_doc if known else None, typed)
         return SheetState(latest, typed, calc_sheet.parse(typed).errors, base_doc, stale=True,
-                          conflict=conflict, message=str(conflict))
+                          conflict=conflict, message=conflict.message)
     edit = editing.edit(stored, drawn_from, fields, action)
     saved = False
     if edit.keep != stored:
         try:
-            latest, saved = store.add_revision(sheet_id, edit.keep, base, "", _note(edit, action, stored))
-        except StaleRevision as conflict:  # lost a race with another writer between read and write
-            return SheetState(conflict.current, edit.display, edit.errors, stored, stale=True,
-                              conflict=conflict, message=str(conflict))
+            latest, saved = store.add_revision(sheet_id, edit.keep, base, author, _note(edit, action, stored))
+        except StaleRevision as refused:  # lost a race with another writer between read and write
+            conflict = conflict_view(store, refused, stored, edit.display)
+            return SheetState(refused.current, edit.display, edit.errors, stored, stale=True,
+                              conflict=conflict, message=conflict.message)
     return SheetState(latest, edit.display, edit.errors, edit.keep, edit.keep_parsed, stale=edit.stale,
                       focus=edit.focus, message=edit.message, saved=saved, relayout=edit.switched)
 
@@ -229,23 +338,31 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str]) -> SheetS
 async def sheet_edit(request: Request, sheet_id: int) -> Response:
     form = await _form(request)
     shown_before = {p for p in form.get("shown_errors", "").split(",") if p}
-    state = await run_in_threadpool(_apply_edit, request, sheet_id, form)
+    author = clean_author(form["author"]) if "author" in form else author_of(request)
+    state = await run_in_threadpool(_apply_edit, request, sheet_id, form, author)
     status = 409 if state.conflict else (422 if state.errors else 200)
     if not _is_htmx(request):
         if status == 200 and not state.message:
-            return _redirect(request, "sheet", sheet_id=sheet_id,
-                             fragment=("f-" + state.focus.replace(".", "-")) if state.focus else "")
-        context = await run_in_threadpool(sheet_context, request, state)
-        return _render(request, "sheet.html", context, status=status, vary=True)
-    context = await run_in_threadpool(sheet_context, request, state, shown_before)
-    return _render(request, "fragments/edit_response.html", context, status=status, vary=True)
+            response = _redirect(request, "sheet", sheet_id=sheet_id,
+                                 fragment=("f-" + state.focus.replace(".", "-")) if state.focus else "")
+        else:
+            context = await run_in_threadpool(sheet_context, request, state)
+            context["author"] = author
+            context.update(await run_in_threadpool(page_extras, request, sheet_id))
+            response = _render(request, "sheet.html", context, status=status, vary=True)
+    else:
+        context = await run_in_threadpool(sheet_context, request, state, shown_before)
+        response = _render(request, "fragments/edit_response.html", context, status=status, vary=True)
+    remember_author(request, response, author)
+    return response
 
 
 # -- history --------------------------------------------------------------------------------------
 
 def history(request: Request, sheet_id: int) -> Response:
     store = _store(request)
-    return _render(request, "history.html", {"sheet": store.sheet(sheet_id), "revisions": store.revisions(sheet_id)})
+    return _render(request, "history.html", {"sheet": store.sheet(sheet_id), "revisions": store.revisions(sheet_id),
+                                             "readonly": viewer(request) is not None})
 
 
 def revision_page(request: Request, sheet_id: int, number: int) -> Response:
@@ -255,7 +372,7 @@ def revision_page(request: Request, sheet_id: int, number: int) -> Response:
     parsed = calc_sheet.parse(doc)
     context = sheet_context(request, SheetState(rev, doc, parsed.errors, doc, parsed))
     context.update({"shown": rev, "current": store.latest(sheet_id), "readonly": True,
-                    "form": FormView(doc, parsed.errors, readonly=True)})
+                    "viewer": viewer(request) is not None, "form": FormView(doc, parsed.errors, readonly=True)})
     return _render(request, "revision.html", context)
 
 
@@ -268,7 +385,7 @@ async def restore_revision(request: Request, sheet_id: int, number: int) -> Resp
     except ValueError:
         base = None
     try:
-        store.add_revision(sheet_id, old.document, base, "", f"restored revision {number}")
+        store.add_revision(sheet_id, old.document, base, author_of(request), f"restored revision {number}")
     except StaleRevision as conflict:
         return _error(request, 409, "Conflict", str(conflict))
     return _redirect(request, "sheet", sheet_id=sheet_id)

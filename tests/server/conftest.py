@@ -2,15 +2,10 @@
 
 from __future__ import annotations
 
-import warnings
 from pathlib import Path
 
 import pytest
-from servertools import form_fields
-
-with warnings.catch_warnings():
-    warnings.simplefilter("ignore")  # starlette's note about httpx versions is not ours to fix
-    from fastapi.testclient import TestClient
+from servertools import FIGURES, BrowserClient, form_fields
 
 from server.app import create_app
 
@@ -31,7 +26,7 @@ def app(data_dir: Path):
 
 @pytest.fixture
 def client(app):
-    with TestClient(app) as c:
+    with BrowserClient(app) as c:
         yield c
 
 
@@ -45,3 +40,11 @@ def sheet_form(client):
         return form_fields(response.text)
 
     return read
+
+
+def pytest_terminal_summary(terminalreporter):
+    """Print the figures the robustness tests gathered (inputs tried, edits sent, kills, edits lost)."""
+    if FIGURES:
+        terminalreporter.write_sep("-", "Headsheet robustness figures")
+        for name, value in sorted(FIGURES.items()):
+            terminalreporter.write_line(f"{name}: {value}")

@@ -1,13 +1,41 @@
-"""Helpers for the route tests: the htmx request header, the demo files, and reading a form as a browser posts it."""
+"""Helpers for the route tests: a browser-like test client, the htmx header, the demo files, reading a form."""
 
 from __future__ import annotations
 
+import warnings
+from collections import Counter
 from html.parser import HTMLParser
 from pathlib import Path
 
 from server.app import EXAMPLES
+from server.guard import cookie_name
+
+with warnings.catch_warnings():
+    warnings.simplefilter("ignore")  # starlette's note about httpx versions is not ours to fix
+    from fastapi.testclient import TestClient
 
 HX = {"HX-Request": "true"}
+#: Figures the robustness tests report at the end of the run (inputs tried, edits sent, ...).
+FIGURES: Counter = Counter()
+
+
+class BrowserClient(TestClient):
+    """A test client that sends the form token as the pages' htmx does (header X-CSRF-Token).
+
+    It reads the token from the cookie the server set on the first page, like a browser would
+    from the page; tests of the token itself use a plain TestClient.
+    """
+
+    def request(self, method, url, *args, **kwargs):
+        if method.upper() in ("POST", "PUT", "PATCH", "DELETE"):
+            name = cookie_name("csrf", {"server": ("testserver", 80)})
+            if name not in self.cookies:
+                super().request("GET", "/static/favicon.svg")
+            headers = dict(kwargs.pop("headers", None) or {})
+            if not any(k.lower() == "x-csrf-token" for k in headers):
+                headers["X-CSRF-Token"] = self.cookies.get(name, "")
+            kwargs["headers"] = headers
+        return super().request(method, url, *args, **kwargs)
 
 
 def demo_files() -> list[Path]:

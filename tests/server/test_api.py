@@ -6,14 +6,10 @@ import copy
 import json
 
 import pytest
-from servertools import demo_files
+from servertools import BrowserClient, demo_files
 
 from calc import sheet as calc_sheet
 from server.app import create_app
-
-with __import__("warnings").catch_warnings():
-    __import__("warnings").simplefilter("ignore")
-    from fastapi.testclient import TestClient
 
 
 def _error_shape(body: dict, status: int) -> None:
@@ -178,11 +174,13 @@ def test_a_stored_sheet_survives_a_restart_byte_for_byte(data_dir):
     doc = copy.deepcopy(calc_sheet.blank_sheet())
     doc["header"]["title"] = "Kept exactly — ünïcode, 6 in, 12 °C"
     doc["header"]["purpose"] = "Line one.\nLine two with \"quotes\" and a tab\t."
-    with TestClient(create_app(data_dir)) as first:
+    with BrowserClient(create_app(data_dir)) as first:
         sheet_id = first.post("/api/sheets", json={"document": doc}).json()["id"]
         before = first.get(f"/api/sheets/{sheet_id}").content
         page_before = first.get(f"/sheets/{sheet_id}").text
-    with TestClient(create_app(data_dir)) as second:
+        cookies = dict(first.cookies)
+    # The same browser after a restart: its form token still holds (the secret is in the store).
+    with BrowserClient(create_app(data_dir), cookies=cookies) as second:
         after = second.get(f"/api/sheets/{sheet_id}").content
         page_after = second.get(f"/sheets/{sheet_id}").text
         # Seeding happens on the first start only: no second copy of the demos.

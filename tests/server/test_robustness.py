@@ -5,21 +5,16 @@ from __future__ import annotations
 import copy
 import json
 import tempfile
-import warnings
 from pathlib import Path
 
 import pytest
 
-from servertools import HX, form_fields
+from servertools import HX, BrowserClient, form_fields
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from calc import sheet as calc_sheet
 from server.app import create_app
-
-with warnings.catch_warnings():
-    warnings.simplefilter("ignore")
-    from fastapi.testclient import TestClient
 
 OK_STATUSES = {200, 303, 409, 422}
 
@@ -134,7 +129,7 @@ _text = st.one_of(
 @given(data=st.data())
 def test_random_form_posts_never_break_the_sheet(data):
     # A fresh store per example, so that a failing example replays exactly.
-    with tempfile.TemporaryDirectory() as folder, TestClient(create_app(Path(folder))) as client:
+    with tempfile.TemporaryDirectory() as folder, BrowserClient(create_app(Path(folder))) as client:
         fields = form_fields(client.get("/sheets/1").text)
         names = sorted(k for k in fields if k not in ("base", "doc", "shown_errors"))
         chosen = data.draw(st.lists(st.sampled_from(names), min_size=1, max_size=6, unique=True))
