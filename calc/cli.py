@@ -1,4 +1,4 @@
-"""The `headsheet` command: solve a sheet file, print its schema, answer inverse questions, serve the sheet."""
+"""The `headsheet` command: solve a sheet file, print its schema, answer inverse questions; the server adds its own."""
 
 from __future__ import annotations
 
@@ -177,15 +177,6 @@ def cmd_size(args) -> int:
     return 0
 
 
-def cmd_serve(args) -> int:
-    try:
-        from server.main import serve
-    except ImportError as e:
-        sys.exit(f"headsheet: the server is not available in this installation ({e})")
-    serve(Path(args.data), host=args.host, port=args.port)
-    return 0
-
-
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="headsheet", description="Pressurised water line calculation sheet.")
     sub = p.add_subparsers(dest="command", required=True)
@@ -209,11 +200,13 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--runs", default="", help="element numbers (from 0) of the runs to resize, e.g. 0,2; default all")
     s.add_argument("--json", action="store_true")
     s.set_defaults(func=cmd_size)
-    s = sub.add_parser("serve", help="serve the calculation sheet in the browser")
-    s.add_argument("--data", default="headsheet-data", help="folder of the sheet store (default ./headsheet-data)")
-    s.add_argument("--host", default="127.0.0.1")
-    s.add_argument("--port", type=int, default=8000)
-    s.set_defaults(func=cmd_serve)
+    try:
+        # serve, key, backup, export, import: the server's own commands, registered by it (lazily
+        # importing what they need, so the calculation commands stay quick to start).
+        from server.cli import add_commands
+    except ImportError:  # an installation without the server: the calculation commands still work
+        return p
+    add_commands(sub)
     return p
 
 

@@ -1,0 +1,134 @@
+"""The `headsheet` commands about the store and the server: serve, key, backup, export and import."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+DEFAULT_DATA = "headsheet-data"
+
+
+def _store(data: str, must_exist: bool = True):
+    from server.store import DB_NAME, Store
+
+    folder = Path(data)
+    if must_exist and not (folder / DB_NAME).is_file():
+        sys.exit(f"headsheet: no sheet store in {folder} (expected {folder / DB_NAME}); give the folder with --data")
+    return Store(folder)
+
+
+def cmd_serve(args) -> int:
+    from server.access import BadKey
+    from server.main import serve
+
+    try:
+        serve(Path(args.data), host=args.host, port=args.port, share=args.share, key=args.key)
+    except BadKey as e:
+        sys.exit(f"headsheet: --key: {e}")
+    return 0
+
+
+def cmd_key(args) -> int:
+    from server.access import BadKey, KeyFile, new_key
+
+    keys = KeyFile(Path(args.data))
+    try:
+        if args.set is not None:
+            key = keys.write(args.set)
+        elif args.new:
+            key = keys.write(new_key())
+        else:
+            key = keys.read()
+            if key is None:
+                sys.exit(f"headsheet: no access key yet in {args.data}; `headsheet key --new` makes one "
+                         "(`headsheet serve --share` does too)")
+    except BadKey as e:
+        sys.exit(f"headsheet: {e}")
+    print(key)
+    if args.set is not None or args.new:
+        print(f"(kept in {keys.path}; a running server uses it at once, and browsers must type it again)",
+              file=sys.stderr)
+    return 0
+
+
+def cmd_backup(args) -> int:
+    out = Path(args.out)
+    if out.exists():
+        sys.exit(f"headsheet: {out} exists; a backup never overwrites a file, so name a new one")
+    if not out.parent.is_dir():
+        sys.exit(f"headsheet: there is no folder {out.parent}")
+    counts = _store(args.data).backup(out)
+    print(f"Backed up {counts['sheets']} sheets, {counts['revisions']} revisions and {counts['signatures']} "
+          f"signatures to {out} (checked; a consistent copy even while the server runs)")
+    return 0
+
+
+def cmd_export(args) -> int:
+    from server import transfer
+    from server.store import SheetNotFound
+
+    out = Path(args.out)
+    if out.exists():
+        sys.exit(f"headsheet: {out} exists; an export never overwrites a file, so name a new one")
+    try:
+        body = transfer.export_bytes(_store(args.data), args.sheet_id)
+    except SheetNotFound as e:
+        sys.exit(f"headsheet: {e}")
+    out.write_bytes(body)
+    print(f"Exported sheet {args.sheet_id} with its history and signatures to {out}")
+    return 0
+
+
+def cmd_import(args) -> int:
+    from server import transfer
+
+    try:
+        raw = Path(args.file).read_bytes()
+    except OSError as e:
+        sys.exit(f"headsheet: cannot read {args.file}: {e.strerror}")
+    try:
+        sheet_id = transfer.import_sheet(_store(args.data, must_exist=False), raw)
+    except transfer.ImportRefused as e:
+        sys.exit(f"headsheet: {args.file} not imported: {e}")
+    print(f"Imported {args.file} as sheet {sheet_id}")
+    return 0
+
+
+def add_commands(sub: argparse._SubParsersAction) -> None:
+    """Register serve, key, backup, export and import on the `headsheet` command's subparsers."""
+    data_help = f"folder of the sheet store (default ./{DEFAULT_DATA})"
+    s = sub.add_parser("serve", help="serve the calculation sheet in the browser")
+    s.add_argument("--data", default=DEFAULT_DATA, help=data_help)
+    s.add_argument("--host", default="127.0.0.1",
+                   help="address to listen on (default this computer only); any other needs the access key")
+    s.add_argument("--port", type=int, default=8000)
+    s.add_argument("--share", action="store_true",
+                   help="share on the local network: listen on every interface, print the addresses to open, "
+                        "and require the access key")
+    s.add_argument("--key", default=None, metavar="KEY",
+                   help="set a new access key (at least 8 letters or digits) before starting")
+    s.set_defaults(func=cmd_serve)
+
+    s = sub.add_parser("key", help="print the access key of a shared store, or change it")
+    s.add_argument("--data", default=DEFAULT_DATA, help=data_help)
+    g = s.add_mutually_exclusive_group()
+    g.add_argument("--new", action="store_true", help="make a new random key (signs every browser out)")
+    g.add_argument("--set", default=None, metavar="KEY", help="use KEY as the access key")
+    s.set_defaults(func=cmd_key)
+
+    s = sub.add_parser("backup", help="write a consistent copy of the store (safe while the server runs)")
+    s.add_argument("--data", default=DEFAULT_DATA, help=data_help)
+    s.add_argument("out", metavar="OUT.sqlite", help="the copy to write (must not exist)")
+    s.set_defaults(func=cmd_backup)
+
+    s = sub.add_parser("export", help="write one sheet with its whole history and signatures to a JSON file")
+    s.add_argument("--data", default=DEFAULT_DATA, help=data_help)
+    s.add_argument("sheet_id", type=int, metavar="SHEET_ID")
+    s.add_argument("out", metavar="OUT.json", help="the file to write (must not exist)")
+    s.set_defaults(func=cmd_export)
+
+    s = sub.add_parser("import", help="add a sheet from an export file as a new sheet (never overwrites)")
+    s.add_argument("--data", default=DEFAULT_DATA, help=data_help)
+    s.add_argument("file", metavar="FILE", help="a file written by `headsheet export` or the Export link")
+    s.set_defaults(func=cmd_import)
