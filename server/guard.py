@@ -74,7 +74,7 @@ def viewer_may(method: str, path: str, sheet_id: int) -> str:
     """What a read-only link to ``sheet_id`` may do at ``path``: 'ok', 'not part' (GET) or 'read only'."""
     if method in ("GET", "HEAD") and path.startswith("/static/"):
         return "ok"
-    for pattern in (_VIEW_POST if method in UNSAFE else _VIEW_GET if method in ("GET", "HEAD") else []):
+    for pattern in (_VIEW_POST if method == "POST" else _VIEW_GET if method in ("GET", "HEAD") else []):
         m = pattern.match(path)
         if m and int(m.group(1)) == sheet_id:
             return "ok"
@@ -288,8 +288,15 @@ class Guard:
             await RedirectResponse(f"{KEY_PATH}?next={quote(target, safe='')}", status_code=303)(scope, receive, send)
             return
         headers = {"Retry-After": str(int(wait) + 1)} if status == 429 else {}
-        await self._refuse(scope, receive, send, status, "Access key needed" if status == 401 else "Too many tries",
-                           message, headers=headers)
+        if is_api(path):
+            await self._refuse(scope, receive, send, status, "Access key needed" if status == 401 else "Too many tries",
+                               message, headers=headers)
+            return
+        # Anything else gets the key page itself: it loads nothing that needs the key.
+        request = Request(scope, receive)
+        response = self.state.templates.TemplateResponse(request, "key.html", {"next": "/", "message": message},
+                                                         status_code=status, headers=headers)
+        await response(scope, receive, self._sender(send, scope))
 
     # -- answers ----------------------------------------------------------------------------------
 

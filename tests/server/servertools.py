@@ -80,3 +80,34 @@ def form_fields(html: str) -> dict[str, str]:
     reader = _FormReader()
     reader.feed(html)
     return reader.fields
+
+
+def route_table(app) -> list[tuple[str, str]]:
+    """(method, path template) of every route the app serves, the record's router included."""
+    from starlette.routing import Mount
+
+    out: list[tuple[str, str]] = []
+
+    def walk(routes):
+        for r in routes:
+            inner = getattr(r, "original_router", None)  # FastAPI's wrapper of an included router
+            if inner is not None:
+                walk(inner.routes)
+            elif isinstance(r, Mount):
+                out.append(("GET", r.path + "/{path}"))
+            else:
+                for method in sorted(getattr(r, "methods", None) or []):
+                    if method != "HEAD":
+                        out.append((method, r.path))
+
+    walk(app.routes)
+    return out
+
+
+def fill(path: str, sheet_id: int = 1, number: int = 1, static: str = "css/headsheet.css") -> str:
+    """A route template with real values: ``/sheets/{sheet_id:int}`` -> ``/sheets/1``."""
+    import re
+
+    values = {"sheet_id": str(sheet_id), "number": str(number), "token": "not-a-link", "fingerprint": "0" * 64,
+              "path": static}
+    return re.sub(r"\{(\w+)(?::\w+)?\}", lambda m: values[m.group(1)], path)
