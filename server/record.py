@@ -60,6 +60,19 @@ def _label(store: Store, rev: Revision) -> tuple[int, str]:
     return index, scheme
 
 
+def verify_address(request: Request, fprint: str) -> str:
+    """The verify page's full address as printed on the record.
+
+    A record opened through a read-only link (the server marks the request as a viewer's) must
+    not print the link's secret path on paper: the address is then the server's own.
+    """
+    root = request.scope.get("root_path", "")
+    if (request.scope.get("headsheet") or {}).get("viewer") is not None:
+        root = ""
+    path = str(request.app.url_path_for("verify_one", fingerprint=fprint))
+    return f"{request.url.scheme}://{request.url.netloc}{root}{path}"
+
+
 def build_record(request: Request, rev: Revision, remember: bool = True) -> tuple[calc_record.Record, Analysis]:
     """The record of a stored revision, with its label, signatures and verify address; notes its fingerprint."""
     store = _store(request)
@@ -70,7 +83,7 @@ def build_record(request: Request, rev: Revision, remember: bool = True) -> tupl
     meta = calc_record.Meta(
         sheet_id=rev.sheet_id, store_revision=rev.number, label_index=index, created=rev.created,
         printed=_now(), frozen=rev.frozen, signatures=store.signatures(rev.sheet_id, rev.number),
-        verify_url=str(request.url_for("verify_one", fingerprint=fprint)),
+        verify_url=verify_address(request, fprint),
     )
     rec = calc_record.build(analysis, meta, version)
     if remember:
