@@ -1,0 +1,217 @@
+"""Export and import of a sheet with its history and signatures, and backup of the store while it is written to."""
+
+from __future__ import annotations
+
+import json
+import sqlite3
+import threading
+
+import pytest
+from servertools import form_fields
+
+from calc import sheet as calc_sheet
+from calc.cli import main as headsheet
+from server import transfer
+from server.store import DB_NAME, Store
+
+
+def _history(client, sheet_id: int) -> list[dict]:
+    out = []
+    for r in reversed(client.get(f"/api/sheets/{sheet_id}/revisions").json()["revisions"]):
+        full = client.get(f"/api/sheets/{sheet_id}/revisions/{r['number']}").json()
+        out.append({k: full[k] for k in ("number", "created", "author", "note", "base", "frozen", "digest", "document")})
+    return out
+
+
+def _signatures(client, sheet_id: int, number: int) -> list:
+    return client.get(f"/api/sheets/{sheet_id}/revisions/{number}/record").json()["signatures"]
+
+
+@pytest.fixture
+def worked(client) -> int:
+    """A sheet with three revisions by two people, the second signed by preparer and checker."""
+    doc = calc_sheet.blank_sheet()
+    doc["header"]["title"] = "Exported line — ünïcode, 6 in"
+    sheet_id = client.post("/api/sheets", json={"document": doc, "author": "Ann", "note": "first"}).json()["id"]
+    doc["header"]["project"] = "Second"
+    client.put(f"/api/sheets/{sheet_id}", json={"document": doc, "base_revision": 1, "author": "Bob"})
+    client.post(f"/api/sheets/{sheet_id}/revisions/2/signatures", json={"role": "preparer", "name": "Bob"})
+    client.post(f"/api/sheets/{sheet_id}/revisions/2/signatures", json={"role": "checker", "name": "Cy"})
+    doc["elements"][0]["length"] = "321 m"
+    client.put(f"/api/sheets/{sheet_id}", json={"document": doc, "base_revision": 2, "author": "Ann"})
+    return sheet_id
+
+
+def test_export_and_import_keep_every_revision_and_signature(client, app, worked):
+    raw = client.get(f"/sheets/{worked}/export.json")
+    assert raw.status_code == 200
+    assert raw.headers["content-disposition"] == f'attachment; filename="headsheet-sheet-{worked}.json"'
+    data = raw.json()
+    assert data["format"] == transfer.FORMAT and data["version"] == 1 and data["checksum"].startswith("sha256:")
+    assert [r["number"] for r in data["revisions"]] == [1, 2, 3]
+    sheets_before = len(client.get("/api/sheets").json()["sheets"])
+    new_id = transfer.import_sheet(app.state.store, raw.content)
+    assert new_id != worked
+    assert len(client.get("/api/sheets").json()["sheets"]) == sheets_before + 1
+    assert _history(client, new_id) == _history(client, worked)
+    assert _signatures(client, new_id, 2) == _signatures(client, worked, 2)
+    assert [s["role"] for s in _signatures(client, new_id, 2)] == ["preparer", "checker"]
+    # The record of the imported revision has the same fingerprint as the original.
+    fingerprint = lambda s: client.get(f"/api/sheets/{s}/revisions/2/record").json()["fingerprint"]  # noqa: E731
+    assert fingerprint(new_id) == fingerprint(worked)
+    # Importing again makes yet another sheet; nothing existing is touched.
+    third = transfer.import_sheet(app.state.store, raw.content)
+    assert third not in (worked, new_id) and _history(client, worked) == _history(client, third)
+
+
+@pytest.mark.parametrize("tamper, says", [
+    (lambda d: d["revisions"][1]["document"]["header"].update(project="edited by hand"), "checksum"),
+    (lambda d: d.pop("revisions"), "checksum"),
+    (lambda d: d.update(version=2), "newer Headsheet"),
+    (lambda d: d.update(format="something-else"), "not a Headsheet sheet export"),
+])
+def test_an_altered_file_is_refused_and_says_why(app, client, worked, tamper, says):
+    data = client.get(f"/sheets/{worked}/export.json").json()
+    tamper(data)
+    before = len(app.state.store.list_sheets())
+    with pytest.raises(transfer.ImportRefused, match=says):
+        transfer.import_sheet(app.state.store, json.dumps(data))
+    assert len(app.state.store.list_sheets()) == before
+
+
+@pytest.mark.parametrize("tamper, says", [
+    (lambda d: d["revisions"][1]["document"]["header"].update(project="x"), "does not match its digest"),
+    (lambda d: d["revisions"][1].update(number=5), "numbered 1, 2, 3"),
+    (lambda d: d["revisions"][1].update(frozen=False), "signed but not frozen"),
+    (lambda d: d["signatures"].append(dict(d["signatures"][0])), "once per revision"),
+    (lambda d: d["revisions"][0].update(document=[]), "must be a sheet document"),
+    (lambda d: d["revisions"][0].update(author=5), "'author' must be text"),
+    (lambda d: d["signatures"][0].update(number=99), "names no revision"),
+    (lambda d: d.update(revisions=[]), "no revisions"),
+])
+def test_a_file_consistent_in_its_checksum_but_wrong_inside_is_refused(app, client, worked, tamper, says):
+    data = client.get(f"/sheets/{worked}/export.json").json()
+    tamper(data)
+    data["checksum"] = transfer.checksum(data)  # as if written by a faulty program, checksum and all
+    with pytest.raises(transfer.ImportRefused, match=says):
+        transfer.import_sheet(app.state.store, json.dumps(data))
+
+
+@pytest.mark.parametrize("raw", [b"", b"{", b"[1]", b"\xff\xfe", b'{"format": NaN}', b"[" * 100_000, b"null"])
+def test_garbage_is_refused(app, raw):
+    with pytest.raises(transfer.ImportRefused):
+        transfer.import_sheet(app.state.store, raw)
+
+
+def test_import_from_the_home_page(client, worked):
+    body = client.get(f"/sheets/{worked}/export.json").content
+    home = client.get("/").text
+    assert 'enctype="multipart/form-data"' in home and 'name="file"' in home
+    token = form_fields(home)["csrf_token"]
+    response = client.post("/sheets/import", files={"file": ("sheet.json", body, "application/json")},
+                           data={"csrf_token": token}, follow_redirects=False)
+    assert response.status_code == 303
+    new_id = int(response.headers["location"].rsplit("/", 1)[1])
+    assert _history(client, new_id) == _history(client, worked)
+    refused = client.post("/sheets/import", files={"file": ("x.json", b'{"format": "other"}', "application/json")},
+                          data={"csrf_token": token})
+    assert refused.status_code == 422 and "not a Headsheet sheet export" in refused.text
+    assert "Nothing was imported" in refused.text
+    nothing = client.post("/sheets/import", data={"csrf_token": token})
+    assert nothing.status_code == 422 and "Choose" in nothing.text
+    # The sheet's page links to its export.
+    assert f'href="/sheets/{worked}/export.json"' in client.get(f"/sheets/{worked}").text
+    assert f'href="/sheets/{worked}/export.json"' in client.get(f"/sheets/{worked}/history").text
+
+
+def test_an_export_larger_than_a_form_may_be_but_within_the_import_limit_is_taken(client, app):
+    doc = calc_sheet.blank_sheet()
+    doc["elements"] = [dict(doc["elements"][0], label=f"run {i} " + "x" * 90) for i in range(calc_sheet.MAX_ELEMENTS)]
+    store = app.state.store
+    sheet_id = store.create_sheet(doc).sheet_id
+    for n in range(1, 25):  # a long history: every revision carries its whole document
+        doc["header"]["title"] = f"step {n}"
+        store.add_revision(sheet_id, doc, n)
+    body = client.get(f"/sheets/{sheet_id}/export.json").content
+    assert len(body) > 1_000_000
+    response = client.post("/sheets/import", files={"file": ("big.json", body, "application/json")},
+                           follow_redirects=False)
+    assert response.status_code == 303
+    new_id = int(response.headers["location"].rsplit("/", 1)[1])
+    assert store.latest(new_id).digest == store.latest(sheet_id).digest
+    # A form post of that size is still refused: only the import takes large bodies.
+    assert client.post("/sheets/1", data={"doc": body.decode()}).status_code == 413
+
+
+def test_cli_export_import_and_backup(app, client, worked, data_dir, tmp_path, capsys):
+    out = tmp_path / "sheet.json"
+    assert headsheet(["export", "--data", str(data_dir), str(worked), str(out)]) == 0
+    assert json.loads(out.read_text())["revisions"][0]["author"] == "Ann"
+    with pytest.raises(SystemExit, match="exists"):
+        headsheet(["export", "--data", str(data_dir), str(worked), str(out)])
+    with pytest.raises(SystemExit, match="no sheet 999"):
+        headsheet(["export", "--data", str(data_dir), "999", str(tmp_path / "none.json")])
+    # Import into another store (a new one is made), twice: two new sheets, never an overwrite.
+    other = tmp_path / "other"
+    assert headsheet(["import", "--data", str(other), str(out)]) == 0
+    assert headsheet(["import", "--data", str(other), str(out)]) == 0
+    assert "as sheet 2" in capsys.readouterr().out
+    store = Store(other)
+    assert [s.id for s in store.list_sheets()] == [2, 1]
+    assert [r.digest for r in store.revisions(1)] == [r.digest for r in app.state.store.revisions(worked)]
+    broken = tmp_path / "broken.json"
+    broken.write_text(out.read_text().replace('"Ann"', '"Anne"', 1))
+    with pytest.raises(SystemExit, match="checksum"):
+        headsheet(["import", "--data", str(other), str(broken)])
+    backup = tmp_path / "copy.sqlite"
+    assert headsheet(["backup", "--data", str(data_dir), str(backup)]) == 0
+    with pytest.raises(SystemExit, match="exists"):
+        headsheet(["backup", "--data", str(data_dir), str(backup)])
+    copy = Store(tmp_path / "restored")
+    copy.close()
+    (tmp_path / "restored" / DB_NAME).write_bytes(backup.read_bytes())
+    assert [r.digest for r in Store(tmp_path / "restored").revisions(worked)] == \
+           [r.digest for r in app.state.store.revisions(worked)]
+
+
+def test_backup_while_the_store_is_being_written_is_consistent(app, data_dir, tmp_path):
+    store = app.state.store
+    doc = calc_sheet.blank_sheet()
+    sheet_id = store.create_sheet(doc).sheet_id
+    stop = threading.Event()
+    written = [1]
+
+    def writer():
+        n = 1
+        while not stop.is_set():
+            doc["header"]["purpose"] = f"edit {n}"
+            store.add_revision(sheet_id, doc, n)
+            n += 1
+            written.append(n)
+
+    thread = threading.Thread(target=writer)
+    thread.start()
+    try:
+        copies = []
+        for k in range(5):
+            out = tmp_path / f"copy-{k}.sqlite"
+            store.backup(out)
+            copies.append(out)
+    finally:
+        stop.set()
+        thread.join()
+    assert len(written) > 5
+    previous = 0
+    for out in copies:
+        assert not (tmp_path / f"{out.name}-wal").exists()  # one self-contained file
+        con = sqlite3.connect(out)
+        try:
+            assert con.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+            assert con.execute("PRAGMA journal_mode").fetchone()[0] == "delete"
+            numbers = [n for (n,) in con.execute("SELECT number FROM revisions WHERE sheet_id = ? ORDER BY number",
+                                                 (sheet_id,))]
+        finally:
+            con.close()
+        # A snapshot: revisions 1..n with no gap, and each copy at least as new as the one before.
+        assert numbers == list(range(1, len(numbers) + 1)) and len(numbers) >= previous
+        previous = len(numbers)
