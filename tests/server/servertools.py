@@ -111,3 +111,40 @@ def fill(path: str, sheet_id: int = 1, number: int = 1, static: str = "css/heads
     values = {"sheet_id": str(sheet_id), "number": str(number), "token": "not-a-link", "fingerprint": "0" * 64,
               "path": static}
     return re.sub(r"\{(\w+)(?::\w+)?\}", lambda m: values[m.group(1)], path)
+
+
+def free_port() -> int:
+    import socket
+
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+class LiveServer:
+    """The app served by uvicorn on a free loopback port in a thread, for tests with real concurrent clients."""
+
+    def __init__(self, app):
+        import threading
+
+        import uvicorn
+
+        self.port = free_port()
+        self.url = f"http://127.0.0.1:{self.port}"
+        self.server = uvicorn.Server(uvicorn.Config(app, host="127.0.0.1", port=self.port, log_level="warning"))
+        self.thread = threading.Thread(target=self.server.run, daemon=True)
+
+    def __enter__(self):
+        import time
+
+        self.thread.start()
+        deadline = time.monotonic() + 20
+        while not self.server.started:
+            if time.monotonic() > deadline or not self.thread.is_alive():
+                raise RuntimeError("the test server did not start")
+            time.sleep(0.02)
+        return self
+
+    def __exit__(self, *exc):
+        self.server.should_exit = True
+        self.thread.join(timeout=10)
