@@ -146,6 +146,7 @@ class Step:
     unit: str
     value: float | None = None
     ref: str = ""
+    also: str = ""  # a second line of working, e.g. both sides of an implicit equation at the result
 
 
 @dataclass
@@ -535,7 +536,7 @@ class _Builder:
         for which in ("start", "end"):
             node_doc = doc.get(which) or {}
             node = getattr(self.line, which)
-            rows = [["Kind", _text(node_doc.get("kind")) or "reservoir", "", "typed"]]
+            rows = []
             for key, kind, label in (("elevation", LENGTH, "Elevation" + (" of the water surface" if node.kind == "reservoir" else "")),
                                      ("pressure", PRESSURE, "Pressure (gauge)"),
                                      ("outlet_elevation", LENGTH, "Elevation of the pipe connection"),
@@ -543,7 +544,8 @@ class _Builder:
                 r = self._typed(node_doc, key, kind, label)
                 if r:
                     rows.append(r)
-            tables_out.append(Table(head, rows, f"{which.capitalize()} of the line", align, css="inputs"))
+            kind = {"reservoir": "a reservoir", "pressure": "a point of known pressure", "jet": "a free jet"}[node.kind]
+            tables_out.append(Table(head, rows, f"{which.capitalize()} of the line: {kind}", align, css="inputs"))
 
         for i, (e, el) in enumerate(zip(doc.get("elements") or [], self.line.elements)):
             tables_out += self._element_inputs(i, e, el, head, align)
@@ -582,10 +584,7 @@ class _Builder:
                              f"{si(el.eps_aged)} m",
                              "material table" + (f" ({detail})" if detail else "") + f" {refs}"])
             rows.append(self._typed(e, "end_elevation", LENGTH, "Elevation at the end of the run"))
-            r = self._typed(e, "wall_thickness", LENGTH, "Wall thickness")
-            if r is None and el.size is not None:
-                r = ["Wall thickness", "", f"{si(el.size.wall)} m", "size table"]
-            rows.append(r)
+            rows.append(self._typed(e, "wall_thickness", LENGTH, "Wall thickness"))  # else in the size row
             rows.append(self._typed(e, "rating", PRESSURE, "Pressure rating (gauge)"))
             if e.get("restraint"):
                 rows.append(["Restraint", _text(e.get("restraint")), "", "typed"])
@@ -606,14 +605,14 @@ class _Builder:
                              where + (f" ({detail})" if detail else "") + (f" {refs}" if refs else "")])
             out.append(Table(head, [r for r in rows if r], title, align, css="inputs"))
             return out
+        if isinstance(el, (Turbine, Pump)):
+            title += f", {el.mode} mode"
         if isinstance(el, Turbine):
-            rows.append(["Mode", _text(e.get("mode")) or "power", "", "typed"])
             rows.append(self._typed(e, "power", POWER, "Shaft power P"))
             rows.append(self._typed(e, "head", LENGTH, "Head H"))
             rows.append(self._typed(e, "efficiency", RATIO, "Efficiency η")
                         or ["Efficiency η", "", "1", "default (hydraulic power only)"])
         elif isinstance(el, Pump):
-            rows.append(["Mode", _text(e.get("mode")) or "curve", "", "typed"])
             rows.append(self._typed(e, "head", LENGTH, "Head H"))
             rows.append(self._typed(e, "speed_ratio", RATIO, "Speed ratio n"))
             rows.append(self._typed(e, "efficiency", RATIO, "Efficiency η"))
@@ -780,9 +779,8 @@ class _Builder:
             rhs = -2.0 * math.log10(eD / 3.7 + 2.51 / (Re * math.sqrt(f)))
             return [
                 Step("f", "friction factor (Colebrook, solved)", "1/√f = -2 log₁₀( (ε/D)/3.7 + 2.51/(Re √f) )",
-                     f"1/√f = -2 log₁₀( {sub(eD)}/3.7 + 2.51/({sub(Re)} √f) )", num(f), "–", f, ref),
-                Step("check", "both sides at this f", "1/√f  and  -2 log₁₀(…)",
-                     f"1/√{sub(f)} = {si(lhs)};  right side = {si(rhs)}", "equal", "", lhs - rhs),
+                     f"1/√f = -2 log₁₀( {sub(eD)}/3.7 + 2.51/({sub(Re)} √f) )", num(f), "–", f, ref,
+                     also=f"check at this f: 1/√{sub(f)} = {si(lhs)}; right side = {si(rhs)}"),
             ]
         if method == "swamee_jain_1976":
             s = f"= 0.25 / [log₁₀({sub(eD)}/3.7 + 5.74/{sub(Re)}^0.9)]²"
@@ -963,11 +961,14 @@ class _Builder:
             if design:  # the other points are summed up in the table of points
                 elements = Table(["Element", "V", "Re", "f", "Friction loss", "Fitting loss", "Head taken",
                                   "Shaft power"], rows, "", ["l"] + ["r"] * 7, css="elements")
-                stations = [[shown(st["chainage"], "length", s), shown(st["elevation"], "length", s),
-                             shown(st["hgl"], "head", s), shown(st["egl"], "head", s),
-                             shown(st["pressure_head"], "head", s),
-                             shown(st["pressure_head"] * self.liquid.rho * G, "pressure", s)]
-                            for st in p["profile"]]
+                stations = []
+                for st in p["profile"]:
+                    row = [shown(st["chainage"], "length", s), shown(st["elevation"], "length", s),
+                           shown(st["hgl"], "head", s), shown(st["egl"], "head", s),
+                           shown(st["pressure_head"], "head", s),
+                           shown(st["pressure_head"] * self.liquid.rho * G, "pressure", s)]
+                    if not stations or row != stations[-1]:  # a station repeated at the printed precision says nothing new
+                        stations.append(row)
                 grade = Table(["Chainage", "Elevation", "HGL", "EGL", "Pressure head", "Pressure (gauge)"], stations,
                               "", ["r"] * 6, css="compact grade")
             low = min(p["profile"], key=lambda st: st["pressure_head"]) if p["profile"] else None
@@ -978,7 +979,7 @@ class _Builder:
             summary.append(["Line losses (pipe runs and valves)", shown(losses, "head", s)])
             for el, d in zip(self.line.elements, p["elements"]):
                 name = f"{d['index'] + 1}. {el.label or el.kind}"
-                if d["kind"] == "pipe":
+                if d["kind"] == "pipe" and len(self.sol.points) > 1:  # else in the table of elements
                     summary.append([f"{name}: velocity", shown(d["V"], "velocity", s)])
                 elif d["kind"] == "turbine":
                     summary.append([f"{name}: head taken", shown(d["head"], "head", s)])

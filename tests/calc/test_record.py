@@ -254,8 +254,7 @@ def test_pipe_steps_agree_with_an_independent_calculation(hydro):
     assert steps["h_f"].value == pytest.approx(f * run.L / run.D * V ** 2 / (2 * 9.80665), rel=1e-9)
     assert steps["h"].value == pytest.approx(d["head_change"], rel=1e-12)
     # The check line shows both sides of Colebrook's equation equal at the printed f.
-    check = steps["check"]
-    lhs, rhs = re.findall(r"= ([0-9.]+);.*= ([0-9.]+)", check.substituted)[0]
+    lhs, rhs = re.findall(r"= ([0-9.]+); right side = ([0-9.]+)", steps["f"].also)[0]
     assert lhs == rhs
 
 
