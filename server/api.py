@@ -206,7 +206,9 @@ async def solve(request: Request, body: SolveIn) -> Response:
         return _error(422, "Invalid sheet", f"The document {problem}.", [{"path": "", "message": problem}])
     parsed = await run_in_threadpool(calc_sheet.parse, body.document)
     if not parsed.ok:
-        return JSONResponse({"ok": False, "errors": field_errors(parsed.errors), "solution": None}, status_code=422)
+        # The API's one error shape, plus the solve answer's own keys, so either reading works.
+        return _error(422, "Invalid sheet", f"The sheet has {len(parsed.errors)} error(s); it was not solved.",
+                      field_errors(parsed.errors), solution=None)
     outcome = await run_in_threadpool(solve_parsed, parsed)
     if outcome.failure:
         return _error(422, "Not solved", outcome.failure)
