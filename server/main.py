@@ -65,22 +65,23 @@ def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool
     keys = KeyFile(data_dir)
     if key is not None:
         keys.write(key)
-    addresses = local_addresses() if guarded else []
+    addresses = local_addresses() if host in ("0.0.0.0", "::") else []
     app = create_app(data_dir, share=guarded, addresses=addresses)
     print(f"Headsheet: sheets stored in {data_dir / 'headsheet.sqlite'}", flush=True)
     if not guarded:
         shown_host = f"[{host}]" if ":" in host else host
         print(f"Headsheet: open http://{shown_host}:{port}/ in a browser (Ctrl+C stops the server)", flush=True)
-    else:
+    elif host in ("0.0.0.0", "::"):
         print(f"Headsheet: shared on the network; open http://127.0.0.1:{port}/ on this computer, or on another:",
               flush=True)
-        if host in ("0.0.0.0", "::"):
-            for a in addresses:
-                print(f"Headsheet:   http://{a}:{port}/", flush=True)
-            if not addresses:
-                print("Headsheet:   (no network address found: other computers cannot reach this one yet)", flush=True)
-        else:
-            print(f"Headsheet:   http://{host}:{port}/", flush=True)
+        for a in addresses:
+            print(f"Headsheet:   http://{a}:{port}/", flush=True)
+        if not addresses:
+            print("Headsheet:   (no network address found: other computers cannot reach this one yet)", flush=True)
+    else:
+        shown_host = f"[{host}]" if ":" in host else host
+        print(f"Headsheet: shared at http://{shown_host}:{port}/ (Ctrl+C stops the server)", flush=True)
+    if guarded:
         print(f"Headsheet: access key: {keys.read()}", flush=True)
         print(f"Headsheet: (kept in {keys.path}; `headsheet key --new` makes a new one, which takes effect "
               "at once and signs everyone out)", flush=True)
