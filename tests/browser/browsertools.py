@@ -32,10 +32,11 @@ def _free_port() -> int:
 
 
 class LiveServer:
-    def __init__(self, data_dir: Path):
+    def __init__(self, data_dir: Path, share: bool = False):
         self.port = _free_port()
         self.url = f"http://127.0.0.1:{self.port}"
-        config = uvicorn.Config(create_app(data_dir), host="127.0.0.1", port=self.port, log_level="warning")
+        self.app = create_app(data_dir, share=share)
+        config = uvicorn.Config(self.app, host="127.0.0.1", port=self.port, log_level="warning")
         self.server = uvicorn.Server(config)
         self.thread = threading.Thread(target=self.server.run, daemon=True)
 
