@@ -1,0 +1,213 @@
+"""Load: N simulated editors typing into their sheets at once, against `headsheet serve` on loopback, for a bounded time.
+
+Starts the server in a subprocess on a free loopback port with a fresh data folder. Each editor
+is a thread with its own browser-like client (cookies, the form token from the page): it gets
+its own copy of the largest demo sheet, opens it at a random moment in the first 3 s, then,
+with a pause of 0.25-0.75 s between changes (a person typing, with the page's 400 ms
+debounce), posts one changed field at a time as htmx does (each saves a revision and
+re-solves), reloads the page every 15 changes and opens the record every 20. With --pairs,
+two editors share each sheet, so conflicts (409) happen and are answered by reloading, as the
+page offers. Prints requests served, errors (anything but 200/303/409, or no answer), and the
+median and 95th percentile latency overall and per kind. Target: 20 editors, no errors, p95
+under 100 ms.
+
+    python benchmarks/load.py [--editors 20] [--seconds 20] [--pairs] [--think 0.25 0.75]
+"""
+
+from __future__ import annotations
+
+import argparse
+import random
+import re
+import socket
+import statistics
+import subprocess
+import sys
+import tempfile
+import threading
+import time
+from collections import defaultdict
+from html.parser import HTMLParser
+from pathlib import Path
+
+import httpx
+
+ROOT = Path(__file__).resolve().parents[1]
+HOST = "127.0.0.1"  # loopback only: the benchmark never listens on or sends to a network
+ARRIVALS = 3.0  # editors open their sheets at random over the first seconds [s]
+
+
+class _Form(HTMLParser):
+    """The fields a browser would post from the sheet form (and the form token)."""
+
+    def __init__(self):
+        super().__init__()
+        self.fields: dict[str, str] = {}
+        self._select = self._textarea = None
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        name = a.get("name")
+        if tag == "input" and name and a.get("type") in ("text", "hidden"):
+            self.fields[name] = a.get("value") or ""
+        elif tag == "select" and name:
+            self._select = name
+        elif tag == "option" and self._select and ("selected" in a or self._select not in self.fields):
+            self.fields[self._select] = a.get("value") or ""
+        elif tag == "textarea" and name:
+            self._textarea = name
+            self.fields[name] = ""
+
+    def handle_endtag(self, tag):
+        if tag == "select":
+            self._select = None
+        elif tag == "textarea":
+            self._textarea = None
+
+    def handle_data(self, data):
+        if self._textarea:
+            self.fields[self._textarea] += data
+
+
+def form_fields(html: str) -> dict[str, str]:
+    reader = _Form()
+    reader.feed(html)
+    return reader.fields
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind((HOST, 0))
+        return s.getsockname()[1]
+
+
+class Tally:
+    """Latencies by kind of request, and what went wrong, shared by every editor."""
+
+    def __init__(self):
+        self.times: dict[str, list[float]] = defaultdict(list)
+        self.errors: list[str] = []
+        self.conflicts = 0
+        self.lock = threading.Lock()
+
+    def timed(self, kind: str, call):
+        start = time.perf_counter()
+        try:
+            response = call()
+        except httpx.HTTPError as e:
+            with self.lock:
+                self.errors.append(f"{kind}: {type(e).__name__}")
+            return None
+        elapsed = (time.perf_counter() - start) * 1000
+        with self.lock:
+            self.times[kind].append(elapsed)
+            if response.status_code == 409:
+                self.conflicts += 1
+            elif response.status_code not in (200, 303):
+                self.errors.append(f"{kind}: {response.status_code}")
+        return response
+
+
+def editor(base: str, sheet_id: int, pipe: int, seed: int, stop_at: float, think: tuple[float, float],
+           tally: Tally) -> None:
+    rng = random.Random(seed)
+    htmx = {"HX-Request": "true", "HX-Target": "results", "HX-Trigger": "sheet-form"}
+    with httpx.Client(base_url=base, timeout=30) as client:
+        time.sleep(rng.uniform(0, ARRIVALS))  # people open their sheets over a few seconds, not all at once
+        page = tally.timed("page", lambda: client.get(f"/sheets/{sheet_id}"))
+        fields = form_fields(page.text)
+        n = 0
+        while time.monotonic() < stop_at:
+            time.sleep(rng.uniform(*think))
+            n += 1
+            fields[f"elements.{pipe}.length"] = f"{100 + rng.randrange(100_000) / 100:.2f} m"
+            headers = {**htmx, "X-CSRF-Token": fields["csrf_token"]}
+            response = tally.timed("edit", lambda: client.post(f"/sheets/{sheet_id}", data=fields, headers=headers))
+            if response is not None and response.status_code == 200:
+                found = re.search(r'id="base" value="(\d+)"', response.text)
+                if found:
+                    fields["base"] = found.group(1)
+            if response is None or response.status_code != 200 or n % 15 == 0:
+                page = tally.timed("page", lambda: client.get(f"/sheets/{sheet_id}"))
+                if page is not None and page.status_code == 200:
+                    fields = form_fields(page.text)
+            if n % 20 == 0:
+                tally.timed("record", lambda: client.get(f"/sheets/{sheet_id}/record", follow_redirects=True))
+
+
+def _p95(values: list[float]) -> float:
+    values = sorted(values)
+    return values[min(len(values) - 1, int(round(0.95 * len(values))) - 1)]
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--editors", type=int, default=20, help="simulated editors (default 20)")
+    parser.add_argument("--seconds", type=float, default=20.0, help="how long they type (default 20 s)")
+    parser.add_argument("--pairs", action="store_true", help="two editors per sheet, so conflicts happen")
+    parser.add_argument("--think", type=float, nargs=2, default=(0.25, 0.75), metavar=("MIN", "MAX"),
+                        help="pause between one editor's changes [s] (default 0.25 0.75; 0 0 for a tight loop)")
+    args = parser.parse_args()
+    if not 1 <= args.editors <= 200 or not 0 < args.seconds <= 600:
+        parser.error("editors must be 1-200 and seconds at most 600")
+
+    port = _free_port()
+    base = f"http://{HOST}:{port}"
+    tally = Tally()
+    with tempfile.TemporaryDirectory() as data:
+        code = f"from server.main import serve; serve({data!r}, host={HOST!r}, port={port})"
+        server = subprocess.Popen([sys.executable, "-c", code], cwd=ROOT, stdout=subprocess.DEVNULL)
+        try:
+            with httpx.Client(base_url=base, timeout=30) as setup:
+                deadline = time.monotonic() + 60
+                while True:
+                    try:
+                        sheets = setup.get("/api/sheets").json()["sheets"]
+                        break
+                    except httpx.TransportError:
+                        if time.monotonic() > deadline or server.poll() is not None:
+                            print("the server did not start", file=sys.stderr)
+                            return 1
+                        time.sleep(0.1)
+                docs = {s["id"]: setup.get(f"/api/sheets/{s['id']}").json()["document"] for s in sheets}
+                demo_id = max(docs, key=lambda i: (len(docs[i]["elements"]), i))
+                doc = docs[demo_id]
+                pipe = next(i for i, e in enumerate(doc["elements"]) if e["kind"] == "pipe")
+                count = (args.editors + 1) // 2 if args.pairs else args.editors
+                own = [setup.post("/api/sheets", json={"document": doc, "note": "load benchmark"}).json()["id"]
+                       for _ in range(count)]
+            stop_at = time.monotonic() + args.seconds
+            threads = [threading.Thread(target=editor, args=(base, own[k // 2 if args.pairs else k], pipe, k, stop_at,
+                                                             tuple(args.think), tally))
+                       for k in range(args.editors)]
+            started = time.monotonic()
+            for t in threads:
+                t.start()
+            for t in threads:
+                t.join()
+            wall = time.monotonic() - started
+        finally:
+            server.terminate()
+            server.wait(timeout=10)
+
+    every = [t for times in tally.times.values() for t in times]
+    print(f"{args.editors} editors for {args.seconds:g} s on {HOST} ({'two per sheet' if args.pairs else 'one per sheet'}, "
+          f"pause {args.think[0]:g}-{args.think[1]:g} s), sheet {doc['header'].get('title', '')!r} "
+          f"({len(doc['elements'])} elements)")
+    print(f"requests served: {len(every)} ({len(every) / wall:.0f}/s); errors: {len(tally.errors)}; "
+          f"conflicts answered 409: {tally.conflicts}")
+    if every:
+        print(f"latency, all requests: median {statistics.median(every):.1f} ms, p95 {_p95(every):.1f} ms, "
+              f"max {max(every):.1f} ms (target p95 < 100 ms)")
+    for kind in ("edit", "page", "record"):
+        times = tally.times.get(kind)
+        if times:
+            print(f"  {kind:<6} {len(times):>6} requests: median {statistics.median(times):.1f} ms, "
+                  f"p95 {_p95(times):.1f} ms")
+    if tally.errors:
+        print("errors (first 10): " + "; ".join(tally.errors[:10]))
+    return 1 if tally.errors else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
