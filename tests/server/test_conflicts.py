@@ -138,7 +138,7 @@ def test_two_api_clients_in_a_tight_loop_lose_no_update(app):
         threads = [threading.Thread(target=_api_editor, args=(live.url, n, f, acked, refusals, stop))
                    for n, f in (("ann", ann), ("bob", bob))]
         try:
-            _run(threads, 4.0)
+            _run(threads, 2.5)
         finally:
             stop.set()
             for t in threads:
@@ -178,7 +178,7 @@ def test_two_browsers_posting_the_form_in_a_tight_loop_lose_no_update(app):
                                                         acked, refusals, stop)),
         ]
         try:
-            _run(threads, 4.0)
+            _run(threads, 2.5)
         finally:
             stop.set()
             for t in threads:
