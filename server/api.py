@@ -230,6 +230,9 @@ ROUTE_DOCS: dict[str, dict] = {
     "api_read": {"summary": "Read a sheet's latest revision", "response_model": SheetOut, "tags": ["sheets"],
                  "responses": {404: _ERRORS[404]}},
     "api_replace": {"summary": "Replace a sheet (adds a revision)", "response_model": SavedOut, "tags": ["sheets"],
+                    "description": ("Stores the document as a new revision. Revisions are never changed: a replace "
+                                    "based on a signed (frozen) revision adds the next revision, and the record's "
+                                    "revision label moves on (A to B)."),
                     "responses": {404: _ERRORS[404], 422: _ERRORS[422],
                                   409: {"model": ConflictOut, "description": "the sheet has moved on since base_revision"}}},
     "api_revisions": {"summary": "List a sheet's revisions", "response_model": RevisionListOut,

@@ -13,6 +13,7 @@ from fastapi import Request
 from fastapi.responses import RedirectResponse, Response
 from starlette.concurrency import run_in_threadpool
 
+from calc import record as calc_record
 from calc import sheet as calc_sheet
 
 from server import editing
@@ -226,7 +227,17 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
         "units": units,
         "error_list": error_list,
         "findings": outcome.findings,
+        "issue": issue_labels(store, state.latest, header),
     }
+
+
+def issue_labels(store: Store, rev: Revision, header: dict) -> dict:
+    """The record's revision label of ``rev`` (A, B… or 0, 1…), and the label the next edit starts
+    when ``rev`` is signed: signing freezes a revision, and later edits begin the next one."""
+    scheme = header.get("revision_scheme") if header.get("revision_scheme") in ("letters", "numbers") else "letters"
+    index = store.frozen_before(rev.sheet_id, rev.number)
+    return {"label": calc_record.revision_label(index, scheme), "frozen": rev.frozen,
+            "next": calc_record.revision_label(index + 1, scheme)}
 
 
 def page_extras(request: Request, sheet_id: int) -> dict:
@@ -361,8 +372,12 @@ async def sheet_edit(request: Request, sheet_id: int) -> Response:
 
 def history(request: Request, sheet_id: int) -> Response:
     store = _store(request)
-    return _render(request, "history.html", {"sheet": store.sheet(sheet_id), "revisions": store.revisions(sheet_id),
-                                             "readonly": viewer(request) is not None})
+    revisions = store.revisions(sheet_id)
+    header = revisions[0].document.get("header") if revisions and isinstance(revisions[0].document, dict) else {}
+    header = header if isinstance(header, dict) else {}
+    labels = {r.number: issue_labels(store, r, header)["label"] for r in revisions}
+    return _render(request, "history.html", {"sheet": store.sheet(sheet_id), "revisions": revisions,
+                                             "labels": labels, "readonly": viewer(request) is not None})
 
 
 def revision_page(request: Request, sheet_id: int, number: int) -> Response:

@@ -422,3 +422,14 @@ def test_outside_addresses_and_file_paths_in_a_sheet_cause_no_fetch(client, monk
 def test_safe_filename():
     assert server_record.safe_filename('../../etc/passwd"\r\nX: y', "f") == "etc-passwd-X-y"
     assert server_record.safe_filename("\u0394\u0394", "fallback") == "fallback"
+
+
+def test_sheet_page_says_a_signed_revision_is_frozen_and_history_marks_it(client, sheet_id):
+    page = client.get(f"/sheets/{sheet_id}").text
+    assert "signed and frozen" not in page
+    assert sign(client, sheet_id, 1, "preparer", "Ada Preparer").status_code == 201
+    page = client.get(f"/sheets/{sheet_id}").text
+    assert "Revision A is signed and frozen" in page and "next change starts revision B" in page
+    history = client.get(f"/sheets/{sheet_id}/history").text
+    assert "rev. A" in history and "tag-signed" in history
+    assert f"/sheets/{sheet_id}/revisions/1/record" in history
