@@ -219,6 +219,22 @@ def schema() -> dict:
     return calc_sheet.SCHEMA
 
 
+#: The OpenAPI page's script and styles, served from static/ so the page works with no network.
+SWAGGER = "vendor/swagger-ui-5.35.0"
+
+
+def docs_page(request: Request) -> Response:
+    """The API's OpenAPI page, drawn by the vendored Swagger UI."""
+    from fastapi.openapi.docs import get_swagger_ui_html
+
+    static = request.app.url_path_for("static", path="")
+    return get_swagger_ui_html(openapi_url=str(request.app.url_path_for("openapi")),
+                               title="Headsheet API",
+                               swagger_js_url=f"{static}{SWAGGER}/swagger-ui-bundle.js",
+                               swagger_css_url=f"{static}{SWAGGER}/swagger-ui.css",
+                               swagger_favicon_url=f"{static}favicon.svg")
+
+
 _ERRORS = {404: {"model": ErrorOut, "description": "no such sheet or revision"},
            422: {"model": ErrorOut, "description": "the input is not valid; `errors` names each field by path"}}
 

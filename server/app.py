@@ -57,6 +57,7 @@ ROUTES: list[tuple[str, str, list[str], Any, bool]] = [
     ("/api/sheets/{sheet_id}/revisions/{number}", "api_revision", ["GET"], api.read_revision, True),
     ("/api/solve", "api_solve", ["POST"], api.solve, True),
     ("/api/schema", "api_schema", ["GET"], api.schema, True),
+    ("/api/docs", "api_docs", ["GET"], api.docs_page, False),
 ] + [(path, name, methods, endpoint, False) for path, name, methods, endpoint in sharing.ROUTES]
 
 
@@ -257,7 +258,7 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = Fa
                      "if the sheet has moved on."),
         version="1",
         openapi_url="/api/openapi.json",
-        docs_url="/api/docs",
+        docs_url=None,  # served by api.docs_page from the vendored Swagger UI, not a CDN
         redoc_url=None,
     )
     app.state.store = Store(data_dir)

@@ -197,3 +197,16 @@ def test_body_over_the_limit_is_refused(client):
     _error_shape(response.json(), 413)
     response = client.post("/sheets/1", data={"doc": "x" * 1_100_000})
     assert response.status_code == 413
+
+
+def test_openapi_page_needs_no_network(client):
+    # The page must work on a site network with no internet: every script and style is ours.
+    import re
+
+    page = client.get("/api/docs")
+    assert page.status_code == 200
+    refs = re.findall(r'(?:src|href)="([^"]+)"', page.text)
+    assert refs and all(r.startswith("/static/") for r in refs)
+    for r in refs:
+        assert client.get(r).status_code == 200
+    assert client.get("/api/openapi.json").json()["info"]["title"] == "Headsheet"
