@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import logging
 import mimetypes
+from functools import lru_cache
 from pathlib import Path
 from urllib.parse import unquote, urlsplit
 
@@ -56,6 +57,17 @@ class StaticFetcher(URLFetcher):
 
 
 def render_pdf(html: str, static_dir: Path, fetcher: StaticFetcher | None = None) -> bytes:
-    """The PDF of a record page written with asset links under ASSET_ORIGIN."""
-    fetcher = fetcher or StaticFetcher(static_dir)
-    return HTML(string=html, base_url=ASSET_ORIGIN + "/", url_fetcher=fetcher).write_pdf()
+    """The PDF of a record page written with asset links under ASSET_ORIGIN.
+
+    The same page always gives the same PDF, and a reviewer tends to download a record more than
+    once (A4, then Letter, then again to print), so recent PDFs are kept by their page text: a
+    repeat costs nothing instead of a second or more of layout.
+    """
+    if fetcher is not None:
+        return HTML(string=html, base_url=ASSET_ORIGIN + "/", url_fetcher=fetcher).write_pdf()
+    return _render_cached(html, str(static_dir))
+
+
+@lru_cache(maxsize=16)
+def _render_cached(html: str, static_dir: str) -> bytes:
+    return HTML(string=html, base_url=ASSET_ORIGIN + "/", url_fetcher=StaticFetcher(Path(static_dir))).write_pdf()

@@ -49,7 +49,7 @@ def _url(request: Request, name: str, **params) -> str:
 
 
 def _now() -> str:
-    return datetime.now(timezone.utc).isoformat(timespec="seconds")
+    return datetime.now(timezone.utc).isoformat(timespec="minutes")
 
 
 def _label(store: Store, rev: Revision) -> tuple[int, str]:

@@ -433,3 +433,10 @@ def test_sheet_page_says_a_signed_revision_is_frozen_and_history_marks_it(client
     history = client.get(f"/sheets/{sheet_id}/history").text
     assert "rev. A" in history and "tag-signed" in history
     assert f"/sheets/{sheet_id}/revisions/1/record" in history
+
+
+def test_a_repeated_pdf_download_is_the_same_document(client, sheet_id):
+    first = client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf")
+    second = client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf")
+    assert first.status_code == second.status_code == 200
+    assert pdf_pages(first.content) == pdf_pages(second.content)
