@@ -435,8 +435,17 @@ def test_sheet_page_says_a_signed_revision_is_frozen_and_history_marks_it(client
     assert f"/sheets/{sheet_id}/revisions/1/record" in history
 
 
-def test_a_repeated_pdf_download_is_the_same_document(client, sheet_id):
+def test_a_repeated_pdf_download_is_served_from_the_cache(client, sheet_id, monkeypatch):
+    from server import pdf
+
+    pdf._render_cached.cache_clear()
+    calls = []
+    real = pdf.HTML
+    monkeypatch.setattr(pdf, "HTML", lambda *a, **k: calls.append(1) or real(*a, **k))
     first = client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf")
     second = client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf")
     assert first.status_code == second.status_code == 200
-    assert pdf_pages(first.content) == pdf_pages(second.content)
+    assert first.content == second.content
+    assert len(calls) == 1  # laid out once
+    client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf?paper=letter")
+    assert len(calls) == 2  # another paper is another layout
