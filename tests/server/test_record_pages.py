@@ -438,7 +438,11 @@ def test_sheet_page_says_a_signed_revision_is_frozen_and_history_marks_it(client
 def test_a_repeated_pdf_download_is_served_from_the_cache(client, sheet_id, monkeypatch):
     from server import pdf
 
+    from server import record as server_record
+
     pdf._render_cached.cache_clear()
+    # The printed time is on the page; hold it still so a minute boundary cannot split the two.
+    monkeypatch.setattr(server_record, "_now", lambda: "2026-12-02T10:00+00:00")
     calls = []
     real = pdf.HTML
     monkeypatch.setattr(pdf, "HTML", lambda *a, **k: calls.append(1) or real(*a, **k))
