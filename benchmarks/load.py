@@ -19,66 +19,19 @@ from __future__ import annotations
 import argparse
 import random
 import re
-import socket
 import statistics
-import subprocess
 import sys
-import tempfile
 import threading
 import time
 from collections import defaultdict
-from html.parser import HTMLParser
 from pathlib import Path
 
 import httpx
 
-ROOT = Path(__file__).resolve().parents[1]
-HOST = "127.0.0.1"  # loopback only: the benchmark never listens on or sends to a network
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from serving import HOST, form_fields, largest_demo, running_server  # noqa: E402
+
 ARRIVALS = 3.0  # editors open their sheets at random over the first seconds [s]
-
-
-class _Form(HTMLParser):
-    """The fields a browser would post from the sheet form (and the form token)."""
-
-    def __init__(self):
-        super().__init__()
-        self.fields: dict[str, str] = {}
-        self._select = self._textarea = None
-
-    def handle_starttag(self, tag, attrs):
-        a = dict(attrs)
-        name = a.get("name")
-        if tag == "input" and name and a.get("type") in ("text", "hidden"):
-            self.fields[name] = a.get("value") or ""
-        elif tag == "select" and name:
-            self._select = name
-        elif tag == "option" and self._select and ("selected" in a or self._select not in self.fields):
-            self.fields[self._select] = a.get("value") or ""
-        elif tag == "textarea" and name:
-            self._textarea = name
-            self.fields[name] = ""
-
-    def handle_endtag(self, tag):
-        if tag == "select":
-            self._select = None
-        elif tag == "textarea":
-            self._textarea = None
-
-    def handle_data(self, data):
-        if self._textarea:
-            self.fields[self._textarea] += data
-
-
-def form_fields(html: str) -> dict[str, str]:
-    reader = _Form()
-    reader.feed(html)
-    return reader.fields
-
-
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind((HOST, 0))
-        return s.getsockname()[1]
 
 
 class Tally:
@@ -151,44 +104,23 @@ def main() -> int:
     if not 1 <= args.editors <= 200 or not 0 < args.seconds <= 600:
         parser.error("editors must be 1-200 and seconds at most 600")
 
-    port = _free_port()
-    base = f"http://{HOST}:{port}"
     tally = Tally()
-    with tempfile.TemporaryDirectory() as data:
-        code = f"from server.main import serve; serve({data!r}, host={HOST!r}, port={port})"
-        server = subprocess.Popen([sys.executable, "-c", code], cwd=ROOT, stdout=subprocess.DEVNULL)
-        try:
-            with httpx.Client(base_url=base, timeout=30) as setup:
-                deadline = time.monotonic() + 60
-                while True:
-                    try:
-                        sheets = setup.get("/api/sheets").json()["sheets"]
-                        break
-                    except httpx.TransportError:
-                        if time.monotonic() > deadline or server.poll() is not None:
-                            print("the server did not start", file=sys.stderr)
-                            return 1
-                        time.sleep(0.1)
-                docs = {s["id"]: setup.get(f"/api/sheets/{s['id']}").json()["document"] for s in sheets}
-                demo_id = max(docs, key=lambda i: (len(docs[i]["elements"]), i))
-                doc = docs[demo_id]
-                pipe = next(i for i, e in enumerate(doc["elements"]) if e["kind"] == "pipe")
-                count = (args.editors + 1) // 2 if args.pairs else args.editors
-                own = [setup.post("/api/sheets", json={"document": doc, "note": "load benchmark"}).json()["id"]
-                       for _ in range(count)]
-            stop_at = time.monotonic() + args.seconds
-            threads = [threading.Thread(target=editor, args=(base, own[k // 2 if args.pairs else k], pipe, k, stop_at,
-                                                             tuple(args.think), tally))
-                       for k in range(args.editors)]
-            started = time.monotonic()
-            for t in threads:
-                t.start()
-            for t in threads:
-                t.join()
-            wall = time.monotonic() - started
-        finally:
-            server.terminate()
-            server.wait(timeout=10)
+    with running_server() as base:
+        with httpx.Client(base_url=base, timeout=30) as setup:
+            _, doc, pipe = largest_demo(setup)
+            count = (args.editors + 1) // 2 if args.pairs else args.editors
+            own = [setup.post("/api/sheets", json={"document": doc, "note": "load benchmark"}).json()["id"]
+                   for _ in range(count)]
+        stop_at = time.monotonic() + args.seconds
+        threads = [threading.Thread(target=editor, args=(base, own[k // 2 if args.pairs else k], pipe, k, stop_at,
+                                                         tuple(args.think), tally))
+                   for k in range(args.editors)]
+        started = time.monotonic()
+        for t in threads:
+            t.start()
+        for t in threads:
+            t.join()
+        wall = time.monotonic() - started
 
     every = [t for times in tally.times.values() for t in times]
     print(f"{args.editors} editors for {args.seconds:g} s on {HOST} ({'two per sheet' if args.pairs else 'one per sheet'}, "
