@@ -4,14 +4,14 @@ from __future__ import annotations
 
 import os
 import shutil
-import socket
-import threading
-import time
+import sys
 from pathlib import Path
 
-import uvicorn
-
 from server.app import create_app
+
+# The live server is the route tests' own; browser tests may run without them on the path.
+sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "server"))
+import servertools  # noqa: E402
 
 SHOTS = Path(os.environ.get("HEADSHEET_SHOTS", "/tmp/shots"))
 CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
@@ -25,33 +25,12 @@ def chromium_path() -> str:
     return path
 
 
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
+class LiveServer(servertools.LiveServer):
+    """A fresh app over ``data_dir`` served on a free loopback port (see servertools.LiveServer)."""
 
-
-class LiveServer:
     def __init__(self, data_dir: Path, share: bool = False):
-        self.port = _free_port()
-        self.url = f"http://127.0.0.1:{self.port}"
         self.app = create_app(data_dir, share=share)
-        config = uvicorn.Config(self.app, host="127.0.0.1", port=self.port, log_level="warning")
-        self.server = uvicorn.Server(config)
-        self.thread = threading.Thread(target=self.server.run, daemon=True)
-
-    def __enter__(self):
-        self.thread.start()
-        deadline = time.monotonic() + 20
-        while not self.server.started:
-            if time.monotonic() > deadline or not self.thread.is_alive():
-                raise RuntimeError("the test server did not start")
-            time.sleep(0.02)
-        return self
-
-    def __exit__(self, *exc):
-        self.server.should_exit = True
-        self.thread.join(timeout=10)
+        super().__init__(self.app)
 
 
 def shot(page, name: str) -> None:
