@@ -15,7 +15,7 @@ from calc.units import InputError
 class Analysis:
     """The parsed line, its solution, findings and uncertainty band; ``errors`` when the sheet does not parse."""
 
-    doc: dict
+    doc: dict | None
     line: Line | None
     solution: Solution | None
     findings: list = field(default_factory=list)
@@ -39,7 +39,11 @@ class Analysis:
 
 def analyse(doc: dict) -> Analysis:
     """Parse, solve, band and review a sheet document; never raises on bad input."""
-    parsed: Parsed = parse(doc)
+    return analyse_parsed(parse(doc), doc)
+
+
+def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:
+    """`analyse` for a document already parsed (the server parses each edit once, to store it)."""
     if not parsed.ok:
         return Analysis(doc, None, None, errors=parsed.errors)
     line = parsed.line

@@ -8,9 +8,9 @@ from collections import OrderedDict
 from dataclasses import dataclass, field
 from typing import Any
 
-from calc import checks as calc_checks
+from calc import analysis as calc_analysis
 from calc import sheet as calc_sheet
-from calc import solve as calc_solve
+from calc.solve import _json_safe
 from calc.units import fmt, to_display
 
 from server.store import digest_of, dump_document
@@ -25,6 +25,7 @@ class Outcome:
     errors: list = field(default_factory=list)  # calc.units.InputError
     solution: dict | None = None  # Solution.to_dict()
     findings: list = field(default_factory=list)  # calc.checks.Finding.to_dict(), worst first
+    band: dict | None = None  # calc.uncertainty.band(): the range of the answer
     failure: str | None = None  # the solver broke on a parsed line: a program fault, said plainly
 
     @property
@@ -37,9 +38,10 @@ def solve_parsed(parsed: Any) -> Outcome:
     if not parsed.ok:
         return Outcome(errors=list(parsed.errors))
     try:
-        solution = calc_solve.solve(parsed.line)
-        findings = [f.to_dict() for f in calc_checks.review(parsed.line, solution)]
-        return Outcome(solution=solution.to_dict(), findings=findings)
+        # The same analysis as the record's: the sheet's own check limits, the band, the findings.
+        a = calc_analysis.analyse_parsed(parsed)
+        return Outcome(solution=a.solution.to_dict(), findings=_json_safe([f.to_dict() for f in a.findings]),
+                       band=_json_safe(a.band))
     except Exception as exc:  # a fault in the solver must not take the page down with it
         log.exception("solver failed")
         return Outcome(failure=f"The solver stopped with an internal fault ({type(exc).__name__}: {exc}). "

@@ -376,3 +376,20 @@ def test_static_assets_are_served_locally(client):
     css = re.search(r'<link rel="stylesheet" href="([^"]+)"', page).group(1)
     assert client.get(css).status_code == 200
     assert "http" not in script + css
+
+
+def test_results_panel_uses_the_sheets_check_limits_and_shows_the_range(client):
+    # The page shows the same analysis as the record: the user's own limits and the uncertainty band.
+    import copy
+    import json
+    from pathlib import Path
+
+    doc = json.loads((Path(__file__).resolve().parents[2] / "examples" / "hydro-penstock.json").read_text())
+    sid = client.post("/api/sheets", json={"document": doc}).json()["id"]
+    page = client.get(f"/sheets/{sid}").text
+    assert 'class="band"' in page and "range" in page
+    assert "velocity high" not in page
+    strict = copy.deepcopy(doc)
+    strict.setdefault("settings", {})["checks"] = {"velocity_max": "1 m/s"}
+    client.put(f"/api/sheets/{sid}", json={"document": strict, "base_revision": 1})
+    assert "velocity high" in client.get(f"/sheets/{sid}").text
