@@ -15,10 +15,13 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from calc import checks, uncertainty  # noqa: E402
 from calc.analysis import analyse  # noqa: E402
-from calc.sheet import parse  # noqa: E402
-from calc.solve import solve  # noqa: E402
+from calc.model.sheet import parse  # noqa: E402
+from calc.review import (
+    checks,  # noqa: E402
+    uncertainty,  # noqa: E402
+)
+from calc.steady.series import solve  # noqa: E402
 from calc.water import G  # noqa: E402
 
 

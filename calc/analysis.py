@@ -4,10 +4,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from calc import checks, uncertainty
-from calc.elements import Line
-from calc.sheet import Parsed, parse
-from calc.solve import Solution, _json_safe, solve
+from calc.model.elements import Line
+from calc.model.settings import CheckSettings
+from calc.model.sheet import Parsed, parse
+from calc.review import checks, uncertainty
+from calc.steady.series import Solution, _json_safe, solve
 from calc.units import InputError
 
 
@@ -21,7 +22,7 @@ class Analysis:
     findings: list = field(default_factory=list)
     errors: list[InputError] = field(default_factory=list)
     band: dict | None = None
-    check_settings: checks.CheckSettings | None = None
+    check_settings: CheckSettings | None = None
 
     @property
     def ok(self) -> bool:
@@ -47,7 +48,7 @@ def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:
     if not parsed.ok:
         return Analysis(doc, None, None, errors=parsed.errors)
     line = parsed.line
-    settings = line.settings.get("checks") or checks.CheckSettings()
+    settings = line.settings.get("checks") or CheckSettings()
     solution = solve(line)
     band = uncertainty.band(line, solution, settings)
     findings = checks.review(line, solution, settings, band)

@@ -10,8 +10,8 @@ from fastapi.responses import JSONResponse, Response
 from pydantic import BaseModel, Field
 from starlette.concurrency import run_in_threadpool
 
-from calc import sheet as calc_sheet
-
+from calc.model import sheet as calc_sheet
+from calc.model.schema import SCHEMA
 from server.editing import json_problem
 from server.results import solve_parsed
 from server.store import Revision, SheetSummary, StaleRevision, Store
@@ -216,7 +216,7 @@ async def solve(request: Request, body: SolveIn) -> Response:
 
 
 def schema() -> dict:
-    return calc_sheet.SCHEMA
+    return SCHEMA
 
 
 #: The OpenAPI page's script and styles, served from static/ so the page works with no network.

@@ -11,20 +11,24 @@ from typing import Any
 import jinja2
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
-from fastapi.responses import HTMLResponse, JSONResponse
+from fastapi.responses import HTMLResponse
 from fastapi.staticfiles import StaticFiles
 from fastapi.templating import Jinja2Templates
+from markupsafe import Markup, escape
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
-from markupsafe import Markup, escape
-
-from server import api, pages, sharing
-from server import record  # the calculation record: record, PDF, sign-off, verify, compare
+from server import (
+    api,
+    pages,
+    record,  # the calculation record: record, PDF, sign-off, verify, compare
+    sharing,
+)
 from server.access import KeyFile, Sharing, Signer
 from server.form import message_id
-from server.guard import CSRF_FIELD, Guard
+from server.guard import Guard
 from server.results import SolveCache, lowest_pressure, number, quantity
 from server.store import SheetNotFound, Store
+from server.web import CSRF_FIELD, error_response
 
 log = logging.getLogger("headsheet.server")
 
@@ -141,29 +145,6 @@ class BodyLimit:
             return await receive()
 
         await self.app(scope, replay, send)
-
-
-def _is_api(path: str) -> bool:
-    return path.startswith("/api/") or path == "/api"
-
-
-def error_response(path: str, status: int, title: str, message: str, errors: list | None = None,
-                   scope: dict | None = None, request: Request | None = None, **extra):
-    """The one JSON error shape for the API, and the one error page for everything else."""
-    if _is_api(path):
-        body = {"ok": False, "status": status, "title": title, "message": message, "errors": errors or []}
-        body.update(extra)
-        return JSONResponse(body, status_code=status)
-    templates: Jinja2Templates | None = None
-    app = (request.app if request is not None else (scope or {}).get("app"))
-    if app is not None:
-        templates = app.state.templates
-    if templates is None or request is None:
-        return HTMLResponse(f"<!doctype html><title>{title}</title><h1>{title}</h1><p>{message}</p>",
-                            status_code=status)
-    return templates.TemplateResponse(request, "error.html", {"status": status, "title": title,
-                                                              "message": message, "errors": errors or []},
-                                      status_code=status)
 
 
 _TITLES = {400: "Bad request", 401: "Access key needed", 403: "Refused", 404: "Not found",

@@ -1,4 +1,5 @@
-"""The `headsheet` commands about the store and the server: serve, key, backup, export and import."""
+"""The `headsheet` command: its entry point, and the commands about the store and the server (serve, key, backup,
+export, import); the calculation commands are registered from `calc.commands`."""
 
 from __future__ import annotations
 
@@ -132,3 +133,23 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
     s.add_argument("--data", default=DEFAULT_DATA, help=data_help)
     s.add_argument("file", metavar="FILE", help="a file written by `headsheet export` or the Export link")
     s.set_defaults(func=cmd_import)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The whole `headsheet` command: the calculation commands, then the server's."""
+    from calc import commands
+
+    p = argparse.ArgumentParser(prog="headsheet", description="Pressurised water line calculation sheet.")
+    sub = p.add_subparsers(dest="command", required=True)
+    commands.add_commands(sub)
+    add_commands(sub)
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    return args.func(args)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

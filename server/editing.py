@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Any, Callable
 
-from calc import sheet as calc_sheet
+from calc.model import sheet as calc_sheet
 
 #: Top-level parts of the document a form field may write to.
 SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements")
@@ -278,7 +278,7 @@ class Edit:
 
     display: dict  # what the user typed, shown back with the messages
     keep: dict  # the valid document to store and solve
-    keep_parsed: Any  # calc.sheet.Parsed of ``keep``
+    keep_parsed: Any  # calc.model.sheet.Parsed of ``keep``
     errors: list  # InputErrors of ``display``, by path
     changed: list[str] = field(default_factory=list)
     switched: bool = False  # a field that changes the form's layout was changed

@@ -7,7 +7,6 @@ from functools import lru_cache
 from typing import Any
 
 from calc import friction, tables
-
 from server.editing import get_path, is_missing
 
 

@@ -29,16 +29,13 @@ from starlette.requests import Request, cookie_parser
 from starlette.responses import JSONResponse, RedirectResponse, Response
 
 from server.access import Sharing, normalise_key, same_key
+from server.web import CSRF_FIELD, KEY_PATH, VIEW_PREFIX, cookie_name, error_response, is_api
 
 UNSAFE = {"POST", "PUT", "PATCH", "DELETE"}
-KEY_PATH = "/key"
 #: What a visitor without the key may load: the key page and what it needs to look right.
 OPEN_PATHS = {KEY_PATH, "/static/css/headsheet.css", "/static/favicon.svg"}
-VIEW_PREFIX = "/view/"
-CSRF_FIELD = "csrf_token"
 CSRF_HEADER = "x-csrf-token"
 KEY_HEADER = "x-headsheet-key"
-ACCESS_DAYS = 30
 
 # Pages a read-only link may open (GET), and the posts it may make (sign-off only). The sheet
 # number in the path must be the link's own.
@@ -60,16 +57,6 @@ CSP = ("default-src 'self'; script-src 'self' 'unsafe-eval'; style-src 'self' 'u
        "img-src 'self' data:; object-src 'none'; base-uri 'none'; form-action 'self'; frame-ancestors 'none'")
 
 
-def cookie_name(kind: str, scope: dict) -> str:
-    """Cookie names carry the port: browsers share cookies between ports of one host, servers must not."""
-    server = scope.get("server") or ("", 0)
-    return f"hs_{kind}_{server[1] if server and len(server) > 1 else 0}"
-
-
-def is_api(path: str) -> bool:
-    return path.startswith("/api/") or path == "/api"
-
-
 def viewer_may(method: str, path: str, sheet_id: int) -> str:
     """What a read-only link to ``sheet_id`` may do at ``path``: 'ok', 'not part' (GET) or 'read only'."""
     if method in ("GET", "HEAD") and path.startswith("/static/"):
@@ -79,15 +66,6 @@ def viewer_may(method: str, path: str, sheet_id: int) -> str:
         if m and int(m.group(1)) == sheet_id:
             return "ok"
     return "read only" if method in UNSAFE else "not part"
-
-
-def safe_next(text: str | None) -> str:
-    """A local path to return to after the key page, never another site."""
-    if not text or not text.startswith("/") or text.startswith(("//", "/\\")) or len(text) > 2000:
-        return "/"
-    if any(ord(c) < 33 for c in text):
-        return "/"
-    return text
 
 
 def foreign_origin(headers: Headers, scope: dict) -> str | None:
@@ -302,7 +280,6 @@ class Guard:
 
     async def _refuse(self, scope, receive, send, status: int, title: str, message: str,
                       path: str | None = None, headers: dict | None = None) -> None:
-        from server.app import error_response  # the one error shape; imported late (app imports this module)
 
         path = scope["path"] if path is None else path
         if is_api(path):

@@ -14,17 +14,15 @@ from fastapi.responses import RedirectResponse, Response
 from starlette.concurrency import run_in_threadpool
 
 from calc import record as calc_record
-from calc import sheet as calc_sheet
-
+from calc.model import sheet as calc_sheet
 from server import editing
 from server.form import FormView, anchor, describe, slot_paths
-from server.guard import cookie_name
 from server.store import Revision, StaleRevision, Store, dump_document
+from server.web import clean_author, cookie_name
 
 #: Most form fields a post may carry: a sheet at every list limit has about 30 000.
 MAX_FIELDS = 40_000
 MAX_NOTE_PATHS = 6
-MAX_AUTHOR = 100
 #: Changes listed in a conflict message before "and N more".
 MAX_LISTED = 30
 
@@ -64,11 +62,6 @@ def viewer(request: Request) -> int | None:
     """The sheet a read-only link opened, when the request came through one (server.guard)."""
     info = request.scope.get("headsheet") or {}
     return info.get("viewer")
-
-
-def clean_author(text: str) -> str:
-    """A name typed for the history: one line, no control characters, at most MAX_AUTHOR characters."""
-    return " ".join("".join(c for c in text if c.isprintable()).split())[:MAX_AUTHOR]
 
 
 def author_of(request: Request) -> str:

@@ -15,10 +15,9 @@ from fastapi.responses import JSONResponse, RedirectResponse, Response
 from pydantic import BaseModel, Field
 from starlette.concurrency import run_in_threadpool
 
-from calc import fingerprint as fp
 from calc import record as calc_record
 from calc.analysis import Analysis, analyse
-
+from calc.record import fingerprint as fp
 from server import pdf
 from server.store import Revision, SheetNotFound, SignOffRefused, Store
 

@@ -9,10 +9,9 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from calc import analysis as calc_analysis
-from calc import sheet as calc_sheet
-from calc.solve import _json_safe
+from calc.model import sheet as calc_sheet
+from calc.steady.series import _json_safe
 from calc.units import fmt, to_display
-
 from server.store import digest_of, dump_document
 
 log = logging.getLogger("headsheet.server")
@@ -24,8 +23,8 @@ class Outcome:
 
     errors: list = field(default_factory=list)  # calc.units.InputError
     solution: dict | None = None  # Solution.to_dict()
-    findings: list = field(default_factory=list)  # calc.checks.Finding.to_dict(), worst first
-    band: dict | None = None  # calc.uncertainty.band(): the range of the answer
+    findings: list = field(default_factory=list)  # calc.review.findings.Finding.to_dict(), worst first
+    band: dict | None = None  # calc.review.uncertainty.band(): the range of the answer
     failure: str | None = None  # the solver broke on a parsed line: a program fault, said plainly
 
     @property

@@ -10,9 +10,8 @@ from starlette.concurrency import run_in_threadpool
 
 from server import transfer
 from server.access import normalise_key, same_key
-from server.guard import ACCESS_DAYS, KEY_PATH, cookie_name, safe_next
-from server.pages import clean_author
 from server.store import Store
+from server.web import ACCESS_DAYS, KEY_PATH, clean_author, cookie_name, safe_next
 
 MAX_LINK_NOTE = 100
 #: Largest export file the import page takes [bytes]: long histories are larger than one sheet.

@@ -49,7 +49,7 @@ def checksum(payload: dict) -> str:
 
 def _program() -> str:
     try:
-        from calc.fingerprint import program_version
+        from calc.record.fingerprint import program_version
         return program_version()
     except Exception:  # the version is a courtesy in the file, never a reason to fail an export
         return "unknown"

@@ -6,7 +6,6 @@ import pytest
 from browsertools import CHROMIUM_ARGS, LiveServer, chromium_path
 from playwright.sync_api import sync_playwright
 
-
 # Not test modules: kept out of --doctest-modules, which would import two files named conftest.
 collect_ignore = ["conftest.py", "browsertools.py"]
 

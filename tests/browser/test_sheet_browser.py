@@ -9,8 +9,8 @@ import urllib.request
 from browsertools import shot
 from playwright.sync_api import expect
 
-from calc import sheet as calc_sheet
-from calc import solve as calc_solve
+from calc.model import sheet as calc_sheet
+from calc.steady import series as calc_solve
 from server.results import quantity
 
 

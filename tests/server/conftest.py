@@ -9,7 +9,6 @@ from servertools import FIGURES, BrowserClient, form_fields
 
 from server.app import create_app
 
-
 # Not test modules: kept out of --doctest-modules, which would import two files named conftest.
 collect_ignore = ["conftest.py", "servertools.py"]
 

@@ -8,7 +8,7 @@ from html.parser import HTMLParser
 from pathlib import Path
 
 from server.app import EXAMPLES
-from server.guard import cookie_name
+from server.web import cookie_name
 
 with warnings.catch_warnings():
     warnings.simplefilter("ignore")  # starlette's note about httpx versions is not ours to fix

@@ -8,7 +8,7 @@ import json
 import pytest
 from servertools import BrowserClient, demo_files
 
-from calc import sheet as calc_sheet
+from calc.model import sheet as calc_sheet
 from server.app import create_app
 
 

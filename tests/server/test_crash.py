@@ -17,7 +17,7 @@ from pathlib import Path
 import httpx
 from servertools import FIGURES, HX, form_fields, free_port
 
-from calc import sheet as calc_sheet
+from calc.model import sheet as calc_sheet
 from server.store import DB_NAME, Store, digest_of, dump_document
 
 ROOT = Path(__file__).resolve().parents[2]

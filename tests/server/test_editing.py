@@ -6,8 +6,8 @@ import copy
 
 import pytest
 
-from calc import sheet as calc_sheet
-from calc.sheet import blank_sheet, parse
+from calc.model import sheet as calc_sheet
+from calc.model.sheet import blank_sheet, parse
 from server import editing
 from server.editing import apply_action, edit, get_path, set_field, split_path, too_deep
 

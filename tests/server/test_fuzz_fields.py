@@ -15,7 +15,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from servertools import FIGURES, HX, BrowserClient, form_fields
 
-from calc import sheet as calc_sheet
+from calc.model import sheet as calc_sheet
 from server.app import create_app
 from server.editing import related, split_path
 from server.form import FormView

@@ -8,8 +8,8 @@ import re
 import pytest
 from servertools import HX, demo_files, form_fields
 
-from calc import sheet as calc_sheet
-from calc import solve as calc_solve
+from calc.model import sheet as calc_sheet
+from calc.steady import series as calc_solve
 from server.results import quantity
 
 

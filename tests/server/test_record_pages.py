@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import copy
 import io
-import json
 import re
 import sqlite3
 import subprocess
@@ -14,7 +13,7 @@ from pathlib import Path
 import pytest
 from pypdf import PdfReader
 
-from calc import sheet as calc_sheet
+from calc.model import sheet as calc_sheet
 from server import pdf as server_pdf
 from server import record as server_record
 
@@ -284,8 +283,8 @@ def test_verify_finds_the_revision_from_a_printed_fingerprint(client, sheet_id):
 
 
 def test_verify_finds_a_revision_whose_record_was_never_opened(client):
-    from calc import fingerprint as fp
     from calc.analysis import analyse
+    from calc.record import fingerprint as fp
 
     doc = copy.deepcopy(SHEET)
     doc["header"]["title"] = "Never opened"
@@ -437,7 +436,6 @@ def test_sheet_page_says_a_signed_revision_is_frozen_and_history_marks_it(client
 
 def test_a_repeated_pdf_download_is_served_from_the_cache(client, sheet_id, monkeypatch):
     from server import pdf
-
     from server import record as server_record
 
     pdf._render_cached.cache_clear()

@@ -8,12 +8,11 @@ import tempfile
 from pathlib import Path
 
 import pytest
-
-from servertools import HX, BrowserClient, form_fields
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from servertools import HX, BrowserClient, form_fields
 
-from calc import sheet as calc_sheet
+from calc.model import sheet as calc_sheet
 from server.app import create_app
 
 OK_STATUSES = {200, 303, 409, 422}

@@ -6,7 +6,7 @@ import re
 from pathlib import Path
 
 import pytest
-from servertools import BrowserClient, FIGURES, fill, route_table
+from servertools import FIGURES, BrowserClient, fill, route_table
 
 from server.access import Attempts, normalise_key, same_key
 from server.app import STATIC, create_app

@@ -5,10 +5,11 @@ from __future__ import annotations
 import re
 
 import pytest
-from servertools import HX, FIGURES, fill, form_fields, route_table
+from servertools import FIGURES, HX, fill, form_fields, route_table
 
-from calc import sheet as calc_sheet
-from server.guard import CSP, cookie_name
+from calc.model import sheet as calc_sheet
+from server.guard import CSP
+from server.web import cookie_name
 
 with __import__("warnings").catch_warnings():
     __import__("warnings").simplefilter("ignore")

@@ -7,9 +7,9 @@ import json
 
 import pytest
 from pypdf import PdfReader
-from servertools import HX, FIGURES, form_fields
+from servertools import FIGURES, HX, form_fields
 
-from calc import sheet as calc_sheet
+from calc.model import sheet as calc_sheet
 from server import pdf
 from server.form import FormView
 

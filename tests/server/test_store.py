@@ -6,7 +6,7 @@ import sqlite3
 
 import pytest
 
-from calc.sheet import blank_sheet
+from calc.model.sheet import blank_sheet
 from server.store import DB_NAME, SheetNotFound, StaleRevision, Store, dump_document
 
 

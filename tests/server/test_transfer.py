@@ -9,9 +9,9 @@ import threading
 import pytest
 from servertools import form_fields
 
-from calc import sheet as calc_sheet
-from calc.cli import main as headsheet
+from calc.model import sheet as calc_sheet
 from server import transfer
+from server.cli import main as headsheet
 from server.store import DB_NAME, Store
 
 

@@ -13,8 +13,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from calc.elements import Pump, Turbine
-from calc.solve import residual_array
+from calc.model.elements import Pump, Turbine
+from calc.steady.series import residual_array
 from calc.units import to_display
 from calc.water import G
 

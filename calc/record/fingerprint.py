@@ -91,7 +91,7 @@ def fingerprint(analysis, version: str | None = None) -> str:
     to what the record shows changes the fingerprint; key order in the stored JSON does not.
 
     >>> from calc.analysis import analyse
-    >>> from calc.sheet import blank_sheet
+    >>> from calc.model.sheet import blank_sheet
     >>> a = analyse(blank_sheet())
     >>> fingerprint(a, "1") == fingerprint(analyse(blank_sheet()), "1"), len(fingerprint(a, "1"))
     (True, 64)

@@ -6,8 +6,8 @@ import copy
 from dataclasses import dataclass
 
 from calc import tables
-from calc.elements import Line, PipeRun
-from calc.solve import residual
+from calc.model.elements import Line, PipeRun
+from calc.steady.series import residual
 
 
 @dataclass

@@ -1,4 +1,8 @@
-"""The `headsheet` command: solve a sheet file, print its schema, answer inverse questions; the server adds its own."""
+"""The calculation commands of `headsheet`: solve a sheet file, print its schema, answer inverse questions.
+
+The console entry point is `server.cli.main`, which registers these beside the server's own commands;
+`calc` itself never imports the server.
+"""
 
 from __future__ import annotations
 
@@ -12,7 +16,7 @@ from calc.units import FLOW, InputError, fmt, parse_quantity, to_display
 
 def _load(path: str):
     """Read and parse a sheet file; print the errors and exit 2 when it does not parse."""
-    from calc.sheet import parse
+    from calc.model.sheet import parse
 
     try:
         doc = json.loads(Path(path).read_text(encoding="utf-8"))
@@ -126,7 +130,7 @@ def format_solution(sol, system: str = "SI", title: str = "") -> str:
 
 
 def cmd_schema(args) -> int:
-    from calc.sheet import SCHEMA
+    from calc.model.schema import SCHEMA
 
     json.dump(SCHEMA, sys.stdout, indent=2)
     print()
@@ -134,7 +138,7 @@ def cmd_schema(args) -> int:
 
 
 def cmd_head(args) -> int:
-    from calc.inverse import head_needed
+    from calc.steady.inverse import head_needed
 
     doc, line = _load(args.file)
     Q = _flow(args.flow)
@@ -155,7 +159,7 @@ def cmd_head(args) -> int:
 
 
 def cmd_size(args) -> int:
-    from calc.inverse import smallest_size
+    from calc.steady.inverse import smallest_size
 
     doc, line = _load(args.file)
     Q = _flow(args.flow)
@@ -177,9 +181,8 @@ def cmd_size(args) -> int:
     return 0
 
 
-def build_parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(prog="headsheet", description="Pressurised water line calculation sheet.")
-    sub = p.add_subparsers(dest="command", required=True)
+def add_commands(sub: argparse._SubParsersAction) -> None:
+    """Register solve, schema, head and size on the `headsheet` command's subparsers."""
     s = sub.add_parser("solve", help="solve a sheet file and print the operating points")
     s.add_argument("file")
     s.add_argument("--json", action="store_true", help="the full result in SI base units, as JSON")
@@ -200,20 +203,3 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--runs", default="", help="element numbers (from 0) of the runs to resize, e.g. 0,2; default all")
     s.add_argument("--json", action="store_true")
     s.set_defaults(func=cmd_size)
-    try:
-        # serve, key, backup, export, import: the server's own commands, registered by it (lazily
-        # importing what they need, so the calculation commands stay quick to start).
-        from server.cli import add_commands
-    except ImportError:  # an installation without the server: the calculation commands still work
-        return p
-    add_commands(sub)
-    return p
-
-
-def main(argv: list[str] | None = None) -> int:
-    args = build_parser().parse_args(argv)
-    return args.func(args)
-
-
-if __name__ == "__main__":
-    sys.exit(main())

@@ -7,10 +7,10 @@ import fluids.friction
 import pytest
 from scipy.optimize import brentq
 
-from calc import uncertainty
 from calc.analysis import analyse
-from calc.sheet import blank_sheet, parse
-from calc.solve import solve
+from calc.model.sheet import blank_sheet, parse
+from calc.review import uncertainty
+from calc.steady.series import solve
 from calc.water import G
 
 # fluids' implementations of the same published formulas (tests only).

@@ -20,7 +20,7 @@ import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
 from calc import friction
-from calc.elements import Line, PipeRun, Pump, Turbine, Valve
+from calc.model.elements import Line, PipeRun, Pump, Turbine, Valve
 from calc.water import G
 
 #: Flows are scanned up to the flow that gives this velocity in the narrowest bore [m/s].

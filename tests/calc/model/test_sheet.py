@@ -4,7 +4,7 @@ import copy
 
 import pytest
 
-from calc.sheet import MAX_ELEMENTS, blank_sheet, parse
+from calc.model.sheet import MAX_ELEMENTS, blank_sheet, parse
 from calc.units import FLOW, LENGTH, POWER, PRESSURE, TEMPERATURE, InputError, parse_quantity
 
 

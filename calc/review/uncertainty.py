@@ -3,7 +3,7 @@
 Each case is the nominal line with one thing changed; two more cases stack, factor by factor, the
 changes that gave the least and the most flow. A case is re-solved near the nominal design point
 (Brent's method from a bracket grown out of a Newton step, on the same branch: same sign of
-dE/dQ), and only when that fails by the full scan of `calc.solve`, keeping the root of the same
+dE/dQ), and only when that fails by the full scan of `calc.steady.series`, keeping the root of the same
 branch nearest the nominal flow. So a band costs about as much as one or two full solves.
 """
 
@@ -15,9 +15,9 @@ import math
 from scipy.optimize import brentq
 
 from calc import friction
-from calc.checks import CheckSettings
-from calc.elements import Fitting, Line, PipeRun, Pump, Turbine, Valve
-from calc.solve import Solution, find_roots, make_residual, residual_array, scan_range
+from calc.model.elements import Fitting, Line, PipeRun, Pump, Turbine, Valve
+from calc.model.settings import CheckSettings
+from calc.steady.series import Solution, find_roots, make_residual, residual_array, scan_range
 
 #: Parameters of a fitting's loss model that scale its K value (K is linear in each set).
 _K_PARAMS = {"k": ("K",), "2k": ("K1", "Kinf"), "3k": ("K1", "Ki")}

@@ -15,11 +15,12 @@ from pathlib import Path
 import fluids
 import pytest
 
-from calc import fingerprint as fp
-from calc import plots, record
+from calc import record
 from calc.analysis import analyse
+from calc.record import fingerprint as fp
+from calc.record import plots
 
-EXAMPLES = Path(__file__).resolve().parents[2] / "examples"
+EXAMPLES = Path(__file__).resolve().parents[3] / "examples"
 
 
 # Scenarios of our own for the checks that depend on exact inputs (the demo sheets may be retuned).
@@ -403,7 +404,7 @@ def test_header_signoff_and_draft(hydro):
 
 
 def test_findings_are_grouped_worst_first(hydro):
-    from calc.checks import SEVERITIES
+    from calc.review.findings import SEVERITIES
 
     rec = record.build(hydro)
     order = [SEVERITIES.index(s) for s in rec.findings]

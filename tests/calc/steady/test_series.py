@@ -10,8 +10,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from calc.sheet import blank_sheet, parse
-from calc.solve import residual, solve
+from calc.model.sheet import blank_sheet, parse
+from calc.steady.series import residual, solve
 from calc.water import G
 
 

@@ -7,10 +7,10 @@ from pathlib import Path
 
 import pytest
 
-from calc.cli import main
-from calc.inverse import head_needed, smallest_size
-from calc.sheet import parse
-from calc.solve import solve
+from calc.model.sheet import parse
+from calc.steady.inverse import head_needed, smallest_size
+from calc.steady.series import solve
+from server.cli import main
 
 EXAMPLES = sorted((Path(__file__).resolve().parents[2] / "examples").glob("*.json"))
 
@@ -49,7 +49,7 @@ def test_bad_file_gives_field_errors_not_a_traceback(tmp_path):
     doc["elements"][1]["curve"] = doc["elements"][1]["curve"][:2]
     f = tmp_path / "bad.json"
     f.write_text(json.dumps(doc))
-    r = subprocess.run([sys.executable, "-m", "calc.cli", "solve", str(f)], capture_output=True, text=True)
+    r = subprocess.run([sys.executable, "-m", "server.cli", "solve", str(f)], capture_output=True, text=True)
     assert r.returncode == 2
     assert "elements.3.length: needs a unit" in r.stderr
     assert "elements.1.curve" in r.stderr
@@ -59,7 +59,7 @@ def test_bad_file_gives_field_errors_not_a_traceback(tmp_path):
 def test_not_json_is_reported(tmp_path):
     f = tmp_path / "x.json"
     f.write_text("{not json")
-    r = subprocess.run([sys.executable, "-m", "calc.cli", "solve", str(f)], capture_output=True, text=True)
+    r = subprocess.run([sys.executable, "-m", "server.cli", "solve", str(f)], capture_output=True, text=True)
     assert r.returncode == 1 and "not valid JSON" in r.stderr and "Traceback" not in r.stderr
 
 

@@ -9,12 +9,15 @@ import fluids.friction
 import pytest
 from scipy.optimize import brentq, minimize_scalar
 
-from calc import checks
 from calc.analysis import analyse
-from calc.checks import (CheckSettings, joukowsky_head, korteweg_wave_speed, npsh_available,
-                         npsh_available_suction, npsh_margin_needed, pipeline_period, restraint_factor)
-from calc.sheet import blank_sheet, parse
-from calc.solve import solve
+from calc.model.settings import CheckSettings
+from calc.model.sheet import blank_sheet, parse
+from calc.review import checks
+from calc.review.findings import SEVERITIES
+from calc.review.machines import npsh_available, npsh_available_suction, npsh_margin_needed
+from calc.review.pressure import stretches_below
+from calc.review.surge import joukowsky_head, korteweg_wave_speed, pipeline_period, restraint_factor
+from calc.steady.series import solve
 from calc.water import G
 
 P_ATM = 101325.0
@@ -156,7 +159,7 @@ def test_hump_above_grade_line_raises_sub_atmospheric_finding_at_its_chainage():
     assert not codes(findings, "pressure-vapour")
     # The stretch starts where the straight grade line crosses the straight pipe between 0 and 400 m
     # and ends between 400 m and 1000 m (pipe from 97 m down to 80 m).
-    st = checks.stretches_below(sol.design["profile"], 0.0)
+    st = stretches_below(sol.design["profile"], 0.0)
     assert len(st) == 1
     x0 = brentq(lambda x: hgl(x) - (95.0 + 2.0 * x / 400.0), 0.0, 400.0)
     x1 = brentq(lambda x: hgl(x) - (97.0 - 17.0 * (x - 400.0) / 600.0), 400.0, 1000.0)
@@ -479,7 +482,7 @@ def test_general_cautions_present_without_an_operating_point():
 def test_findings_sorted_worst_first_and_json_safe():
     for doc in (hump_doc("104 m"), pump_line_doc(), turbine_doc(), steel_main_doc(rating="10 bar")):
         a = analyse(doc)
-        order = [checks.SEVERITIES.index(f.severity) for f in a.findings]
+        order = [SEVERITIES.index(f.severity) for f in a.findings]
         assert order == sorted(order)
         text = json.dumps(a.to_dict(), allow_nan=False)
         back = json.loads(text)
@@ -516,8 +519,8 @@ def test_check_settings_defaults_and_units():
 def test_every_check_setting_is_documented_and_in_the_schema():
     from pathlib import Path
 
-    from calc.sheet import SCHEMA
-    text = (Path(__file__).resolve().parents[2] / "docs" / "sheet-format.md").read_text()
+    from calc.model.sheet import SCHEMA
+    text = (Path(__file__).resolve().parents[3] / "docs" / "sheet-format.md").read_text()
     props = SCHEMA["properties"]["settings"]["properties"]["checks"]["properties"]
     names = [n for n in CheckSettings().to_dict()]
     assert set(names) == set(props)

@@ -1,0 +1,64 @@
+"""The limits a sheet's checks apply (``settings.checks``), with where each default comes from."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, fields
+
+# Where each default limit comes from, written once so that findings, the record and the docs agree.
+SRC_PRACTICE = "common practice"
+SRC_NPSH = ("ANSI/HI 9.6.1-2012 (NPSH margin), as summarised in secondary sources: NPSHA/NPSH3 at least "
+            "1.1 or NPSH3 + 0.6 m, whichever is greater, for water services; confirm against the standard")
+SRC_BEP = ("ANSI/HI 9.6.3 (allowable and preferred operating regions), from memory; 70-120 % of "
+           "best-efficiency flow is common practice")
+SRC_EN805 = ("EN 805 (water supply outside buildings): where surge is not calculated, allow at least "
+             "200 kPa over the design pressure, from memory")
+
+
+@dataclass
+class CheckSettings:
+    """Limits the user may set (``settings.checks`` in the sheet); SI units, fractions for percentages.
+
+    ``roughness_low`` / ``roughness_high`` override the roughness range of the uncertainty band:
+    ``("factor", x)`` multiplies each run's roughness by x, ``("length", eps)`` sets every run to eps [m].
+    None means: each run's own roughness (low) and its material's aged value (high).
+    """
+
+    velocity_max: float = 3.0          # [m/s] mains and plant lines
+    velocity_max_suction: float = 1.5  # [m/s] pump suction lines
+    velocity_min: float = 0.3          # [m/s] below this sediment and air settle
+    npsh_margin_ratio: float = 1.1     # [-] NPSHA / NPSHR at least
+    npsh_margin_min: float = 0.6       # [m] NPSHA - NPSHR at least
+    bep_low: float = 0.70              # [-] of best-efficiency flow
+    bep_high: float = 1.20             # [-] of best-efficiency flow
+    k_uncertainty: float = 0.20        # [-] fitting and valve K values +/- this fraction
+    roughness_low: tuple | None = None
+    roughness_high: tuple | None = None
+    surge_allowance: float = 200e3     # [Pa] allowed for surge where it is not calculated
+    given: tuple = field(default=(), compare=False)  # names the user set
+
+    #: Where each default comes from.
+    SOURCES = {
+        "velocity_max": SRC_PRACTICE + " (mains 0.5-2 m/s, plant discharge lines 1.5-3 m/s)",
+        "velocity_max_suction": SRC_PRACTICE + " (pump suction 0.6-1.5 m/s)",
+        "velocity_min": SRC_PRACTICE + " (about 0.6 m/s keeps a line self-cleansing)",
+        "npsh_margin_ratio": SRC_NPSH,
+        "npsh_margin_min": SRC_NPSH,
+        "bep_low": SRC_BEP,
+        "bep_high": SRC_BEP,
+        "k_uncertainty": SRC_PRACTICE + " (published K values for one fitting type scatter by tens of per cent)",
+        "roughness_low": "each run's roughness as given (new pipe, material table)",
+        "roughness_high": "each run's aged roughness from the material table (Idelchik 2007 and others)",
+        "surge_allowance": SRC_EN805,
+    }
+
+    def source(self, name: str) -> str:
+        return "set on the sheet" if name in self.given else self.SOURCES.get(name, "")
+
+    def to_dict(self) -> dict:
+        out = {}
+        for f in fields(self):
+            if f.name == "given":
+                continue
+            v = getattr(self, f.name)
+            out[f.name] = {"value": list(v) if isinstance(v, tuple) else v, "source": self.source(f.name)}
+        return out

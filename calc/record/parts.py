@@ -1,0 +1,150 @@
+"""The record as plain data: tables, worked steps, equations, references, sign-off and the record itself."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from calc.record.plots import Plot
+
+ROLES = ("preparer", "checker", "approver")
+ROLE_TITLES = {"preparer": "Prepared by", "checker": "Checked by", "approver": "Approved by"}
+SEVERITY_TITLES = {"error": "Errors", "warning": "Warnings", "caution": "Cautions", "info": "For information"}
+
+
+@dataclass
+class Table:
+    """A table of text cells; ``align`` holds 'l' or 'r' per column."""
+
+    head: list[str]
+    rows: list[list[str]]
+    caption: str = ""
+    align: list[str] | None = None
+    note: str = ""
+    css: str = ""
+
+
+@dataclass
+class Step:
+    """One line of working: what is found, by which equation, with which numbers, and the result."""
+
+    symbol: str
+    name: str
+    equation: str
+    substituted: str
+    result: str
+    unit: str
+    value: float | None = None
+    ref: str = ""
+    also: str = ""  # a second line of working, e.g. both sides of an implicit equation at the result
+
+
+@dataclass
+class StepGroup:
+    """The working for one element (or the liquid, or the ends of the line) at one operating point."""
+
+    title: str
+    kind: str
+    steps: list[Step] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+
+
+@dataclass
+class Equation:
+    name: str
+    text: str
+    where: str = ""
+    ref: str = ""
+
+
+@dataclass
+class Reference:
+    number: int
+    citation: str
+    used_for: list[str] = field(default_factory=list)
+
+
+@dataclass
+class Assumption:
+    text: str
+    verify: bool = False  # to be confirmed by the designer before the record is relied on
+
+
+@dataclass
+class Signature:
+    role: str
+    title: str
+    name: str = ""
+    comment: str = ""
+    signed: str = ""  # ISO date and time, UTC
+
+    @property
+    def done(self) -> bool:
+        return bool(self.name)
+
+
+@dataclass
+class Meta:
+    """What the store knows about the revision the record is of; the record itself is pure."""
+
+    sheet_id: int | None = None
+    store_revision: int | None = None
+    label_index: int = 0
+    created: str = ""
+    printed: str = ""
+    frozen: bool = False
+    signatures: list[dict] = field(default_factory=list)  # {role, name, comment, signed}
+    verify_url: str = ""
+
+
+@dataclass
+class Record:
+    """Everything the record shows, section by section, as text and tables (HTML is the template's job)."""
+
+    header: dict
+    purpose: str
+    scope: list[str]
+    references: list[Reference]
+    assumptions: list[Assumption]
+    inputs: list[Table]
+    equations: list[Equation]
+    steps: list[StepGroup]
+    steps_point: str
+    solve_log: list[Table]
+    solve_notes: list[str]
+    results: list[dict]
+    points_table: Table | None
+    no_point: str
+    plots: list[Plot]
+    findings: dict[str, list[dict]]
+    solver_notes: list[str]
+    uncertainty: list[Table]
+    cautions: list[str]
+    disclaimer: str
+    signoff: list[Signature]
+    fingerprint: str
+    fingerprint_grouped: str
+    verify_url: str
+    program: str
+    version: str
+    errors: list[dict] = field(default_factory=list)
+
+    @property
+    def signed(self) -> bool:
+        """All three roles have signed: the draft stamp comes off."""
+        return all(s.done for s in self.signoff)
+
+
+def revision_label(index: int, scheme: str = "letters") -> str:
+    """The record's revision label: A, B, … Z, AA, AB … for letters; 0, 1, 2 … for numbers.
+
+    >>> revision_label(0), revision_label(25), revision_label(26), revision_label(2, "numbers")
+    ('A', 'Z', 'AA', '2')
+    """
+    if scheme == "numbers":
+        return str(index)
+    out = ""
+    n = index + 1
+    while n:
+        n, r = divmod(n - 1, 26)
+        out = chr(ord("A") + r) + out
+    return out

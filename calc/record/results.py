@@ -1,0 +1,177 @@
+"""The record's results: the solve log, operating points, findings by severity and the range of the answer."""
+
+from __future__ import annotations
+
+from calc.record.context import Context
+from calc.record.parts import Table
+from calc.record.sources import JOUKOWSKY_REF, KORTEWEG_REF, looks_published
+from calc.record.text import DISPLAY_KINDS, as_text, num, shown
+from calc.water import G
+
+
+def solve_log(c: Context) -> list[Table]:
+    log = c.sol.log
+    scan = log.get("scan", {})
+    s = c.system
+    t1 = Table(["Item", "Value"], [
+        ["Flows scanned", f"{shown(scan.get('Q_min'), 'flow', s)} to {shown(scan.get('Q_max'), 'flow', s)}"],
+        ["Grid points (logarithmic)", str(scan.get("grid_points", "–"))],
+        ["Brackets with a sign change", str(scan.get("brackets", "–"))],
+        ["Extrema refined (close pairs of roots)", str(scan.get("extrema_refined", "–"))],
+    ], "Scan of the energy balance E(Q)", ["l", "r"], css="scan")
+    rows = []
+    for k, r in enumerate(log.get("roots", [])):
+        a, b = r["bracket"]
+        rows.append([str(k + 1), f"{shown(a, 'flow', s, 6)} to {shown(b, 'flow', s, 6)}",
+                     str(r["iterations"]), str(r["function_calls"]), shown(r["Q"], "flow", s, 6),
+                     f"{num(r['residual'], 3)} m"])
+    t2 = Table(["Root", "Bracket", "Iterations", "Function calls", "Flow", "Final residual E"], rows,
+               "Roots closed with Brent's method", ["r", "l", "r", "r", "r", "r"], css="roots")
+    return [t1, t2]
+
+
+def solve_notes(c: Context) -> list[str]:
+    sol = c.sol
+    out = [f"Status: {sol.status.replace('_', ' ')}; {sol.message}."]
+    if sol.design is not None:
+        out.append(f"Design point: operating point {sol.design_index + 1}, {sol.design['why']}.")
+    return out
+
+
+def results(c: Context) -> list[dict]:
+    s = c.system
+    out = []
+    for k, p in enumerate(c.sol.points):
+        rows = []
+        for el, d in zip(c.line.elements, p["elements"]):
+            name = f"{d['index'] + 1}. {el.label or el.kind}"
+            if d["kind"] == "pipe":
+                rows.append([name, shown(d["V"], "velocity", s), num(d["Re"]), num(d["f"]),
+                             shown(d["h_friction"], "head", s), shown(d["h_fittings"], "head", s),
+                             shown(d["head_change"], "head", s), "–"])
+            elif d["kind"] == "valve":
+                rows.append([name, shown(d["V"], "velocity", s), "–", "–", "–", shown(d["h"], "head", s),
+                             shown(d["head_change"], "head", s), "–"])
+            else:
+                rows.append([name, "–", "–", "–", "–", "–", shown(d["head_change"], "head", s),
+                             shown(d.get("power_shaft"), "power", s)])
+        design = bool(p.get("is_design"))
+        elements = grade = None
+        if design:  # the other points are summed up in the table of points
+            elements = Table(["Element", "V", "Re", "f", "Friction loss", "Fitting loss", "Head taken",
+                              "Shaft power"], rows, "", ["l"] + ["r"] * 7, css="elements")
+            stations = []
+            for st in p["profile"]:
+                row = [shown(st["chainage"], "length", s), shown(st["elevation"], "length", s),
+                       shown(st["hgl"], "head", s), shown(st["egl"], "head", s),
+                       shown(st["pressure_head"], "head", s),
+                       shown(st["pressure_head"] * c.liquid.rho * G, "pressure", s)]
+                if not stations or row != stations[-1]:  # a station repeated at the printed precision says nothing new
+                    stations.append(row)
+            grade = Table(["Chainage", "Elevation", "HGL", "EGL", "Pressure head", "Pressure (gauge)"], stations,
+                          "", ["r"] * 6, css="compact grade")
+        low = min(p["profile"], key=lambda st: st["pressure_head"]) if p["profile"] else None
+        summary = [["Flow Q", shown(p["Q"], "flow", s)],
+                   ["Total head at the start", shown(p["head_start"], "head", s)],
+                   ["Total head at the end", shown(p["head_end"], "head", s)]]
+        losses = sum(d["head_change"] for d in p["elements"] if d["kind"] in ("pipe", "valve"))
+        summary.append(["Line losses (pipe runs and valves)", shown(losses, "head", s)])
+        for el, d in zip(c.line.elements, p["elements"]):
+            name = f"{d['index'] + 1}. {el.label or el.kind}"
+            if d["kind"] == "pipe" and len(c.sol.points) > 1:  # else in the table of elements
+                summary.append([f"{name}: velocity", shown(d["V"], "velocity", s)])
+            elif d["kind"] == "turbine":
+                summary.append([f"{name}: head taken", shown(d["head"], "head", s)])
+                summary.append([f"{name}: shaft power", shown(d["power_shaft"], "power", s)])
+            elif d["kind"] == "pump":
+                summary.append([f"{name}: head added", shown(d["head"], "head", s)])
+                if d.get("power_shaft") is not None:
+                    summary.append([f"{name}: shaft power", shown(d["power_shaft"], "power", s)])
+        if low is not None:
+            summary.append(["Lowest pressure head", shown(low["pressure_head"], "head", s)])
+            summary.append(["… at chainage", shown(low["chainage"], "length", s)])
+        out.append({
+            "number": k + 1,
+            "design": design,
+            "why": p.get("why", ""),
+            "Q": shown(p["Q"], "flow", s),
+            "summary": summary,
+            "elements": elements,
+            "grade": grade,
+        })
+    return out
+
+
+def points_table(c: Context, results: list[dict]) -> Table | None:
+    """Every operating point side by side: one column each, the design point marked."""
+    if not results:
+        return None
+    labels: list[str] = []
+    for r in results:
+        for label, _ in r["summary"]:
+            if label not in labels:
+                labels.append(label)
+    values = [dict((label, v) for label, v in r["summary"]) for r in results]
+    head = ["Quantity"] + [f"Point {r['number']}" + (" (design)" if r["design"] else "") for r in results]
+    rows = [[label] + [v.get(label, "–") for v in values] for label in labels]
+    return Table(head, rows, "", ["l"] + ["r"] * len(results), css=f"points points-{len(results)}")
+
+
+def no_point(c: Context) -> str:
+    return c.sol.no_point["reason"] if c.sol.no_point else ""
+
+
+def findings(c: Context) -> dict[str, list[dict]]:
+    from calc.review.findings import SEVERITIES
+
+    groups: dict[str, list[dict]] = {}
+    published = " ".join(str(getattr(f, "source", "")) for f in c.a.findings
+                         if looks_published(str(getattr(f, "source", "")))).lower()
+    for f in c.a.findings:
+        d = f.to_dict() if hasattr(f, "to_dict") else dict(f)
+        q = d.get("quantity")
+        value = limit = ""
+        if d.get("value") is not None:
+            value = shown(d["value"], q, c.system) if q in DISPLAY_KINDS else num(d["value"])
+        if d.get("limit") is not None:
+            limit = shown(d["limit"], q, c.system) if q in DISPLAY_KINDS else num(d["limit"])
+        source = d.get("source") or ""
+        ref = c.refs.cite(source, "checks") if looks_published(source) else ""
+        if str(d.get("code", "")).startswith("surge"):
+            if "joukowsky" not in published:
+                ref += c.refs.cite(JOUKOWSKY_REF, "surge check")
+            if "korteweg" not in published:
+                ref += c.refs.cite(KORTEWEG_REF, "surge check")
+        where = ""
+        if d.get("element") is not None and 0 <= d["element"] < len(c.line.elements):
+            el = c.line.elements[d["element"]]
+            where = f"element {d['element'] + 1}" + (f" «{el.label}»" if el.label else "")
+        if d.get("chainage") is not None:
+            where += (", " if where else "") + f"chainage {shown(d['chainage'], 'length', c.system)}"
+        sev = d.get("severity") if d.get("severity") in SEVERITIES else "info"
+        groups.setdefault(sev, []).append({
+            "title": as_text(d.get("title")), "message": as_text(d.get("message")), "value": value,
+            "limit": limit, "source": source, "ref": ref, "where": where, "code": as_text(d.get("code")),
+        })
+    return {sev: groups[sev] for sev in SEVERITIES if sev in groups}
+
+
+def uncertainty(c: Context) -> list[Table]:
+    """The uncertainty band of the checks (``analysis.band``): flow range by factor and by case."""
+    band = getattr(c.a, "band", None)
+    if not isinstance(band, dict) or band.get("Q_nominal") is None:
+        return []
+    s = c.system
+    rows = [["All factors together", shown(band.get("Q_low"), "flow", s), shown(band.get("Q_nominal"), "flow", s),
+             shown(band.get("Q_high"), "flow", s)]]
+    for name, f in (band.get("factors") or {}).items():
+        if isinstance(f, dict):
+            rows.append([str(name).replace("_", " ").capitalize(), shown(f.get("Q_low"), "flow", s),
+                         shown(band.get("Q_nominal"), "flow", s), shown(f.get("Q_high"), "flow", s)])
+    out = [Table(["Factor", "Lowest flow", "Nominal flow", "Highest flow"], rows,
+                 "Design flow over the range of the uncertain inputs", ["l", "r", "r", "r"], css="band-factors",
+                 note=as_text(band.get("describe")))]
+    notes = [n for n in band.get("notes") or [] if isinstance(n, str)]
+    if notes:
+        out[0].note = (out[0].note + ". " if out[0].note else "") + "; ".join(notes)
+    return out

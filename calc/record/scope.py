@@ -1,0 +1,77 @@
+"""The record's opening sections: what the calculation covers, and the assumptions it rests on."""
+
+from __future__ import annotations
+
+from calc.model.elements import Pump, Turbine
+from calc.record.context import Context
+from calc.record.parts import Assumption
+from calc.record.text import shown
+
+
+def scope(c: Context) -> list[str]:
+    els = c.line.elements
+    counts = []
+    for kind, word in (("pipe", "pipe run"), ("valve", "valve"), ("pump", "pump"), ("turbine", "turbine")):
+        n = sum(1 for e in els if e.kind == kind)
+        if n:
+            counts.append(f"{n} {word}{'s' if n > 1 else ''}")
+    length = sum(e.L for e in c.line.runs)
+    liquid = c.liquid.name + (f" at {c.liquid.T - 273.15:.4g} °C" if c.liquid.T else "")
+    out = [
+        f"Steady flow of {liquid} in a series line of {', '.join(counts)} "
+        f"({shown(length, 'length', c.system)} of pipe in all), from "
+        f"{c.node_words(c.line.start, 'start')} to {c.node_words(c.line.end, 'end')}.",
+        "The record finds every operating point of the line with its machines, works the design point "
+        "step by step, traces the energy and hydraulic grade lines along the chainage, and reports "
+        "the checks made on the result.",
+        "Not covered: transient pressures (surge, water hammer) beyond any surge finding shown; "
+        "structural design of pipes, anchors, thrust blocks and supports; machine selection and "
+        "mechanical, electrical and control design.",
+    ]
+    return out
+
+
+def assumptions(c: Context) -> list[Assumption]:
+    m = c.method
+    if c.line.method == "colebrook":
+        why = ("Colebrook's equation is the basis of the Moody chart and holds for turbulent flow in "
+               "commercial pipe; it is solved here to machine precision rather than approximated.")
+    else:
+        why = (f"{m.name}'s explicit form was chosen on the sheet (for comparison); it departs slightly "
+               "from Colebrook's equation, which is the usual reference.")
+    liquid = c.liquid
+    if liquid.source == "given by the user":
+        props = (f"Liquid properties ({liquid.name}) as given on the sheet, constant along the line.")
+    else:
+        props = (f"Water properties at {liquid.T - 273.15:.4g} °C from the IAPWS formulations {c.ref_liquid}, "
+                 "taken at atmospheric pressure and constant along the line (the effect of pressure on "
+                 "density and viscosity is far below the uncertainty of the roughness).")
+    out = [
+        Assumption("Steady, incompressible, isothermal flow; every pipe runs full (no free surface, "
+                   "no trapped air) and the water levels and pressures at the ends stay as given."),
+        Assumption(f"Friction loss by the Darcy-Weisbach equation {c.ref_darcy}, the friction "
+                   f"factor by {m.name} {c.ref_method}: {why} Laminar flow (Re below 2000) uses "
+                   "64/Re; between Re 2000 and 4000 the factor is blended and flagged as uncertain."),
+        Assumption(props),
+        Assumption(f"Standard gravity g = 9.80665 m/s² {c.ref_g}."),
+        Assumption("Roughness from the material table (new pipe, or aged where a run says so) unless typed; "
+                   "pipe roughens with age and deposits, which raises the losses.", verify=True),
+        Assumption("Fitting losses as loss coefficients K on the velocity head of the run they sit on. "
+                   "On the grade lines, entrance losses fall at the start of a run, exit losses at its end, "
+                   "and all other losses are spread evenly along it."),
+        Assumption("Pressures are gauge, relative to the site's atmospheric pressure, unless marked absolute."),
+    ]
+    if any(isinstance(e, Pump) and e.mode == "curve" for e in c.line.elements):
+        out.append(Assumption("Pump curves are quadratics fitted through the typed points; beyond the "
+                              "typed flows the curve is extrapolated and flagged.", verify=True))
+    if any(isinstance(e, Pump) and e.speed_ratio != 1.0 for e in c.line.elements):
+        out.append(Assumption("A pump at another speed follows the affinity laws: Q in proportion to "
+                              "speed, head to its square.", verify=True))
+    if any(isinstance(e, Turbine) for e in c.line.elements):
+        out.append(Assumption("Turbine efficiency is taken constant at the typed value over the flows "
+                              "considered; a real machine's efficiency falls away from its best point.",
+                              verify=True))
+    if any(e.kind == "jet" for e in (c.line.start, c.line.end)):
+        out.append(Assumption("The free jet leaves at atmospheric pressure with the velocity of its "
+                              "nozzle (or of the last run when no nozzle is given)."))
+    return out

@@ -1,0 +1,90 @@
+"""What the record cites: the references in order of first use, the fixed citations, the disclaimer and cautions."""
+
+from __future__ import annotations
+
+import re
+
+from calc import tables
+from calc.record.parts import Reference
+from calc.record.text import split_detail
+
+DISCLAIMER = ("This record is the output of a design aid. It does not replace review, design and approval "
+              "under the codes and standards that apply where the works are built, by a licensed or "
+              "chartered professional engineer competent in the field.")
+
+#: Cautions printed on every record, where steady-state hydraulics stops and harm can start; each is
+#: left out when a finding of the checks (by code) already says it for this line.
+CAUTIONS = (
+    (("general-surge",), "Steady flow only. Closing a valve, a pump trip or a turbine load rejection raises "
+     "pressure surges (water hammer) that can burst a line or collapse it by vacuum; they are not covered by "
+     "this calculation beyond the surge findings shown, and a final design needs a transient analysis."),
+    (("general-ratings", "general-anchorage"), "Pipe, joint and fitting pressure ratings, thrust restraint and "
+     "anchorage, supports, air valves and drains, and the structural design of the line need their own checks."),
+    ((), "Where the hydraulic grade line comes near or below the pipe, the line runs under vacuum: air is drawn "
+     "in at joints and air valves, the water column can separate, and plastic pipe can collapse."),
+    (("general-confined-space",), "Water under pressure is dangerous: fill, flush and test lines slowly, keep "
+     "people clear of pressure tests, and isolate and drain before work on a line or a machine."),
+    ((), "Roughness, fitting losses and machine curves are typical published or typed values; pipe ages and "
+     "fouls, and machines wear. Check the margins against the supplier's data."),
+)
+
+GRAVITY_REF = ("Standard acceleration of gravity g = 9.80665 m/s², conventional value adopted by the "
+               "3rd General Conference on Weights and Measures (CGPM, 1901); ISO 80000-3:2019.")
+HOOPER_REF = ("Hooper, W. B. (1981). The two-K method predicts head losses in pipe fittings. "
+              "Chemical Engineering 88(17): 96-100.")
+DARBY_REF = ("Darby, R. (2001). Chemical Engineering Fluid Mechanics, 2nd edition. Marcel Dekker, "
+             "New York: 3-K method for valves and fittings.")
+DARCY_REF = ("Darcy-Weisbach equation for friction loss in full pipe flow, h_f = f (L/D) V²/2g, as in "
+             "Moody, L. F. (1944). Friction factors for pipe flow. Transactions of the ASME 66(8): 671-684.")
+JOUKOWSKY_REF = ("Joukowsky, N. (1898, translated 1904). On the hydraulic hammer in water supply pipes. "
+                 "Proceedings of the American Water Works Association 24: 341-424 (from memory).")
+KORTEWEG_REF = ("Korteweg, D. J. (1878). Über die Fortpflanzungsgeschwindigkeit des Schalles in elastischen "
+                "Röhren. Annalen der Physik 241(12): 525-542 (from memory); wave speed as in Wylie, E. B. "
+                "and Streeter, V. L. (1993). Fluid Transients in Systems. Prentice Hall.")
+
+
+class References:
+    """Numbered references in order of first use; a citation cited twice keeps its number."""
+
+    def __init__(self):
+        self._by_text: dict[str, Reference] = {}
+
+    def cite(self, citation: str, used_for: str = "") -> str:
+        citation = citation.strip()
+        if not citation:
+            return ""
+        ref = self._by_text.get(citation)
+        if ref is None:
+            ref = self._by_text[citation] = Reference(len(self._by_text) + 1, citation)
+        if used_for and used_for not in ref.used_for:
+            ref.used_for.append(used_for)
+        return f"[{ref.number}]"
+
+    def cite_source(self, source: str, used_for: str = "") -> tuple[str, str]:
+        """Cite a table's source string ('citation [detail]', several joined by '; '); returns (refs, detail)."""
+        citation, detail = split_detail(source)
+        parts = [p for p in re.split(r"(?<=\.);\s+", citation) if p.strip()]
+        return "".join(self.cite(p, used_for) for p in parts), detail
+
+    @property
+    def items(self) -> list[Reference]:
+        return sorted(self._by_text.values(), key=lambda r: r.number)
+
+
+def method_citation(model: str) -> str:
+    """The citation of the 2-K or 3-K method: as the fitting table gives it, so one source keeps one number."""
+    for ft in tables.fittings():
+        if ft.model == model:
+            return split_detail(ft.source)[0]
+    return HOOPER_REF if model == "2k" else DARBY_REF
+
+
+def looks_published(source: str) -> bool:
+    """Whether a finding's source names a publication (a year or a standard), not a rule of thumb.
+
+    >>> looks_published("Chaudhry, Applied Hydraulic Transients (2014), from memory"), looks_published("steady grade line")
+    (True, False)
+    """
+    if not source or source.lower().startswith("common practice"):
+        return False
+    return bool(re.search(r"\b(1[89]\d\d|20\d\d)\b|\b(ISO|EN|ANSI|AWWA|ASME|IAPWS|BS|DIN)\b", source))

@@ -1,0 +1,242 @@
+"""The record's worked steps: each equation with the design point's numbers substituted, element by element."""
+
+from __future__ import annotations
+
+import math
+
+from calc import friction, tables
+from calc.model.elements import PipeRun, Pump, Turbine, Valve
+from calc.record.context import Context
+from calc.record.parts import Step, StepGroup
+from calc.record.text import num, paren, shown, si, sub
+from calc.water import G
+
+
+def steps_point(c: Context) -> str:
+    if c.design is None:
+        return ""
+    return shown(c.design["Q"], "flow", c.system)
+
+
+def steps(c: Context) -> list[StepGroup]:
+    lq = c.liquid
+    g_ref = c.ref_g
+    nu = lq.mu / lq.rho
+    groups = [StepGroup("Liquid", "liquid", [
+        Step("ρ", "density", "ρ", "", num(lq.rho), "kg/m³", lq.rho, c.ref_liquid),
+        Step("μ", "dynamic viscosity", "μ", "", num(lq.mu), "Pa·s", lq.mu, c.ref_liquid),
+        Step("ν", "kinematic viscosity", "ν = μ/ρ", f"= {sub(lq.mu)} / {sub(lq.rho)}", num(nu), "m²/s", nu),
+        Step("g", "gravity", "g", "", "9.80665", "m/s²", G, g_ref),
+    ])]
+    p = c.design
+    if p is None:
+        return groups
+    Q = p["Q"]
+    rho = lq.rho
+    groups.append(_node_steps(c, "start", c.line.start, Q, p["head_start"]))
+    for el, d in zip(c.line.elements, p["elements"]):
+        title = f"Element {d['index'] + 1}: {el.kind} «{el.label}»" if el.label else f"Element {d['index'] + 1}: {el.kind}"
+        if isinstance(el, PipeRun):
+            groups.append(_pipe_steps(c, title, el, d, Q, nu))
+        elif isinstance(el, Valve):
+            groups.append(_valve_steps(c, title, el, d, Q))
+        elif isinstance(el, Turbine):
+            groups.append(_turbine_steps(c, title, el, d, Q, rho))
+        elif isinstance(el, Pump):
+            groups.append(_pump_steps(c, title, el, d, Q, rho))
+    groups.append(_node_steps(c, "end", c.line.end, Q, p["head_end"]))
+    total = sum(d["head_change"] for d in p["elements"])
+    E = p["head_start"] - p["head_end"] - total
+    groups.append(StepGroup("Energy balance at the operating point", "balance", [
+        Step("Σh", "head taken by all elements", "Σ hᵢ",
+             "= " + " + ".join(paren(d["head_change"]) for d in p["elements"]), num(total), "m", total),
+        Step("E", "energy balance residual", "E = H_start - H_end - Σ hᵢ",
+             f"= {sub(p['head_start'])} - {sub(p['head_end'])} - {paren(total)}", num(E, 3), "m", E),
+    ], ["A residual this small (round-off against heads of this size) confirms the operating point."]))
+    return groups
+
+
+def _node_steps(c: Context, which: str, node, Q: float, H: float) -> StepGroup:
+    rho = c.liquid.rho
+    title = "Start of the line" if which == "start" else "End of the line"
+    sym = "H_start" if which == "start" else "H_end"
+    steps = []
+    if node.kind == "reservoir":
+        if node.pressure:
+            steps.append(Step(sym, "total head at the water surface", "H = z + p/(ρ g)",
+                              f"= {sub(node.elevation)} + {paren(node.pressure)} / ({sub(rho)} × 9.80665)",
+                              num(H), "m", H))
+        else:
+            steps.append(Step(sym, "total head at the water surface", "H = z", f"= {sub(node.elevation)}",
+                              num(H), "m", H))
+    else:
+        hv = node.velocity_head(Q)
+        D = node.nozzle_diameter if (node.kind == "jet" and node.nozzle_diameter) else node.D_adjacent
+        A = math.pi * D * D / 4.0
+        V = Q / A
+        steps.append(Step("V", "velocity " + ("of the jet" if node.kind == "jet" else "at the end point"),
+                          "V = Q / (π D²/4)", f"= {sub(Q)} / (π × {sub(D)}² / 4)", num(V), "m/s", V))
+        if node.kind == "jet":
+            steps.append(Step(sym, "total head of the jet", "H = z + V²/(2 g)",
+                              f"= {sub(node.elevation)} + {sub(V)}² / (2 × 9.80665)", num(H), "m", H))
+        else:
+            steps.append(Step(sym, "total head at the point", "H = z + p/(ρ g) + V²/(2 g)",
+                              f"= {sub(node.elevation)} + {paren(node.pressure)} / ({sub(rho)} × 9.80665) + "
+                              f"{sub(V)}² / (2 × 9.80665)", num(H), "m", H))
+        del hv
+    return StepGroup(title, which, steps)
+
+
+def _friction_steps(c: Context, d: dict, Re: float, eD: float) -> list[Step]:
+    f = d["f"]
+    ref = c.ref_method
+    method = c.line.method
+    if d["regime"] == "laminar" and method != "churchill_1977":
+        return [Step("f", "friction factor (laminar)", "f = 64/Re", f"= 64 / {sub(Re)}", num(f), "–", f)]
+    if d["regime"] == "transitional" and method != "churchill_1977":
+        ft = d["f_bounds"][1]
+        w = (Re - friction.RE_LAMINAR) / (friction.RE_TURBULENT - friction.RE_LAMINAR)
+        return [
+            Step("f_t", f"turbulent factor ({c.method.name})", c.friction_equation(), "at this Re and ε/D",
+                 num(ft), "–", ft, ref),
+            Step("w", "blend weight", "w = (Re - 2000)/2000", f"= ({sub(Re)} - 2000) / 2000", num(w), "–", w),
+            Step("f", "friction factor (transition, uncertain)", "f = (1 - w) 64/Re + w f_t",
+                 f"= (1 - {sub(w)}) × 64/{sub(Re)} + {sub(w)} × {sub(ft)}", num(f), "–", f),
+        ]
+    if method == "colebrook":
+        lhs = 1.0 / math.sqrt(f)
+        rhs = -2.0 * math.log10(eD / 3.7 + 2.51 / (Re * math.sqrt(f)))
+        return [
+            Step("f", "friction factor (Colebrook, solved)", "1/√f = -2 log₁₀( (ε/D)/3.7 + 2.51/(Re √f) )",
+                 f"1/√f = -2 log₁₀( {sub(eD)}/3.7 + 2.51/({sub(Re)} √f) )", num(f), "–", f, ref,
+                 also=f"check at this f: 1/√{sub(f)} = {si(lhs)}; right side = {si(rhs)}"),
+        ]
+    if method == "swamee_jain_1976":
+        s = f"= 0.25 / [log₁₀({sub(eD)}/3.7 + 5.74/{sub(Re)}^0.9)]²"
+    elif method == "haaland_1983":
+        s = f"1/√f = -1.8 log₁₀[({sub(eD)}/3.7)^1.11 + 6.9/{sub(Re)}]"
+    elif method == "churchill_1977":
+        s = f"with Re = {sub(Re)}, ε/D = {sub(eD)}"
+    else:
+        s = f"with Re = {sub(Re)}, ε/D = {sub(eD)}"
+    return [Step("f", f"friction factor ({c.method.name})", c.friction_equation(), s, num(f), "–", f, ref)]
+
+
+def _pipe_steps(c: Context, title: str, el: PipeRun, d: dict, Q: float, nu: float) -> StepGroup:
+    D, L, A, V, hv, Re, eD = el.D, el.L, d["A"], d["V"], d["velocity_head"], d["Re"], d["eD"]
+    steps = [
+        Step("A", "flow area", "A = π D²/4", f"= π × {sub(D)}² / 4", num(A), "m²", A),
+        Step("V", "mean velocity", "V = Q/A", f"= {sub(Q)} / {sub(A)}", num(V), "m/s", V),
+        Step("h_v", "velocity head", "h_v = V²/(2 g)", f"= {sub(V)}² / (2 × 9.80665)", num(hv), "m", hv),
+        Step("Re", "Reynolds number", "Re = V D / ν", f"= {sub(V)} × {sub(D)} / {sub(nu)}", num(Re), "–", Re),
+        Step("ε/D", "relative roughness", "ε/D", f"= {sub(el.eps)} / {sub(D)}", num(eD), "–", eD),
+    ]
+    steps += _friction_steps(c, d, Re, eD)
+    steps.append(Step("h_f", "friction loss", "h_f = f (L/D) h_v",
+                      f"= {sub(d['f'])} × ({sub(L)} / {sub(D)}) × {sub(hv)}", num(d["h_friction"]), "m",
+                      d["h_friction"], c.ref_darcy))
+    for ft, x in zip(el.fittings, d["fittings"]):
+        name = ft.name
+        if ft.model == "2k":
+            K1, Kinf = ft.params["K1"], ft.params["Kinf"]
+            D_in = D / tables.INCH
+            steps.append(Step("K", f"{name} (2-K)", "K = K₁/Re + K∞ (1 + 1/D_in)",
+                              f"= {sub(K1)}/{sub(Re)} + {sub(Kinf)} × (1 + 1/{sub(D_in)})", num(x["K"]), "–",
+                              x["K"], c.fitting_ref(ft)[0]))
+        elif ft.model == "3k":
+            K1, Ki, Kd = ft.params["K1"], ft.params["Ki"], ft.params["Kd"]
+            Dn = tables.darby_nominal_size(D) / tables.INCH
+            steps.append(Step("K", f"{name} (3-K)", "K = K₁/Re + K_i (1 + K_d/D_n^0.3)",
+                              f"= {sub(K1)}/{sub(Re)} + {sub(Ki)} × (1 + {sub(Kd)}/{sub(Dn)}^0.3)", num(x["K"]), "–",
+                              x["K"], c.fitting_ref(ft)[0]))
+        steps.append(Step("h_m", f"{name}" + (f" × {ft.count}" if ft.count > 1 else ""), "h_m = n K h_v",
+                          f"= {ft.count} × {sub(x['K'])} × {sub(hv)}", num(x["h"]), "m", x["h"],
+                          c.fitting_ref(ft)[0] if ft.model == "k" else ""))
+    total = d["head_change"]
+    parts = [d["h_friction"]] + [x["h"] for x in d["fittings"]]
+    steps.append(Step("h", "head taken by the run", "h = h_f + Σ h_m",
+                      "= " + " + ".join(sub(v) for v in parts), num(total), "m", total))
+    notes = []
+    if d.get("friction_note"):
+        notes.append(d["friction_note"])
+    return StepGroup(title, "pipe", steps, notes)
+
+
+def _valve_steps(c: Context, title: str, el: Valve, d: dict, Q: float) -> StepGroup:
+    A = math.pi * el.D ** 2 / 4
+    return StepGroup(title, "valve", [
+        Step("V", "velocity in the valve bore", "V = Q / (π D²/4)", f"= {sub(Q)} / (π × {sub(el.D)}² / 4)",
+             num(d["V"]), "m/s", d["V"]),
+        Step("h_v", "velocity head", "h_v = V²/(2 g)", f"= {sub(d['V'])}² / (2 × 9.80665)",
+             num(d["velocity_head"]), "m", d["velocity_head"]),
+        Step("h", "head taken by the valve", "h = K h_v", f"= {sub(el.K)} × {sub(d['velocity_head'])}",
+             num(d["h"]), "m", d["h"]),
+    ], [f"Bore {sub(A)} m² ({el.D_source})."])
+
+
+def _turbine_steps(c: Context, title: str, el: Turbine, d: dict, Q: float, rho: float) -> StepGroup:
+    H = d["head"]
+    steps = []
+    if el.mode == "power":
+        steps.append(Step("H_t", "head taken at the set power", "H_t = P/(η ρ g Q)",
+                          f"= {sub(el.power)} / ({sub(el.efficiency)} × {sub(rho)} × 9.80665 × {sub(Q)})",
+                          num(H), "m", H))
+    elif el.mode == "head":
+        steps.append(Step("H_t", "head taken (typed)", "H_t", "", num(H), "m", H))
+    else:
+        a, b, c = el.curve.coeffs
+        steps.append(Step("H_t", "head from the fitted curve", "H_t = a Q² + b Q + c",
+                          f"= {paren(a)} × {sub(Q)}² + {paren(b)} × {sub(Q)} + {paren(c)}", num(H), "m", H))
+    steps.append(Step("P_h", "hydraulic power", "P_h = ρ g Q H_t",
+                      f"= {sub(rho)} × 9.80665 × {sub(Q)} × {sub(H)}", num(d["power_hydraulic"]), "W",
+                      d["power_hydraulic"]))
+    steps.append(Step("P", "shaft power", "P = η P_h", f"= {sub(el.efficiency)} × {sub(d['power_hydraulic'])}",
+                      num(d["power_shaft"]), "W", d["power_shaft"]))
+    notes = []
+    m = next((m for m in c.sol.machines if m["index"] == d["index"]), None)
+    if m and m.get("Q_at_max"):
+        notes.append(f"The most shaft power the line can give this turbine is {shown(m['power_max'], 'power', c.system)} "
+                     f"at {shown(m['Q_at_max'], 'flow', c.system)} (head available "
+                     f"{shown(m['head_available_at_max'], 'head', c.system)}).")
+    if d.get("in_curve_range") is False:
+        notes.append("The flow lies outside the typed curve points: the curve is extrapolated.")
+    return StepGroup(title, "turbine", steps, notes)
+
+
+def _pump_steps(c: Context, title: str, el: Pump, d: dict, Q: float, rho: float) -> StepGroup:
+    H = d["head"]
+    steps = []
+    n = el.speed_ratio
+    if el.mode == "head":
+        steps.append(Step("H_p", "head added (typed)", "H_p", "", num(H), "m", H))
+    else:
+        a, b, c = el.curve.coeffs
+        q = Q / n
+        H1 = el.curve(q)
+        if n != 1.0:
+            steps.append(Step("Q₁", "flow at the curve's own speed", "Q₁ = Q/n", f"= {sub(Q)} / {sub(n)}",
+                              num(q), "m³/s", q))
+        steps.append(Step("H₁", "head from the fitted curve", "H₁ = a Q₁² + b Q₁ + c",
+                          f"= {paren(a)} × {sub(q)}² + {paren(b)} × {sub(q)} + {paren(c)}", num(H1), "m", H1))
+        if n != 1.0:
+            steps.append(Step("H_p", "head at this speed", "H_p = n² H₁", f"= {sub(n)}² × {sub(H1)}", num(H), "m", H))
+    steps.append(Step("P_h", "hydraulic power", "P_h = ρ g Q H_p", f"= {sub(rho)} × 9.80665 × {sub(Q)} × {sub(H)}",
+                      num(d["power_hydraulic"]), "W", d["power_hydraulic"]))
+    eta = d.get("efficiency")
+    if eta:
+        if el.efficiency_curve is not None:
+            a, b, c = el.efficiency_curve.coeffs
+            q = Q / n
+            steps.append(Step("η", "efficiency from the fitted curve", "η = a Q₁² + b Q₁ + c",
+                              f"= {paren(a)} × {sub(q)}² + {paren(b)} × {sub(q)} + {paren(c)}", num(eta), "–", eta))
+        steps.append(Step("P", "shaft power", "P = P_h/η", f"= {sub(d['power_hydraulic'])} / {sub(eta)}",
+                          num(d["power_shaft"]), "W", d["power_shaft"]))
+    if d.get("npsh_required") is not None:
+        steps.append(Step("NPSH_r", "NPSH required (fitted curve)", "NPSH_r = n² NPSH₁(Q/n)", "",
+                          num(d["npsh_required"]), "m", d["npsh_required"]))
+    notes = []
+    if el.curve is not None:
+        notes.append(f"Largest gap between the typed points and the fitted curve: {num(el.curve.fit_residual())} m.")
+    if d.get("in_curve_range") is False:
+        notes.append("The flow lies outside the typed curve points: the curve is extrapolated.")
+    return StepGroup(title, "pump", steps, notes)

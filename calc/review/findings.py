@@ -1,0 +1,76 @@
+"""What a check reports (`Finding`), the severities in order, and the sources and limits the checks share."""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+
+from calc.model.elements import Line, PipeRun, Pump, Valve
+
+#: Severity order, worst first.
+SEVERITIES = ("error", "warning", "caution", "info")
+
+# Where each limit comes from, written once so that findings, the record and the docs agree; the
+# sources of the limits a user may set live beside those settings (calc.model.settings).
+SRC_AIR = "AWWA M51, Air-Valve Design Manual (air valves at high points), from memory"
+SRC_VAPOUR = "vapour pressure of the liquid (water: IAPWS-IF97 saturation equation)"
+SRC_KORTEWEG = ("Korteweg wave speed with restraint factor c1, as in Wylie and Streeter, Fluid Transients "
+                "in Systems (1993)")
+SRC_JOUKOWSKY = "Joukowsky, dH = a dV / g, for a stop faster than the pipeline period 2L/a (standard texts)"
+SRC_PENSTOCK = ("penstock losses commonly held to 5-10 % of gross head (common practice); Leon and Zhu "
+                "(2014, Renewable Energy 71:609) suggest at most about 15 %")
+SRC_MAX_POWER = ("largest power where line losses are about one third of gross head with a near-constant "
+                 "friction factor (standard textbook result); found here by search on the solved line")
+SRC_LAMINAR = "Hagen-Poiseuille f = 64/Re; laminar K values: Rennels and Hudson, Pipe Flow (2012)"
+SRC_TRANSITION = "no reliable correlation for 2000 < Re < 4000 (Moody 1944 'critical zone'), common practice"
+
+#: Loss of gross head in a penstock above which a caution / a warning is raised [-].
+PENSTOCK_LOSS_CAUTION = 0.10   # common practice (5-10 %)
+PENSTOCK_LOSS_WARNING = 0.15   # Leon and Zhu 2014
+#: Fraction of a run's rating at which a pressure is close enough to warn [-] (common practice).
+RATING_NEAR = 0.90
+#: Pressure heads within this of a limit count as on it [m]: a submerged exit or a free jet sits at
+#: exactly zero gauge, which rounding must not turn into a sub-atmospheric stretch.
+H_TOL = 1e-6
+
+
+@dataclass
+class Finding:
+    """One check's outcome, shaped for the results panel and the record.
+
+    ``value`` and ``limit`` are SI floats of the display ``quantity`` (velocity, head, pressure,
+    power, flow, length); ``quantity`` is None for plain numbers (ratios as fractions, times in s),
+    whose values the message states.
+    """
+
+    severity: str            # error | warning | caution | info
+    code: str                # stable short name of the check, e.g. "velocity-high"
+    title: str               # a few words
+    message: str             # one or two sentences in plain words
+    value: float | None = None
+    limit: float | None = None
+    quantity: str | None = None  # display quantity of value/limit (velocity, head, pressure...)
+    source: str = ""         # where the limit comes from, or 'common practice'
+    element: int | None = None
+    chainage: float | None = None
+
+    def to_dict(self) -> dict:
+        return asdict(self)
+
+
+def label(line: Line, index: int | None) -> str:
+    if index is None:
+        return "a node"
+    el = line.elements[index]
+    return el.label or f"element {index + 1}"
+
+
+def suction_runs(line: Line) -> set[int]:
+    """Indices of pipe runs (and valves) between the start or the previous machine and a pump."""
+    out: set[int] = set()
+    for i, el in enumerate(line.elements):
+        if isinstance(el, Pump):
+            j = i - 1
+            while j >= 0 and isinstance(line.elements[j], (PipeRun, Valve)):
+                out.add(j)
+                j -= 1
+    return out

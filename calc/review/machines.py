@@ -1,0 +1,187 @@
+"""Checks on the machines: pump NPSH and best-efficiency range, turbine net head, losses and maximum power."""
+
+from __future__ import annotations
+
+import math
+
+from calc.model.elements import Line, Pump
+from calc.model.settings import SRC_BEP, SRC_NPSH, SRC_PRACTICE, CheckSettings
+from calc.review.findings import (
+    PENSTOCK_LOSS_CAUTION,
+    PENSTOCK_LOSS_WARNING,
+    SRC_MAX_POWER,
+    SRC_PENSTOCK,
+    Finding,
+    label,
+)
+from calc.steady.series import Solution
+from calc.water import G
+
+
+def npsh_available(p_inlet_abs: float, V_inlet: float, p_vap: float, rho: float) -> float:
+    """NPSH available at a pump inlet, NPSHa = (p_abs - p_vap) / (rho g) + V^2 / 2g [m].
+
+    Parameters: p_inlet_abs absolute pressure at the inlet on the pump's datum [Pa], V_inlet mean
+    velocity there [m/s], p_vap vapour pressure [Pa abs], rho density [kg/m3].
+    Reference: ANSI/HI 9.6.1 definition; any pump text.
+
+    >>> round(npsh_available(101325.0, 0.0, 2339.0, 998.2), 2)
+    10.11
+    """
+    return (p_inlet_abs - p_vap) / (rho * G) + V_inlet * V_inlet / (2 * G)
+
+
+def npsh_available_suction(p_surface_abs: float, p_vap: float, rho: float, z_static: float,
+                           h_loss: float) -> float:
+    """NPSHa from the suction side, (p_surface - p_vap)/(rho g) + z_static - h_loss [m].
+
+    z_static is the height of the liquid surface above the pump datum [m] (negative for a lift),
+    h_loss the suction line's losses at the operating flow [m]. Same as `npsh_available` taken
+    through the energy equation. Open sump at sea level, 20 degC, 3 m lift, 0.5 m loss: 6.61 m.
+
+    >>> round(npsh_available_suction(101325.0, 2339.3, 998.207, -3.0, 0.5), 2)
+    6.61
+    """
+    return (p_surface_abs - p_vap) / (rho * G) + z_static - h_loss
+
+
+def npsh_margin_needed(npshr: float, ratio: float, extra: float) -> float:
+    """NPSH available needed for a margin: max(ratio * NPSHR, NPSHR + extra) [m].
+
+    >>> npsh_margin_needed(4.0, 1.1, 0.6), npsh_margin_needed(8.0, 1.1, 0.6)
+    (4.6, 8.8)
+    """
+    return max(ratio * npshr, npshr + extra)
+
+
+def _machine_stations(point: dict, i: int) -> tuple[dict, dict] | None:
+    st = [s for s in point["profile"] if s["element"] == i]
+    return (st[0], st[-1]) if len(st) >= 2 else None
+
+
+def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
+    out = []
+    rho, p_atm, p_vap = line.liquid.rho, line.p_atm, line.liquid.p_vap
+    rg = rho * G
+    Q = point["Q"]
+    for d in point["elements"]:
+        if d["kind"] != "pump":
+            continue
+        i = d["index"]
+        pump: Pump = line.elements[i]
+        name = label(line, i)
+        stations = _machine_stations(point, i)
+        eta = d["efficiency"]
+        P = d["power_shaft"]
+        msg = (f"At {Q * 1e3:.2f} L/s the pump adds {d['head']:.2f} m; hydraulic power "
+               f"{d['power_hydraulic'] / 1e3:.2f} kW")
+        msg += (f", efficiency {eta:.3f}, shaft power {P / 1e3:.2f} kW." if eta and P else
+                "; no efficiency given, so no shaft power.")
+        out.append(Finding("info", "pump-duty", f"{name}: duty point", msg, P if P else d["power_hydraulic"],
+                           None, "power", "pump curve as typed, fitted by least squares", i))
+        if d.get("in_curve_range") is False:
+            lo, hi = d["curve_range"]
+            out.append(Finding(
+                "warning", "pump-outside-curve", f"{name}: outside the typed curve",
+                f"The duty flow {Q * 1e3:.2f} L/s lies outside the typed curve points ({lo * 1e3:.2f} to "
+                f"{hi * 1e3:.2f} L/s): head, efficiency and NPSH required are extrapolated.",
+                Q, hi if Q > hi else lo, "flow", "pump curve as typed", i))
+        if stations is not None:
+            inlet = stations[0]
+            V2g = inlet["egl"] - inlet["hgl"]
+            p_abs = p_atm + rg * inlet["pressure_head"]
+            npsha = npsh_available(p_abs, math.sqrt(max(2 * G * V2g, 0.0)), p_vap, rho)
+            npshr = d.get("npsh_required")
+            basis = (f"NPSH available {npsha:.2f} m at the pump inlet (elevation {inlet['elevation']:.2f} m, "
+                     f"absolute pressure {p_abs / 1e3:.1f} kPa, vapour pressure {p_vap / 1e3:.2f} kPa)")
+            if npshr is None:
+                out.append(Finding("caution", "pump-npsh-unknown", f"{name}: NPSH required not given",
+                                   basis + ": give the maker's NPSH required (NPSH3) on the curve points to "
+                                   "check it.", npsha, None, "head", SRC_NPSH, i, inlet["chainage"]))
+            else:
+                need = npsh_margin_needed(npshr, s.npsh_margin_ratio, s.npsh_margin_min)
+                margin = (f"the margin asked for is NPSHA at least {s.npsh_margin_ratio:g} x NPSHR or NPSHR + "
+                          f"{s.npsh_margin_min:g} m, whichever is greater: {need:.2f} m")
+                src = ("set on the sheet" if {"npsh_margin_ratio", "npsh_margin_min"} & set(s.given)
+                       else SRC_NPSH)
+                if npsha < npshr:
+                    out.append(Finding("error", "pump-npsh", f"{name}: cavitation",
+                                       f"{basis} is less than the NPSH required {npshr:.2f} m: the pump cavitates "
+                                       "and its head falls off. Lower the pump, shorten or enlarge the suction line, "
+                                       "or choose a pump with less NPSH required.", npsha, npshr, "head", src, i,
+                                       inlet["chainage"]))
+                elif npsha < need:
+                    out.append(Finding("warning", "pump-npsh", f"{name}: NPSH margin small",
+                                       f"{basis} against NPSH required {npshr:.2f} m; {margin}.", npsha, need,
+                                       "head", src, i, inlet["chainage"]))
+                else:
+                    out.append(Finding("info", "pump-npsh", f"{name}: NPSH margin",
+                                       f"{basis} against NPSH required {npshr:.2f} m; {margin}.", npsha, need,
+                                       "head", src, i, inlet["chainage"]))
+        Q_bep = pump.best_efficiency_flow() if pump.mode == "curve" else None
+        if Q_bep is None or Q_bep <= 0:
+            out.append(Finding("info", "pump-bep-unknown", f"{name}: best-efficiency flow unknown",
+                               "Give efficiencies at three or more curve points (rising then falling) to check "
+                               "the duty against the best-efficiency flow.", None, None, None, SRC_BEP, i))
+        else:
+            r = Q / Q_bep
+            lo, hi = s.bep_low, s.bep_high
+            src = s.source("bep_low")
+            text = (f"The duty flow is {r * 100:.0f} % of the best-efficiency flow {Q_bep * 1e3:.2f} L/s "
+                    f"(preferred range {lo * 100:.0f}-{hi * 100:.0f} %)")
+            if r < lo or r > hi:
+                out.append(Finding("warning", "pump-bep", f"{name}: away from best efficiency",
+                                   text + ": expect more vibration, recirculation and wear, and less efficiency.",
+                                   Q, Q_bep * (lo if r < lo else hi), "flow", src, i))
+            else:
+                out.append(Finding("info", "pump-bep", f"{name}: near best efficiency", text + ".",
+                                   Q, Q_bep, "flow", src, i))
+    return out
+
+
+def turbine_findings(line: Line, solution: Solution, point: dict) -> list[Finding]:
+    out = []
+    gross = solution.static_head
+    machine_heads = sum(d["head_change"] for d in point["elements"] if d["kind"] in ("pump", "turbine"))
+    Q = point["Q"]
+    for d in point["elements"]:
+        if d["kind"] != "turbine":
+            continue
+        i = d["index"]
+        name = label(line, i)
+        H = d["head"]
+        out.append(Finding(
+            "info", "turbine-duty", f"{name}: design point",
+            f"At {Q * 1e3:.2f} L/s: net head {H:.2f} m of {gross:.2f} m gross, hydraulic power "
+            f"{d['power_hydraulic'] / 1e3:.2f} kW, shaft power {d['power_shaft'] / 1e3:.2f} kW "
+            f"(efficiency {d['efficiency']:.3f}).", d["power_shaft"], None, "power",
+            "P = eta rho g Q H (standard)", i))
+        if gross > 0:
+            loss = (gross - machine_heads) / gross
+            text = (f"The line loses {loss * 100:.1f} % of the gross head ({gross - machine_heads:.2f} m of "
+                    f"{gross:.2f} m) at the design point")
+            if loss > PENSTOCK_LOSS_WARNING:
+                sev, tail = "warning", ": more than about 15 %, which wastes water; a larger bore pays back."
+            elif loss > PENSTOCK_LOSS_CAUTION:
+                sev, tail = "caution", ": above the 5-10 % commonly aimed for."
+            else:
+                sev, tail = "info", ", within the 5-10 % commonly aimed for." if loss >= 0.05 else "."
+            out.append(Finding(sev, "turbine-head-loss", f"{name}: head lost in the line", text + tail,
+                               None, None, None, SRC_PENSTOCK, i))
+        m = next((m for m in solution.machines if m["index"] == i), None)
+        if m and m.get("Q_at_max"):
+            Pm, Qm = m["power_max"], m["Q_at_max"]
+            Hm = m["head_available_at_max"]
+            out.append(Finding(
+                "info", "turbine-max-power", f"{name}: most power the line can give",
+                f"The most shaft power this line can give the turbine is {Pm / 1e3:.2f} kW at {Qm * 1e3:.2f} L/s "
+                f"(net head {Hm:.2f} m, {100 * (1 - Hm / gross) if gross > 0 else float('nan'):.0f} % of gross "
+                f"head lost); the design point gives {100 * d['power_shaft'] / Pm:.0f} % of it with "
+                f"{100 * Q / Qm:.0f} % of the flow.", Pm, None, "power", SRC_MAX_POWER, i))
+        out.append(Finding(
+            "caution", "turbine-runaway", f"{name}: load rejection and runaway",
+            "If the generator loses its load the runner speeds toward runaway speed unless the governor or "
+            "deflector acts; closing the flow to stop it sends a surge up the penstock. Check the runaway speed "
+            "against the turbine's and generator's rating, the closure time against the pipeline period 2L/a, "
+            "and the overspeed protection.", None, None, None, SRC_PRACTICE, i))
+    return out

@@ -1,0 +1,112 @@
+"""Checks on pressure along the line: sub-atmospheric stretches, column separation, the lowest pressure."""
+
+from __future__ import annotations
+
+from calc.model.elements import Line, Pump, Turbine
+from calc.model.settings import SRC_PRACTICE
+from calc.review.findings import H_TOL, SRC_AIR, SRC_VAPOUR, Finding, label, suction_runs
+from calc.water import G
+
+
+def stretches_below(stations: list[dict], h_limit: float, inclusive: bool = False) -> list[dict]:
+    """Stretches of the line where the pressure head is below h_limit [m] (at or below if inclusive).
+
+    Each stretch is ``{"from": chainage, "to": chainage, "min": station}``. Between stations the HGL and the pipe centre are straight, so the pressure head is linear in
+    chainage: stretch ends are interpolated and each stretch's minimum lies at a station.
+    """
+    def below(h):
+        return h <= h_limit + H_TOL if inclusive else h < h_limit - H_TOL
+
+    def cross(a, b):
+        ha, hb = a["pressure_head"], b["pressure_head"]
+        if hb == ha or b["chainage"] == a["chainage"]:
+            return b["chainage"]
+        return a["chainage"] + (h_limit - ha) / (hb - ha) * (b["chainage"] - a["chainage"])
+
+    out: list[dict] = []
+    cur = None
+    prev = None
+    for s in stations:
+        if below(s["pressure_head"]):
+            if cur is None:
+                cur = {"from": cross(prev, s) if prev is not None else s["chainage"], "min": s, "to": None}
+            elif s["pressure_head"] < cur["min"]["pressure_head"]:
+                cur["min"] = s
+        elif cur is not None:
+            cur["to"] = cross(prev, s)
+            out.append(cur)
+            cur = None
+        prev = s
+    if cur is not None:
+        cur["to"] = prev["chainage"]
+        out.append(cur)
+    return out
+
+
+def pressure_findings(line: Line, point: dict) -> list[Finding]:
+    """Sub-atmospheric stretches, column separation and the lowest pressure along the line."""
+    stations = point["profile"]
+    if not stations:
+        return []
+    rho, p_atm, p_vap = line.liquid.rho, line.p_atm, line.liquid.p_vap
+    rg = rho * G
+    out = []
+    suction = suction_runs(line)
+    machine_out = set()  # ids of stations just downstream of a turbine: the draft tube's domain
+    for k in range(1, len(stations)):
+        e = stations[k]["element"]
+        if e is not None and isinstance(line.elements[e], Turbine) and stations[k - 1]["element"] == e:
+            machine_out.add(id(stations[k]))
+
+    def where(s):
+        e = s["element"]
+        return f"at chainage {s['chainage']:.1f} m" + (f" ({label(line, e)})" if e is not None else "")
+
+    # Column separation first: the steady answer does not hold there.
+    h_vap = (p_vap - p_atm) / rg
+    for st in stretches_below(stations, h_vap, inclusive=True):
+        m = st["min"]
+        p_abs = p_atm + rg * m["pressure_head"]
+        out.append(Finding(
+            "error", "pressure-vapour", "Pressure falls to vapour pressure",
+            f"From chainage {st['from']:.1f} m to {st['to']:.1f} m the computed absolute pressure is at or below "
+            f"the vapour pressure ({p_vap / 1e3:.2f} kPa); lowest {p_abs / 1e3:.1f} kPa absolute {where(m)}. "
+            "The water column separates there, so the flow and pressures computed are not valid: lower the "
+            "line, raise the hydraulic grade line (less loss upstream, higher start) or add a break tank.",
+            rg * m["pressure_head"], p_vap - p_atm, "pressure", SRC_VAPOUR, m["element"], m["chainage"]))
+    for st in stretches_below(stations, 0.0):
+        m = st["min"]
+        e = m["element"]
+        p_g = rg * m["pressure_head"]
+        if id(m) in machine_out:
+            out.append(Finding(
+                "caution", "pressure-turbine-outlet", f"{label(line, e)}: outlet below atmospheric",
+                f"The pressure head at the turbine outlet is {m['pressure_head']:.2f} m ({p_g / 1e3:.1f} kPa gauge): "
+                "a draft tube under suction. Check the turbine setting against the maker's cavitation limit.",
+                p_g, 0.0, "pressure", "turbine maker's setting (cavitation coefficient)", e, m["chainage"]))
+            continue
+        in_suction = e is not None and (e in suction or isinstance(line.elements[e], Pump))
+        if in_suction:
+            out.append(Finding(
+                "caution", "pressure-suction-vacuum", f"{label(line, e)}: suction under vacuum",
+                f"Pressure below atmospheric from chainage {st['from']:.1f} m to {st['to']:.1f} m on the suction "
+                f"side, lowest {m['pressure_head']:.2f} m ({p_g / 1e3:.1f} kPa gauge) {where(m)}: joints and "
+                "glands must be tight or air is drawn in; see the NPSH check.",
+                p_g, 0.0, "pressure", SRC_PRACTICE, e, m["chainage"]))
+            continue
+        out.append(Finding(
+            "warning", "pressure-subatmospheric", "Pressure below atmospheric",
+            f"From chainage {st['from']:.1f} m to {st['to']:.1f} m the pipe lies above its hydraulic grade line; "
+            f"lowest {m['pressure_head']:.2f} m ({p_g / 1e3:.1f} kPa gauge) {where(m)}. Air comes out of solution "
+            "and is drawn in at joints and air valves there: fit air valves at the high points, keep the grade "
+            "line some metres above the crown, or lower the pipe.",
+            p_g, 0.0, "pressure", SRC_AIR, e, m["chainage"]))
+    low = min(stations, key=lambda s: s["pressure_head"])
+    h = low["pressure_head"]
+    out.append(Finding(
+        "info", "pressure-lowest", "Lowest pressure",
+        f"Lowest pressure {rg * h / 1e3:.1f} kPa gauge ({(p_atm + rg * h) / 1e3:.1f} kPa absolute, "
+        f"{h:.2f} m of head) {where(low)}. Pressures are computed at the run ends and profile points; between "
+        "them they vary linearly, so add profile points at every high point of the route.",
+        rg * h, None, "pressure", "steady grade line", low["element"], low["chainage"]))
+    return out

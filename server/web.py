@@ -1,0 +1,58 @@
+"""What the gate, the app and the pages share, kept below all of them: paths, cookie names, the one error shape."""
+
+from __future__ import annotations
+
+from fastapi.responses import HTMLResponse, JSONResponse
+from fastapi.templating import Jinja2Templates
+from starlette.requests import Request
+
+KEY_PATH = "/key"
+VIEW_PREFIX = "/view/"
+CSRF_FIELD = "csrf_token"
+#: Days an access cookie from the key page lasts.
+ACCESS_DAYS = 30
+#: Longest name kept for the history of edits [characters].
+MAX_AUTHOR = 100
+
+
+def cookie_name(kind: str, scope: dict) -> str:
+    """Cookie names carry the port: browsers share cookies between ports of one host, servers must not."""
+    server = scope.get("server") or ("", 0)
+    return f"hs_{kind}_{server[1] if server and len(server) > 1 else 0}"
+
+
+def is_api(path: str) -> bool:
+    return path.startswith("/api/") or path == "/api"
+
+
+def safe_next(text: str | None) -> str:
+    """A local path to return to after the key page, never another site."""
+    if not text or not text.startswith("/") or text.startswith(("//", "/\\")) or len(text) > 2000:
+        return "/"
+    if any(ord(c) < 33 for c in text):
+        return "/"
+    return text
+
+
+def clean_author(text: str) -> str:
+    """A name typed for the history: one line, no control characters, at most MAX_AUTHOR characters."""
+    return " ".join("".join(c for c in text if c.isprintable()).split())[:MAX_AUTHOR]
+
+
+def error_response(path: str, status: int, title: str, message: str, errors: list | None = None,
+                   scope: dict | None = None, request: Request | None = None, **extra):
+    """The one JSON error shape for the API, and the one error page for everything else."""
+    if is_api(path):
+        body = {"ok": False, "status": status, "title": title, "message": message, "errors": errors or []}
+        body.update(extra)
+        return JSONResponse(body, status_code=status)
+    templates: Jinja2Templates | None = None
+    app = (request.app if request is not None else (scope or {}).get("app"))
+    if app is not None:
+        templates = app.state.templates
+    if templates is None or request is None:
+        return HTMLResponse(f"<!doctype html><title>{title}</title><h1>{title}</h1><p>{message}</p>",
+                            status_code=status)
+    return templates.TemplateResponse(request, "error.html", {"status": status, "title": title,
+                                                              "message": message, "errors": errors or []},
+                                      status_code=status)
