@@ -52,6 +52,30 @@ SPEED = _kind("a velocity", "m/s", "2 m/s")
 RATIO = _kind("a plain number or percentage", "", "0.85 or 85 %")
 
 _NUMBER = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*?)\s*$")
+#: A power written as a bare digit after a unit, as engineers type it: m3/s, m3/h, kg/m3, ft3/s, mm2.
+_BARE_POWER = re.compile(r"(?<=[A-Za-z])([23])(?![\d.])")
+#: A comma inside the number: thousands separator (1,200) or decimal comma (0,2).
+_COMMA_NUMBER = re.compile(r"^\s*[+-]?\d+(?:,\d+)+(?:\.\d*)?\s*[^\d,]")
+_THOUSANDS = re.compile(r"^\s*[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?(?=\s*[^\d,.])")
+
+
+def unit_text(unit: str) -> str:
+    """A unit as typed, in pint's spelling: a bare 2 or 3 after a unit is a power (m3/h -> m^3/h).
+
+    >>> unit_text("m3/h"), unit_text("kg/m3"), unit_text("ft3/s"), unit_text("L/s")
+    ('m^3/h', 'kg/m^3', 'ft^3/s', 'L/s')
+    """
+    return _BARE_POWER.sub(r"^\1", unit)
+
+
+def _comma_message(text: str, kind: Kind) -> str:
+    """Why a number with a comma is refused: the decimal mark is a point; no thousands separator."""
+    m = re.match(r"^\s*([+-]?[\d,]+(?:\.\d*)?)", text)
+    typed = m.group(1) if m else text
+    as_point = typed.replace(",", ".") if typed.count(",") == 1 else None
+    hint = f" (write {as_point} for a decimal)" if as_point else ""
+    return (f"has a comma in its number '{typed}': the decimal mark is a point{hint}, and a comma is read only "
+            f"between groups of three digits (1,200); enter {kind.name}, e.g. {kind.example}")
 
 
 def parse_quantity(text: object, kind: Kind, path: str) -> float:
@@ -66,6 +90,8 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
     285.15
     >>> parse_quantity("85 %", RATIO, "turbine.efficiency")
     0.85
+    >>> parse_quantity("360 m3/h", FLOW, "q"), parse_quantity("1,200 m", LENGTH, "L"), parse_quantity("0.01 degC", TEMPERATURE, "T")
+    (0.1, 1200.0, 273.16)
     """
     if isinstance(text, bool):
         raise InputError(path, text, f"must be {kind.name}, e.g. {kind.example}")
@@ -80,7 +106,14 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
         raise InputError(path, text, f"is empty: enter {kind.name}, e.g. {kind.example}")
     if len(text) > 64:
         raise InputError(path, text[:64] + "…", "is too long for a value with its unit")
-    m = _NUMBER.match(text.replace("\u2212", "-"))
+    text_in = text
+    text = text.replace("\u2212", "-")
+    # 1,200 m is read as one thousand two hundred; 0,2 m could mean either, so it is refused with why.
+    if _THOUSANDS.match(text):
+        text = _THOUSANDS.sub(lambda t: t.group(0).replace(",", ""), text, count=1)
+    elif _COMMA_NUMBER.match(text) or re.match(r"^\s*[+-]?\d+,\d", text):
+        raise InputError(path, text_in, _comma_message(text, kind))
+    m = _NUMBER.match(text)
     if not m:
         raise InputError(path, text, f"must start with a number: {kind.name}, e.g. {kind.example}")
     number = float(m.group(1))
@@ -92,7 +125,7 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
             return number
         raise InputError(path, text, f"needs a unit: {kind.name}, e.g. {kind.example}")
     try:
-        q = Q_(number, unit)
+        q = Q_(number, unit_text(unit))
     except Exception:  # pint's parser raises assorted error types on garbage
         raise InputError(path, text, f"'{unit}' is not a unit we know: enter {kind.name}, e.g. {kind.example}") from None
     if q.dimensionality != kind.dimensionality:
@@ -100,6 +133,10 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
     value = float(q.to(kind.si).magnitude) if kind.si else float(q.to("dimensionless").magnitude)
     if not math.isfinite(value):
         raise InputError(path, text, "must be a finite number")
+    if kind is TEMPERATURE:
+        # The offset of degC and degF leaves round-off (0.01 degC -> 273.15999999999997 K, just below
+        # the triple point); no typed temperature carries 12 significant figures, so drop it.
+        value = float(f"{value:.12g}")
     return value
 
 

@@ -1,0 +1,47 @@
+"""Typed quantities as engineers write them: m3/h, kg/m3, 0.01 degC, 1,200 m; the decimal comma explained."""
+
+from __future__ import annotations
+
+import CoolProp.CoolProp as CP
+import pytest
+
+from calc.model.sheet import blank_sheet, parse
+from calc.units import DENSITY, FLOW, LENGTH, TEMPERATURE, InputError, parse_quantity
+
+
+@pytest.mark.parametrize("text,kind,si", [
+    # 1 h = 3600 s and 1 ft = 0.3048 m exactly (SI Brochure, 9th ed. 2019, Table 8; NIST SP 811, 2008, B.8).
+    ("360 m3/h", FLOW, 0.1),
+    ("1 m3/s", FLOW, 1.0),
+    ("2 ft3/s", FLOW, 2 * 0.3048 ** 3),
+    ("998 kg/m3", DENSITY, 998.0),
+    ("1 m³/s", FLOW, 1.0),
+    ("1,200 m", LENGTH, 1200.0),
+    ("12,500.5 m", LENGTH, 12500.5),
+    ("-1,000 m", LENGTH, -1000.0),
+])
+def test_units_as_engineers_type_them(text, kind, si):
+    assert parse_quantity(text, kind, "x") == pytest.approx(si, rel=1e-15)
+
+
+def test_triple_point_temperature_is_water():
+    # ITS-90 fixes the triple point of water at 273.16 K = 0.01 degC; CoolProp agrees (used as the reference).
+    assert parse_quantity("0.01 degC", TEMPERATURE, "T") == pytest.approx(CP.PropsSI("Ttriple", "Water"), abs=1e-9)
+    doc = blank_sheet()
+    doc["liquid"] = {"kind": "water", "temperature": "0.01 degC"}
+    parsed = parse(doc)
+    assert parsed.ok, parsed.errors
+
+
+@pytest.mark.parametrize("text,shown", [("0,2 m", "0.2"), ("1,25 m", "1.25"), ("3,5 mm", "3.5")])
+def test_decimal_comma_is_refused_with_the_reason(text, shown):
+    with pytest.raises(InputError) as e:
+        parse_quantity(text, LENGTH, "elements.0.length")
+    assert "decimal mark is a point" in e.value.message and shown in e.value.message
+    assert "not a unit we know" not in e.value.message
+
+
+def test_an_unknown_unit_is_still_refused():
+    with pytest.raises(InputError) as e:
+        parse_quantity("3 blorps/s", FLOW, "q")
+    assert "not a unit we know" in e.value.message
