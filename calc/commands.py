@@ -142,7 +142,10 @@ def cmd_head(args) -> int:
 
     doc, line = _load(args.file)
     Q = _flow(args.flow)
-    r = head_needed(line, Q)
+    try:
+        r = head_needed(line, Q)
+    except ValueError as e:
+        sys.exit(f"headsheet: --flow: {e}")
     system = line.header.get("units", "SI")
     if args.json:
         json.dump(r.to_dict(), sys.stdout, indent=2)
@@ -178,6 +181,8 @@ def cmd_size(args) -> int:
         return 1
     print(f"Smallest {args.standard} {args.klass} size passing {_u(Q, 'flow', system)}: {r.nominal} "
           f"(inner diameter {_u(r.ID, 'diameter', system)}), head to spare {_u(-r.shortfall, 'head', system)}")
+    if r.note:
+        print(f"  ({r.note})")
     return 0
 
 

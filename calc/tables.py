@@ -137,6 +137,7 @@ def _load_fittings() -> dict[str, FittingType]:
 
 def _load_sizes(name: str) -> tuple[str, dict[tuple[str, str], PipeSize], list[str], list[str]]:
     data = _read(name)
+    _SIZE_MATERIAL[data["standard"]] = data["material"]
     std = data["standard"]
     src = data["sources"]
     classes = data["classes"]
@@ -163,6 +164,8 @@ def _load_sizes(name: str) -> tuple[str, dict[tuple[str, str], PipeSize], list[s
 _PARAMS = {"k": ("K",), "2k": ("K1", "Kinf"), "3k": ("K1", "Ki", "Kd")}
 
 _MATERIALS = _load_materials()
+#: The material each size table's pipe is made of (its roughness, modulus and Poisson ratio).
+_SIZE_MATERIAL: dict[str, str] = {}
 _FITTINGS = _load_fittings()
 _SIZES: dict[str, tuple[str, dict[tuple[str, str], PipeSize], list[str], list[str]]] = {}
 for _file in ("sizes_asme_b36_10m.json", "sizes_pe_iso4427.json"):
@@ -235,6 +238,16 @@ def _standard(standard: str):
         return _SIZES[standard]
     except (KeyError, TypeError):
         raise _unknown("size standard", standard, _SIZES) from None
+
+
+def size_material(standard: str) -> Material:
+    """The material a size table's pipe is made of, e.g. commercial steel for ASME B36.10M.
+
+    >>> size_material("pe-iso4427").key
+    'pe100'
+    """
+    _standard(standard)
+    return material(_SIZE_MATERIAL[standard])
 
 
 def size_options(standard: str) -> tuple[list[str], list[str]]:
