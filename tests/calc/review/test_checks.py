@@ -519,7 +519,7 @@ def test_check_settings_defaults_and_units():
 def test_every_check_setting_is_documented_and_in_the_schema():
     from pathlib import Path
 
-    from calc.model.sheet import SCHEMA
+    from calc.model.schema import SCHEMA
     text = (Path(__file__).resolve().parents[3] / "docs" / "sheet-format.md").read_text()
     props = SCHEMA["properties"]["settings"]["properties"]["checks"]["properties"]
     names = [n for n in CheckSettings().to_dict()]
