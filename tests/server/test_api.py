@@ -9,6 +9,7 @@ import pytest
 from servertools import BrowserClient, demo_files
 
 from calc.model import sheet as calc_sheet
+from calc.model.schema import SCHEMA
 from server.app import create_app
 
 
@@ -160,7 +161,7 @@ def test_solve_reports_errors_by_path(client):
 
 
 def test_schema_and_openapi(client):
-    assert client.get("/api/schema").json() == calc_sheet.SCHEMA
+    assert client.get("/api/schema").json() == SCHEMA
     spec = client.get("/api/openapi.json").json()
     paths = set(spec["paths"])
     assert {"/api/sheets", "/api/sheets/{sheet_id}", "/api/sheets/{sheet_id}/revisions",
