@@ -161,7 +161,7 @@ def _load_sizes(name: str) -> tuple[str, dict[tuple[str, str], PipeSize], list[s
     return data["name"], table, nominals, list(classes)
 
 
-_PARAMS = {"k": ("K",), "2k": ("K1", "Kinf"), "3k": ("K1", "Ki", "Kd")}
+_PARAMS = {"k": ("K",), "2k": ("K1", "Kinf"), "3k": ("K1", "Ki", "Kd"), "cone": ("angle_deg",)}
 
 _MATERIALS = _load_materials()
 #: The material each size table's pipe is made of (its roughness, modulus and Poisson ratio).
@@ -447,7 +447,31 @@ def k_coefficients(model: str, params: Mapping, D: float) -> tuple[float, float]
     if model == "3k":
         Dn = darby_nominal_size(D)
         return float(params["K1"]), float(params["Ki"]) * (1.0 + float(params["Kd"]) / (Dn / INCH) ** 0.3)
+    if model == "cone":
+        raise InputError("fitting.model", model, "a cone's K depends on the bores on both sides: see calc.model.implied")
     raise InputError("fitting.model", model, "must be 'k', '2k' or '3k'")
+
+
+def transition_K(beta: float, angle_deg: float, expanding: bool) -> float:
+    """Loss coefficient of a change of bore on the small pipe's velocity head [-] (Crane TP-410M, p. A-26).
+
+    beta = d/D, the small bore over the large [-]; angle_deg the included angle of the cone [°]
+    (180 for a sudden change). Contraction: 0.8 sin(θ/2)(1 - β²) up to 45°, else
+    0.5 (1 - β²) sqrt(sin(θ/2)); enlargement: 2.6 sin(θ/2)(1 - β²)² up to 45°, else (1 - β²)²,
+    which at 180° is the Borda–Carnot loss of a sudden expansion.
+
+    >>> transition_K(0.5, 180.0, True), transition_K(0.5, 180.0, False)
+    (0.5625, 0.375)
+    >>> round(transition_K(0.5, 30.0, False), 4)
+    0.1553
+    """
+    if not 0.0 < beta <= 1.0:
+        raise ValueError(f"beta must lie in (0, 1], got {beta!r}")
+    half = math.radians(angle_deg) / 2.0
+    one = 1.0 - beta * beta
+    if expanding:
+        return 2.6 * math.sin(half) * one * one if angle_deg <= 45.0 else one * one
+    return 0.8 * math.sin(half) * one if angle_deg <= 45.0 else 0.5 * one * math.sqrt(math.sin(half))
 
 
 def _number(params: Mapping, name: str, path: str) -> float:

@@ -57,6 +57,7 @@ OPTIONS = {
     "turbine_mode": lambda: [("power", "set shaft power"), ("head", "fixed head"), ("curve", "head-flow curve")],
     "pump_mode": lambda: [("curve", "head-flow curve"), ("head", "fixed head")],
     "fitting_type": _fitting_types,
+    "entrance": lambda: [(f.key, f.name) for f in tables.fittings() if f.key.startswith("entrance")],
 }
 
 @lru_cache(maxsize=None)
@@ -90,6 +91,10 @@ NODE = {
                   Spec("pressure", "Pressure on the surface (gauge)", example="0 kPa", help="0 for an open tank"),
                   Spec("outlet_elevation", "Pipe connection elevation", example="409 m",
                        help="optional; default the surface")],
+    # A receiving reservoir: where the pipe ends is the last run's end elevation (above the surface,
+    # it discharges freely there).
+    "reservoir_end": [Spec("elevation", "Water surface elevation", example="80 m"),
+                      Spec("pressure", "Pressure on the surface (gauge)", example="0 kPa", help="0 for an open tank")],
     "pressure": [Spec("elevation", "Elevation", example="20 m"),
                  Spec("pressure", "Pressure (gauge)", example="3 bar")],
     "jet": [Spec("elevation", "Jet centre elevation", example="318 m"),
@@ -248,6 +253,12 @@ class FormView:
     def node(self, which: str) -> list[Field]:
         kind = self.get(f"{which}.kind", "reservoir")
         specs = NODE.get(kind, NODE["reservoir"])
+        if which == "start" and kind == "reservoir":
+            specs = specs + [Spec("entrance", "Entrance into the pipe", "select", options="entrance",
+                                  default="sharp-edged, flush",
+                                  help="its loss is counted unless an entrance fitting is typed on the first run")]
+        elif which == "end" and kind == "reservoir":
+            specs = NODE["reservoir_end"]
         kind_spec = Spec("kind", "Kind", "select", options=f"{which}_kind")
         return [self.field(which, kind_spec)] + self.fields(which, specs)
 

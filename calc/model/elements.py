@@ -41,6 +41,12 @@ class Fitting:
     count: int = 1
     source: str = "typed by the user"
     key: str = "k"
+    #: Counted by default (an entrance, exit or change of bore the user did not type), not typed.
+    implied: bool = False
+    #: K of a change of bore, worked out from the bores on either side (model 'cone').
+    derived_K: float | None = None
+    #: How an implied or derived K came about, for the record.
+    why: str = ""
 
     def K(self, Re: float, D: float) -> float:
         """Loss coefficient on the run's velocity head, for one item."""
@@ -49,6 +55,8 @@ class Fitting:
 
     def coefficients(self, D: float) -> tuple[float, float]:
         """(a, b) with K = a / Re + b in a bore D [m] (see tables.k_coefficients)."""
+        if self.model == "cone":
+            return 0.0, self.derived_K or 0.0
         return tables.k_coefficients(self.model, self.params, D)
 
     @property
@@ -56,8 +64,10 @@ class Fitting:
         """Where along the run the loss is placed on the grade lines."""
         if self.key.startswith("entrance"):
             return "start"
-        if self.key.startswith("exit"):
+        if self.key.startswith("exit") or self.key == "expansion-sudden":
             return "end"
+        if self.key == "contraction-sudden":
+            return "start"
         return "spread"
 
 
@@ -101,13 +111,19 @@ class Node:
     nozzle_diameter: float | None = None
     # Set by the line: the diameter whose velocity head counts at a pressure node or jet.
     D_adjacent: float | None = None
+    #: Set for an end reservoir whose pipe ends above the water surface: the outlet's elevation [m].
+    #: It discharges freely there, so the surface below it does nothing for the line.
+    free_outlet: float | None = None
+    #: The fitting (table key) of the entrance from a start reservoir, counted unless one is typed.
+    entrance: str = "entrance-sharp"
 
     @property
     def pipe_elevation(self) -> float:
         return self.elevation if self.outlet_elevation is None else self.outlet_elevation
 
     def static_head(self, rho: float) -> float:
-        return self.elevation + self.pressure / (rho * G)
+        z = self.elevation if self.free_outlet is None else self.free_outlet
+        return z + self.pressure / (rho * G)
 
     def velocity_head(self, Q: float) -> float:
         return self.velocity_head_coefficient() * Q * Q

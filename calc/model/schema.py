@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from calc import friction
+from calc.model.implied import ENTRANCE_KEYS
 from calc.model.sheet import (
     FORMAT,
     HEADER_FIELDS,
@@ -71,5 +72,6 @@ SCHEMA = {
     "$defs": {"node": {"type": "object", "required": ["kind", "elevation"], "properties": {
         "kind": {"enum": ["reservoir", "pressure", "jet"]}, "elevation": _q("a length"),
         "pressure": _q("a gauge pressure"), "outlet_elevation": _q("a length"),
+        "entrance": {"enum": list(ENTRANCE_KEYS)},
         "nozzle_diameter": _q("a length")}}},
 }

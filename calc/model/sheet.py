@@ -6,7 +6,9 @@ import copy
 from dataclasses import dataclass, field
 
 from calc import friction, tables
+from calc.model import implied
 from calc.model.elements import Curve, Fitting, Line, Node, PipeRun, Pump, Turbine, Valve
+from calc.model.implied import ENTRANCE_KEYS
 from calc.model.settings import CheckSettings
 from calc.units import (
     DENSITY,
@@ -248,7 +250,7 @@ def parse(doc: object) -> Parsed:
         return Parsed(None, r.errors)
     line = Line(start=start, end=end, elements=elements, liquid=liquid, method=method, p_atm=p_atm,
                 header=hdr, settings={**settings, "checks": check_settings})
-    return Parsed(line, [])
+    return Parsed(implied.complete(line), [])
 
 
 def _check_settings(r: _Reader, d: dict) -> CheckSettings:
@@ -351,11 +353,14 @@ def _node(r: _Reader, d: dict, which: str, liquid):
     if p is not None and p < -101325.0:
         p = r.fail(f"{which}.pressure", d.get("pressure"), "a gauge pressure cannot be below -1 atm")
     outlet = None
-    if kind == "reservoir":
+    entrance = ENTRANCE_KEYS[0]
+    if kind == "reservoir" and which == "start":
         outlet = r.qty(d, "outlet_elevation", f"{which}.outlet_elevation", LENGTH, required=False)
         if outlet is not None and z is not None and outlet > z:
             outlet = r.fail(f"{which}.outlet_elevation", d.get("outlet_elevation"),
-                            "the pipe connection must be at or below the water surface")
+                            f"is above the water surface ({d.get('elevation')}): a pipe leaving the reservoir there "
+                            "draws air, not water, so the line cannot run; put the connection at or below the surface")
+        entrance = r.choice(d, "entrance", f"{which}.entrance", ENTRANCE_KEYS, ENTRANCE_KEYS[0])
     nozzle = None
     if kind == "jet":
         nozzle = r.qty(d, "nozzle_diameter", f"{which}.nozzle_diameter", LENGTH, required=False,
@@ -363,7 +368,7 @@ def _node(r: _Reader, d: dict, which: str, liquid):
     if kind is None or z is None or p is None:
         return None
     return Node(kind=kind, elevation=z, pressure=p if kind != "jet" else 0.0,
-                outlet_elevation=outlet, nozzle_diameter=nozzle)
+                outlet_elevation=outlet, nozzle_diameter=nozzle, entrance=entrance or ENTRANCE_KEYS[0])
 
 
 def _pipe(r: _Reader, e: dict, path: str):

@@ -124,10 +124,15 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
         for ft in el.fittings:
             refs, detail = c.fitting_ref(ft)
             consts = ", ".join(f"{k} = {sub(v)}" for k, v in ft.params.items())
-            where = "typed" if ft.source.startswith("typed") else "fitting table"
-            model = {"k": "K", "2k": "2-K", "3k": "3-K"}[ft.model]
+            if ft.model == "cone":
+                consts = f"cone {sub(ft.params['angle_deg'])}°, K = {sub(ft.derived_K or 0.0)}"
+            where = ("counted by default" if ft.implied else "typed" if ft.source.startswith("typed")
+                     else "fitting table")
+            if ft.why:
+                detail = ft.why + (f"; {detail}" if detail else "")
+            model = {"k": "K", "2k": "2-K", "3k": "3-K", "cone": "change of bore"}[ft.model]
             rows.append([f"Fitting: {ft.name}" + (f" × {ft.count}" if ft.count > 1 else ""),
-                         f"{ft.key}, count {ft.count}", f"{model}: {consts}",
+                         "(not typed)" if ft.implied else f"{ft.key}, count {ft.count}", f"{model}: {consts}",
                          where + (f" ({detail})" if detail else "") + (f" {refs}" if refs else "")])
         out.append(Table(head, [r for r in rows if r], title, align, css="inputs"))
         return out

@@ -388,7 +388,6 @@ def power_plot(analysis, system: str = "SI") -> Plot | None:
     turbines = [m for m in sol.machines if m["kind"] == "turbine"]
     if not turbines:
         return None
-    fluid = line.fluid
     Qmax = _flow_range(analysis)
     Q = np.linspace(Qmax / 200.0, Qmax, 160)
     kq, uq = to_display(1.0, "flow", system)

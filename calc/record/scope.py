@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
-from calc.model.elements import Pump, Turbine
+from calc.model.elements import PipeRun, Pump, Turbine
 from calc.record.context import Context
 from calc.record.parts import Assumption
-from calc.record.text import shown
+from calc.record.text import shown, sub
 
 
 def scope(c: Context) -> list[str]:
@@ -61,6 +61,18 @@ def assumptions(c: Context) -> list[Assumption]:
                    "and all other losses are spread evenly along it."),
         Assumption("Pressures are gauge, relative to the site's atmospheric pressure, unless marked absolute."),
     ]
+    implied = [(i, e, ft) for i, e in enumerate(c.line.elements) if isinstance(e, PipeRun)
+               for ft in e.fittings if ft.implied]
+    if implied:
+        items = "; ".join(f"{ft.name} on {e.label or f'element {i + 1}'} (K = {sub(ft.K(1e5, e.D))})"
+                          for i, e, ft in implied)
+        out.append(Assumption("Losses the physics always has are counted where no fitting was typed for them: "
+                              f"{items}. A typed entrance, exit or conical reducer fitting replaces each."))
+    if c.line.end.free_outlet is not None:
+        out.append(Assumption(
+            f"The last run ends at {shown(c.line.end.free_outlet, 'length', c.system)}, above the receiving "
+            f"water surface at {shown(c.line.end.elevation, 'length', c.system)}: it discharges freely at the "
+            "outlet, at atmospheric pressure (or the tank's), so the fall below the outlet does no work for the line."))
     if any(isinstance(e, Pump) and e.mode == "curve" for e in c.line.elements):
         out.append(Assumption("Pump curves are quadratics fitted through the typed points; beyond the "
                               "typed flows the curve is extrapolated and flagged.", verify=True))

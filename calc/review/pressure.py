@@ -101,6 +101,15 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
             "and is drawn in at joints and air valves there: fit air valves at the high points, keep the grade "
             "line some metres above the crown, or lower the pipe.",
             p_g, 0.0, "pressure", SRC_AIR, e, m["chainage"]))
+    if line.end.free_outlet is not None:
+        z_out, z_surf = line.end.free_outlet, line.end.elevation
+        out.append(Finding(
+            "info", "end-free-discharge", "Free discharge above the receiving tank",
+            f"The last run ends at {z_out:.2f} m, {z_out - z_surf:.2f} m above the receiving water surface at "
+            f"{z_surf:.2f} m: it discharges freely at the outlet, so the flow is driven to the outlet's "
+            "elevation and the fall below it does no work. Lowering the outlet below the surface (a submerged "
+            "inlet to the tank) would add that head.", z_out, z_surf, "length", SRC_PRACTICE, len(line.elements) - 1,
+            stations[-1]["chainage"]))
     low = min(stations, key=lambda s: s["pressure_head"])
     h = low["pressure_head"]
     out.append(Finding(

@@ -23,7 +23,8 @@ from calc.steady.series import Solution, find_roots, make_residual, residual_arr
 _K_PARAMS = {"k": ("K",), "2k": ("K1", "Kinf"), "3k": ("K1", "Ki")}
 
 SOURCE = ("re-solves of this line: roughness new to aged (material table) or as set, fitting and valve K "
-          "values +/- the percentage set (default 20 %, common practice), and each friction formula")
+          "values +/- the percentage set (default 20 %, common practice; an exit's K = 1 is held), and each "
+          "friction formula")
 
 
 # ----------------------------------------------------------------------------- variants of the line
@@ -56,6 +57,11 @@ def roughness_range(run: PipeRun, s: CheckSettings) -> tuple[float, float, str]:
 
 
 def _scaled_fitting(ft: Fitting, factor: float) -> Fitting:
+    """A fitting with its K scaled; an exit keeps K = 1, which is physics (the velocity head leaves), not data."""
+    if ft.key.startswith("exit"):
+        return ft
+    if ft.model == "cone":
+        return dataclasses.replace(ft, derived_K=(ft.derived_K or 0.0) * factor)
     params = dict(ft.params)
     for key in _K_PARAMS.get(ft.model, ()):
         params[key] = params[key] * factor

@@ -6,6 +6,7 @@ import copy
 from dataclasses import dataclass
 
 from calc import tables
+from calc.model import implied
 from calc.model.elements import Line, PipeRun
 from calc.steady.series import residual
 
@@ -85,13 +86,17 @@ def smallest_size(line: Line, Q: float, standard: str, klass: str, runs: list[in
     tried = []
     for size in sizes:
         trial = copy.copy(line)
-        trial.elements = list(line.elements)
+        trial.end = copy.copy(line.end)
+        # Every run copied: the losses at a change of bore are worked out again for the new bores,
+        # and must not reach back into the line asked about.
+        trial.elements = [copy.copy(el) if isinstance(el, PipeRun) else el for el in line.elements]
         for i in targets:
             run = copy.copy(resized[i])
             run.D = size.ID
             run.wall = size.wall
             trial.elements[i] = run
         trial.__post_init__()
+        implied.complete(trial)
         E = residual(trial, Q)
         tried.append({"nominal": size.nominal, "ID": size.ID, "shortfall": -E})
         if E >= 0.0:

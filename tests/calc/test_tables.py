@@ -448,10 +448,29 @@ def test_every_fitting_is_checked_against_a_reference(ft):
         # Hooper (1981) 2-K table, as transcribed in fluids.fittings.Hooper.
         assert "Hooper" in ft.source
         assert tuple(ft.params[k] for k in ("K1", "Kinf")) == ff.Hooper[FLUIDS_NAME[ft.key]]
+    elif ft.model == "cone":
+        # Crane TP-410M cone formulas, as implemented in fluids (contraction_conical_Crane and
+        # diffuser_conical with method 'Crane'), both on the small bore's velocity.
+        assert "Crane" in ft.source
+        angle = ft.params["angle_deg"]
+        for d, D in ((0.1, 0.2), (0.15, 0.2), (0.3, 0.9)):
+            assert t.transition_K(d / D, angle, False) == pytest.approx(
+                ff.contraction_conical_Crane(Di1=D, Di2=d, angle=angle), rel=1e-12)
+            assert t.transition_K(d / D, angle, True) == pytest.approx(
+                ff.diffuser_conical(Di1=d, Di2=D, angle=angle, method="Crane"), rel=1e-12)
     else:
         assert ft.key in PLAIN_K_CHECKS, "a plain-K fitting without a check"
         expected, tol = PLAIN_K_CHECKS[ft.key]
         assert ft.params["K"] == pytest.approx(expected, abs=tol)
+
+
+@pytest.mark.parametrize("d,D", [(0.1, 0.2), (0.15, 0.3), (0.2, 0.21)])
+def test_sudden_changes_of_bore_match_published_forms(d, D):
+    # Sudden expansion: Borda–Carnot (1 - beta^2)^2 on the small pipe (fluids diffuser_sharp, Rennels);
+    # sudden contraction: Crane 0.5 (1 - beta^2) on the small pipe (fluids contraction_sharp, 'Crane').
+    assert t.transition_K(d / D, 180.0, True) == pytest.approx(ff.diffuser_sharp(Di1=d, Di2=D), rel=1e-12)
+    assert t.transition_K(d / D, 180.0, False) == pytest.approx(
+        ff.contraction_sharp(Di1=D, Di2=d, method="Crane"), rel=1e-12)
 
 
 PLAIN_K_CHECKS = {
@@ -521,7 +540,7 @@ def test_hooper_matches_fluids(K1, Kinf, Re, d_in):
 
 
 @settings(max_examples=300, deadline=None)
-@given(key=st.sampled_from([f.key for f in t.fittings()]), Re=reynolds,
+@given(key=st.sampled_from([f.key for f in t.fittings() if f.model != "cone"]), Re=reynolds,
        D=st.floats(min_value=0.01576, max_value=0.57504))
 def test_fitting_K_matches_fluids_within_schedule_40_range(key, Re, D):
     # Inside diameters from NPS 1/2 to NPS 24 Schedule 40: fluids maps Di to NPS along its own
@@ -587,7 +606,7 @@ def test_fitting_K_rejects_impossible_input_naming_the_field():
         t.fitting_K({"type": "no-such-fitting"}, 1e5, 0.1)
 
 
-@pytest.mark.parametrize("key", [f.key for f in t.fittings()])
+@pytest.mark.parametrize("key", [f.key for f in t.fittings() if f.model != "cone"])
 def test_k_coefficients_reproduce_fitting_K(key):
     # K = a/Re + b must equal the 2-K / 3-K / plain formula itself at any Re and bore.
     ft = t.fitting(key)

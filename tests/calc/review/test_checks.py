@@ -124,7 +124,9 @@ def hump_doc(z_hump, chainage="400 m", temperature="20 degC"):
 def reference_hump(z_hump, x_hump=400.0, T=293.15):
     """Independent: flow by fluids' Colebrook and brentq, then the HGL at the hump (tests only).
 
-    Both K values are taken as 'spread' along the run (they are plain K items), as the sheet places them.
+    Both typed K values are taken as 'spread' along the run (they are plain K items), as the sheet places
+    them; the sheet also counts a sharp entrance (K = 0.5, Idelchik 2007) at the run's start and the exit
+    (K = 1) at its end by default, since the typed items are not named as entrance or exit.
     """
     rho = CP.PropsSI("D", "T", T, "P", P_ATM, "Water")
     mu = CP.PropsSI("V", "T", T, "P", P_ATM, "Water")
@@ -138,12 +140,12 @@ def reference_hump(z_hump, x_hump=400.0, T=293.15):
 
     def E(Q):
         V, f = parts(Q)
-        return 18.0 - (f * L / D + K) * V * V / (2 * G)
+        return 18.0 - (f * L / D + K + 0.5 + 1.0) * V * V / (2 * G)
 
     Q = brentq(E, 1e-5, 1.0, xtol=1e-15)
     V, f = parts(Q)
     hv = V * V / (2 * G)
-    hgl = lambda x: 100.0 - hv - (f * L / D + K) * hv * x / L  # noqa: E731
+    hgl = lambda x: 100.0 - hv - 0.5 * hv - (f * L / D + K) * hv * x / L  # noqa: E731
     return Q, hgl, rho
 
 
@@ -318,7 +320,7 @@ def turbine_doc(head="92 m", eta="0.85"):
     doc["start"].update({"elevation": "200 m", "outlet_elevation": "198 m"})
     doc["end"].update({"elevation": "100 m"})
     doc["elements"][0].update({"length": "1500 m", "diameter": "400 mm", "roughness": "0.045 mm", "material": "",
-                               "end_elevation": "98 m", "fittings": [{"type": "k", "K": "0.5", "count": 1}]})
+                               "end_elevation": "98 m", "fittings": [{"type": "entrance-sharp", "count": 1}]})
     doc["elements"].append({"kind": "turbine", "label": "T1", "mode": "head", "head": head, "efficiency": eta})
     return doc
 
