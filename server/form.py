@@ -98,7 +98,9 @@ NODE = {
     "pressure": [Spec("elevation", "Elevation", example="20 m"),
                  Spec("pressure", "Pressure (gauge)", example="3 bar")],
     "jet": [Spec("elevation", "Jet centre elevation", example="318 m"),
-            Spec("nozzle_diameter", "Nozzle diameter", example="80 mm", help="optional; default the last run's bore")],
+            Spec("nozzle_diameter", "Nozzle diameter", example="80 mm", help="optional; default the last run's bore"),
+            Spec("velocity_coefficient", "Nozzle velocity coefficient Cv", "ratio", example="0.98",
+                 help="optional; 0.98 with a nozzle, 1 from the open pipe end")],
 }
 PIPE = [
     Spec("label", "Label", "text"),

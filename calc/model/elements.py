@@ -116,6 +116,9 @@ class Node:
     free_outlet: float | None = None
     #: The fitting (table key) of the entrance from a start reservoir, counted unless one is typed.
     entrance: str = "entrance-sharp"
+    #: A jet's velocity coefficient Cv = V_jet / sqrt(2 g H) at the nozzle [-]: the nozzle loses
+    #: (1/Cv² - 1) V²/2g. 1 for a jet from the open pipe end.
+    velocity_coefficient: float = 1.0
 
     @property
     def pipe_elevation(self) -> float:
@@ -134,7 +137,8 @@ class Node:
         if self.kind == "reservoir" or not D:
             return 0.0
         A = math.pi * D * D / 4.0
-        return 1.0 / (2 * G * A * A)
+        cv = self.velocity_coefficient if self.kind == "jet" else 1.0
+        return 1.0 / (2 * G * A * A * cv * cv)
 
     def total_head(self, Q: float, rho: float) -> float:
         return self.static_head(rho) + self.velocity_head(Q)

@@ -73,5 +73,5 @@ SCHEMA = {
         "kind": {"enum": ["reservoir", "pressure", "jet"]}, "elevation": _q("a length"),
         "pressure": _q("a gauge pressure"), "outlet_elevation": _q("a length"),
         "entrance": {"enum": list(ENTRANCE_KEYS)},
-        "nozzle_diameter": _q("a length")}}},
+        "nozzle_diameter": _q("a length"), "velocity_coefficient": _RATIO}}},
 }

@@ -65,10 +65,15 @@ def inputs(c: Context) -> list[Table]:
         for key, kind, label in (("elevation", LENGTH, "Elevation" + (" of the water surface" if node.kind == "reservoir" else "")),
                                  ("pressure", PRESSURE, "Pressure (gauge)"),
                                  ("outlet_elevation", LENGTH, "Elevation of the pipe connection"),
-                                 ("nozzle_diameter", LENGTH, "Nozzle diameter")):
+                                 ("nozzle_diameter", LENGTH, "Nozzle diameter"),
+                                 ("velocity_coefficient", RATIO, "Nozzle velocity coefficient Cv")):
             r = _typed(c, node_doc, key, kind, label)
             if r:
                 rows.append(r)
+        if node.kind == "jet" and not _typed(c, node_doc, "velocity_coefficient", RATIO, "x"):
+            rows.append(["Nozzle velocity coefficient Cv", "", sub(node.velocity_coefficient),
+                         "default: 0.97-0.99 for a well-made nozzle (common practice)" if node.nozzle_diameter
+                         else "default: a jet from the open pipe end loses only its velocity head"])
         kind = {"reservoir": "a reservoir", "pressure": "a point of known pressure", "jet": "a free jet"}[node.kind]
         tables_out.append(Table(head, rows, f"{which.capitalize()} of the line: {kind}", align, css="inputs"))
 

@@ -76,7 +76,11 @@ def _node_steps(c: Context, which: str, node, Q: float, H: float) -> StepGroup:
         V = Q / A
         steps.append(Step("V", "velocity " + ("of the jet" if node.kind == "jet" else "at the end point"),
                           "V = Q / (π D²/4)", f"= {sub(Q)} / (π × {sub(D)}² / 4)", num(V), "m/s", V))
-        if node.kind == "jet":
+        if node.kind == "jet" and node.velocity_coefficient != 1.0:
+            cv = node.velocity_coefficient
+            steps.append(Step(sym, "total head the nozzle needs (velocity coefficient Cv)", "H = z + V²/(2 g Cv²)",
+                              f"= {sub(node.elevation)} + {sub(V)}² / (2 × 9.80665 × {sub(cv)}²)", num(H), "m", H))
+        elif node.kind == "jet":
             steps.append(Step(sym, "total head of the jet", "H = z + V²/(2 g)",
                               f"= {sub(node.elevation)} + {sub(V)}² / (2 × 9.80665)", num(H), "m", H))
         else:

@@ -23,9 +23,13 @@ from calc import friction
 from calc.model.elements import Line, PipeRun, Pump, Turbine, Valve
 from calc.water import G
 
-#: Flows are scanned up to the flow that gives this velocity in the narrowest bore [m/s].
-#: Far above any velocity a water line is designed for (common practice: under about 5 m/s).
-V_SCAN_MAX = 60.0
+#: The scan's top is this many times the flow the whole driving head could push through the
+#: narrowest bore with no loss at all, sqrt(2 g H) A: a margin for a bore that recovers pressure
+#: downstream (a valve seat), never a velocity fixed in advance.
+SCAN_MARGIN = 3.0
+#: Driving head below which the scan's top is worked out from this head instead [m], so that a
+#: line with too little head still gets a scan that says why (water would run backwards).
+H_SCAN_MIN = 1.0
 #: The scan starts this many decades below its top.
 SCAN_DECADES = 9.0
 #: Grid points of the scan; extrema between points are refined, so this only sets the cost.
@@ -161,14 +165,37 @@ def residual_array(line: Line, Q: np.ndarray, skip: int | None = None) -> np.nda
     return E
 
 
+def driving_head(line: Line) -> float:
+    """The most head that could drive flow along the line [m]: start less end, plus every pump's highest head.
+
+    Static heads of the ends (a free outlet at its own elevation), and for each pump the highest
+    head of its typed curve scaled by speed (n² H), or its fixed head. Turbines and losses only
+    take head away, so no flow can exceed what this head drives through the narrowest bore.
+    """
+    rho = line.liquid.rho
+    H = line.start.static_head(rho) - line.end.static_head(rho)
+    for el in line.elements:
+        if isinstance(el, Pump):
+            if el.mode == "head":
+                H += max(el.fixed_head, 0.0)
+            else:
+                H += max(max(el.curve.y), 0.0) * el.speed_ratio ** 2
+    return H
+
+
 def scan_range(line: Line) -> tuple[float, float]:
-    """Flows to scan [m3/s]: up to V_SCAN_MAX in the narrowest bore, down SCAN_DECADES from there."""
+    """Flows to scan [m3/s]: from the physics at the top, down SCAN_DECADES from there.
+
+    The top is SCAN_MARGIN times sqrt(2 g H) A_min, H the driving head (`driving_head`) and A_min
+    the narrowest bore (pipe run, valve or nozzle): the flow the whole head could drive through it.
+    """
     diameters = [el.D for el in line.elements if isinstance(el, (PipeRun, Valve))]
     for node in (line.start, line.end):
         if node.nozzle_diameter:
             diameters.append(node.nozzle_diameter)
     D_min = min(diameters) if diameters else 1.0
-    Q_hi = V_SCAN_MAX * math.pi * D_min * D_min / 4.0
+    H = max(driving_head(line), H_SCAN_MIN)
+    Q_hi = SCAN_MARGIN * math.sqrt(2.0 * G * H) * math.pi * D_min * D_min / 4.0
     return Q_hi * 10.0 ** (-SCAN_DECADES), Q_hi
 
 
@@ -377,8 +404,9 @@ def explain_no_point(line: Line, static: float, machines: list[dict], Q_lo: floa
         return {"reason": ("the head at the start does not exceed the head at the end plus the machines' "
                            "heads even at no flow: the water would run backwards (add or raise a pump)"),
                 "max_power": None, "Q_at_max": None}
-    return {"reason": (f"head is still left over at {Q_hi:.4g} m3/s, a velocity of {V_SCAN_MAX:g} m/s in the "
-                       "narrowest bore: check the diameters and lengths"),
+    return {"reason": (f"head is still left over at {Q_hi:.4g} m3/s, {SCAN_MARGIN:g} times the flow the whole "
+                       "driving head could push through the narrowest bore without any loss: check the diameters, "
+                       "lengths and machine curves"),
             "max_power": None, "Q_at_max": None}
 
 

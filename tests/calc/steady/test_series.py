@@ -221,7 +221,51 @@ def test_pressure_end_and_jet_velocity_heads_count():
     sol = solve(line)
     p = sol.points[0]
     Vj = p["Q"] / (math.pi * 0.05**2 / 4)
-    assert p["head_end"] == pytest.approx(80 + Vj * Vj / (2 * G), rel=1e-12)
+    # With a nozzle, Cv = 0.98 by default (common practice, 0.97-0.99): V = Cv sqrt(2 g H), so the
+    # head the nozzle needs is V^2 / (2 g Cv^2).
+    assert line.end.velocity_coefficient == 0.98
+    assert p["head_end"] == pytest.approx(80 + Vj * Vj / (2 * G * 0.98**2), rel=1e-12)
+
+
+def high_head_jet_doc(cv=None):
+    """A 400 m impulse-turbine penstock: 2400 m of 500 mm steel from a tank at 620 m to a 160 mm nozzle at 220 m."""
+    doc = gravity_doc(length="2400 m", diameter="500 mm", z_start="620 m", z_end="220 m",
+                      fittings=[{"type": "entrance-rounded", "count": 1}])
+    doc["start"]["outlet_elevation"] = "617 m"
+    doc["end"] = {"kind": "jet", "elevation": "220 m", "nozzle_diameter": "160 mm"}
+    if cv is not None:
+        doc["end"]["velocity_coefficient"] = cv
+    return doc
+
+
+@pytest.mark.parametrize("cv", [None, "0.97", "1"])
+def test_high_head_jet_is_solved_against_an_independent_balance(cv):
+    # At 400 m the jet runs at over 60 m/s, beyond any velocity fixed in advance: the scan's top
+    # must come from the head. Reference: fluids' Colebrook with brentq, entrance K 0.04 (Idelchik,
+    # rounded inlet, as the table carries it) and the nozzle's V^2 / (2 g Cv^2).
+    line = line_of(high_head_jet_doc(cv))
+    sol = solve(line)
+    assert sol.status == "solved" and len(sol.points) == 1
+    Cv = 0.98 if cv is None else float(cv)
+    rho, mu, D, Dn, L = line.liquid.rho, line.liquid.mu, 0.5, 0.16, 2400.0
+
+    def E(Q):
+        V = Q / (math.pi * D * D / 4)
+        Vj = Q / (math.pi * Dn * Dn / 4)
+        f = fluids.friction.Colebrook(rho * V * D / mu, 4.5e-5 / D)
+        return 400.0 - (f * L / D + 0.04) * V * V / (2 * G) - Vj * Vj / (2 * G * Cv * Cv)
+
+    Q_ref = brentq(E, 1e-4, 10.0, xtol=1e-15)
+    assert sol.points[0]["Q"] == pytest.approx(Q_ref, rel=1e-9, abs=0.0)
+    Vj = Q_ref / (math.pi * Dn * Dn / 4)
+    assert Vj > 60.0
+
+
+def test_a_nozzle_larger_than_its_pipe_is_refused():
+    doc = high_head_jet_doc()
+    doc["end"]["nozzle_diameter"] = "600 mm"
+    parsed = parse(doc)
+    assert not parsed.ok and "larger than the bore" in parsed.errors_by_path()["end.nozzle_diameter"]
 
 
 # ---------------------------------------------------------------------------- properties
