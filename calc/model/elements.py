@@ -8,6 +8,7 @@ they sit in, so that a network solver can reuse them.
 
 from __future__ import annotations
 
+import bisect
 import math
 from dataclasses import dataclass, field
 
@@ -71,33 +72,118 @@ class Fitting:
         return "spread"
 
 
+#: How far past its typed flows a machine curve may be carried before an operating point there is
+#: refused as not known [-, of the largest typed flow]; the curve goes on straight for the solver.
+EXTRAPOLATION_LIMIT = 0.20
+
+
 @dataclass
 class Curve:
-    """A machine curve y(Q) fitted through typed points: a quadratic by least squares (exact through three)."""
+    """A machine curve y(Q) through the typed points: a shape-preserving cubic between them, straight beyond.
+
+    Between typed points the curve is the piecewise cubic Hermite interpolant of Fritsch and Carlson
+    (1980), as scipy's PchipInterpolator builds it: it passes through every point, never overshoots
+    them (a falling curve stays falling, a peak stays at the typed point), and has a continuous slope.
+    Below the first and above the last typed flow it goes on as a straight line with the end slope,
+    which the checks and plots mark as extrapolated.
+
+    >>> c = Curve([0.0, 0.02, 0.04, 0.06], [50.0, 47.0, 40.0, 28.0])
+    >>> [round(float(c(q)), 12) for q in (0.0, 0.02, 0.04, 0.06)]
+    [50.0, 47.0, 40.0, 28.0]
+    >>> c.Q_range, c.monotone_falling()
+    ((0.0, 0.06), True)
+    """
 
     Q: list[float]
     y: list[float]
-    coeffs: tuple[float, float, float] = (0.0, 0.0, 0.0)
 
     def __post_init__(self):
-        Qa = np.asarray(self.Q, dtype=float)
-        ya = np.asarray(self.y, dtype=float)
-        degree = min(2, len(Qa) - 1)
-        c = np.polyfit(Qa, ya, degree)
-        c = np.concatenate([np.zeros(3 - len(c)), c])
-        self.coeffs = (float(c[0]), float(c[1]), float(c[2]))
+        from scipy.interpolate import PchipInterpolator  # imported here: the parser loads this module
+
+        pairs = sorted(zip((float(q) for q in self.Q), (float(v) for v in self.y)))
+        self.Q = [q for q, _ in pairs]
+        self.y = [v for _, v in pairs]
+        x = np.asarray(self.Q)
+        pp = PchipInterpolator(x, np.asarray(self.y), extrapolate=False)
+        self._x = x
+        self._c = np.ascontiguousarray(pp.c.T)  # one row (c3, c2, c1, c0) per interval
+        self._rows = [tuple(float(v) for v in row) for row in self._c]
+        d = pp.derivative()
+        self.slope_start = float(d(x[0]))
+        self.slope_end = float(d(x[-1]))
 
     def __call__(self, Q):
-        a, b, c = self.coeffs
-        return (a * Q + b) * Q + c
+        x = self._x
+        if np.ndim(Q) == 0:
+            q = float(Q)
+            if q <= x[0]:
+                return self.y[0] + self.slope_start * (q - x[0])
+            if q >= x[-1]:
+                return self.y[-1] + self.slope_end * (q - x[-1])
+            i = bisect.bisect_right(self.Q, q) - 1
+            a, b, c, e = self._rows[i]
+            t = q - self.Q[i]
+            return ((a * t + b) * t + c) * t + e
+        Qa = np.asarray(Q, dtype=float)
+        i = np.clip(np.searchsorted(x, Qa, side="right") - 1, 0, len(x) - 2)
+        t = Qa - x[i]
+        co = self._c[i]
+        inner = ((co[:, 0] * t + co[:, 1]) * t + co[:, 2]) * t + co[:, 3]
+        out = np.where(Qa <= x[0], self.y[0] + self.slope_start * (Qa - x[0]), inner)
+        return np.where(Qa >= x[-1], self.y[-1] + self.slope_end * (Qa - x[-1]), out)
 
     @property
     def Q_range(self) -> tuple[float, float]:
-        return min(self.Q), max(self.Q)
+        return self.Q[0], self.Q[-1]
 
-    def fit_residual(self) -> float:
-        """Largest gap between the typed points and the fitted curve (same unit as y)."""
-        return max(abs(self(q) - y) for q, y in zip(self.Q, self.y))
+    def slope(self, Q: float) -> float:
+        """dy/dQ at Q (the end slopes outside the typed flows)."""
+        x = self._x
+        q = float(Q)
+        if q <= x[0]:
+            return self.slope_start
+        if q >= x[-1]:
+            return self.slope_end
+        i = bisect.bisect_right(self.Q, q) - 1
+        a, b, c, _ = self._rows[i]
+        t = q - self.Q[i]
+        return (3 * a * t + 2 * b) * t + c
+
+    def hermite(self, Q: float) -> dict:
+        """The interval holding Q and the cubic Hermite form a checker can repeat on a calculator.
+
+        y = h00 y_i + h10 Δ d_i + h01 y_i1 + h11 Δ d_i1, with t = (Q - Q_i)/Δ, h00 = 2t³ - 3t² + 1,
+        h10 = t³ - 2t² + t, h01 = -2t³ + 3t², h11 = t³ - t²; d_i the slopes at the typed points.
+        """
+        q = min(max(float(Q), self.Q[0]), self.Q[-1])
+        i = min(max(bisect.bisect_right(self.Q, q) - 1, 0), len(self.Q) - 2)
+        Qi, Qj = self.Q[i], self.Q[i + 1]
+        return {"Q_i": Qi, "Q_j": Qj, "y_i": self.y[i], "y_j": self.y[i + 1], "d_i": self.slope(Qi) if i else self.slope_start,
+                "d_j": self.slope(Qj) if i + 1 < len(self.Q) - 1 else self.slope_end, "t": (q - Qi) / (Qj - Qi)}
+
+    def extrapolated(self, Q: float) -> bool:
+        return not self.Q[0] <= Q <= self.Q[-1]
+
+    def beyond_limit(self, Q: float) -> bool:
+        """Further past the typed flows than a curve may be carried (EXTRAPOLATION_LIMIT)."""
+        lo, hi = self.Q_range
+        return Q > hi * (1.0 + EXTRAPOLATION_LIMIT) or (lo > 0.0 and Q < lo * (1.0 - EXTRAPOLATION_LIMIT))
+
+    def monotone_falling(self) -> bool:
+        return all(b < a for a, b in zip(self.y, self.y[1:]))
+
+    def rising_stretches(self) -> list[tuple[float, float]]:
+        """(Q_a, Q_b) between consecutive typed points where y does not fall."""
+        return [(self.Q[k], self.Q[k + 1]) for k in range(len(self.Q) - 1) if self.y[k + 1] >= self.y[k]]
+
+    def peak(self) -> tuple[float, float, str]:
+        """The highest typed value (Q, y) and where it lies: 'inside', 'first' or 'last' typed point.
+
+        A shape-preserving curve peaks at a typed point, so no peak is ever invented between or beyond them.
+        """
+        k = max(range(len(self.y)), key=lambda j: self.y[j])
+        where = "first" if k == 0 else "last" if k == len(self.y) - 1 else "inside"
+        return self.Q[k], self.y[k], where
 
 
 @dataclass
@@ -244,6 +330,8 @@ class Turbine:
     fixed_head: float | None = None
     curve: Curve | None = None
     kind: str = "turbine"
+    #: False when no efficiency was typed and 1 is assumed (head or curve mode): a finding says so.
+    efficiency_given: bool = True
 
     def head(self, Q: float, fluid: Fluid) -> float:
         if self.mode == "power":
@@ -270,6 +358,8 @@ class Turbine:
         if self.curve is not None:
             lo, hi = self.curve.Q_range
             out["in_curve_range"] = lo <= Q <= hi
+            out["curve_range"] = [lo, hi]
+            out["beyond_curve_limit"] = self.curve.beyond_limit(Q)
         return out
 
 
@@ -301,8 +391,9 @@ class Pump:
         return -self.pump_head(Q)
 
     def eta(self, Q: float) -> float | None:
+        """Efficiency at Q (affinity: eta(Q) = eta1(Q/n)); held within 0 to 1 where the curve is carried on."""
         if self.efficiency_curve is not None:
-            return float(self.efficiency_curve(Q / self.speed_ratio))
+            return min(max(float(self.efficiency_curve(Q / self.speed_ratio)), 0.0), 1.0)
         return self.efficiency
 
     def npsh_required(self, Q: float) -> float | None:
@@ -312,13 +403,25 @@ class Pump:
         return float(n * n * self.npshr_curve(Q / n))
 
     def best_efficiency_flow(self) -> float | None:
-        """Flow at the top of the fitted efficiency curve, scaled by speed (Q ~ n)."""
+        """Flow of the highest typed efficiency, scaled by speed (Q ~ n); None unless it lies inside the data.
+
+        At the first or last typed point the efficiency is still rising past the data, so the
+        best-efficiency flow is not known: `best_efficiency_note` says which.
+        """
         if self.efficiency_curve is None:
             return None
-        a, b, _ = self.efficiency_curve.coeffs
-        if a >= 0:
-            return None
-        return -b / (2 * a) * self.speed_ratio
+        Q, _, where = self.efficiency_curve.peak()
+        return Q * self.speed_ratio if where == "inside" else None
+
+    def best_efficiency_note(self) -> str:
+        if self.efficiency_curve is None:
+            return "no efficiency curve typed"
+        _, _, where = self.efficiency_curve.peak()
+        if where == "last":
+            return "the efficiency is still rising at the last typed point, so the best-efficiency flow lies beyond the data"
+        if where == "first":
+            return "the efficiency is highest at the first typed point, so the best-efficiency flow lies below the data"
+        return ""
 
     def detail(self, Q: float, fluid: Fluid) -> dict:
         H = float(self.pump_head(Q))
@@ -333,6 +436,7 @@ class Pump:
             n = self.speed_ratio
             out["in_curve_range"] = lo * n <= Q <= hi * n
             out["curve_range"] = [lo * n, hi * n]
+            out["beyond_curve_limit"] = self.curve.beyond_limit(Q / n)
         return out
 
 

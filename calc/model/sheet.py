@@ -510,7 +510,8 @@ def _curve_points(r: _Reader, e: dict, path: str, y_key: str, y_kind: Kind, min_
         h = r.qty(pt, y_key, f"{pp}.{y_key}", y_kind, what="the head")
         Q.append(q)
         H.append(h)
-        eta.append(r.qty(pt, "efficiency", f"{pp}.efficiency", RATIO, required=False, lo=0.0, lo_open=True,
+        # 0 is a maker's usual figure at shut-off, so efficiency may be zero at a point (not negative).
+        eta.append(r.qty(pt, "efficiency", f"{pp}.efficiency", RATIO, required=False, lo=0.0,
                          hi=1.0, what="the efficiency"))
         npsh.append(r.qty(pt, "npsh_required", f"{pp}.npsh_required", LENGTH, required=False, lo=0.0,
                           what="NPSH required"))
@@ -523,11 +524,12 @@ def _curve_points(r: _Reader, e: dict, path: str, y_key: str, y_kind: Kind, min_
 
 
 def _optional_curve(r: _Reader, Q, ys, path, what):
+    """A curve through the points where ``what`` is typed; the others are simply left out."""
     pairs = [(q, y) for q, y in zip(Q, ys) if y is not None]
     if not pairs:
         return None
-    if len(pairs) < 3:
-        r.fail(f"{path}.curve", what, f"{what}: give it at three or more points, or at none")
+    if len({q for q, _ in pairs}) < 2:
+        r.fail(f"{path}.curve", what, f"{what}: give it at two or more points of different flow, or at none")
         return None
     return Curve([p[0] for p in pairs], [p[1] for p in pairs])
 
@@ -550,7 +552,9 @@ def _turbine(r: _Reader, e: dict, path: str):
             curve = Curve(pts[0], pts[1])
     if len(r.errors) > n_err:
         return None
-    return Turbine(label=label, mode=mode, efficiency=eta, power=power, fixed_head=head, curve=curve)
+    given = not r.blank(e.get("efficiency"))
+    return Turbine(label=label, mode=mode, efficiency=eta, power=power, fixed_head=head, curve=curve,
+                   efficiency_given=given)
 
 
 def _pump(r: _Reader, e: dict, path: str):

@@ -43,7 +43,8 @@ def equations(c: Context) -> list[Equation]:
         eq.append(Equation("Largest power the line can give a turbine", "P_max = max over Q of η ρ g Q H_a(Q)",
                            "H_a(Q) head left for the turbine after the line's losses"))
     if any(isinstance(e, Pump) for e in els):
-        eq.append(Equation("Pump", "H_p(Q) = n² H₁(Q/n),  H₁(Q) = a Q² + b Q + c;  P_h = ρ g Q H_p;  P = P_h/η",
-                           "H₁ the curve fitted to the typed points (least squares, exact through three); n speed ratio"))
+        eq.append(Equation("Pump", "H_p(Q) = n² H₁(Q/n);  P_h = ρ g Q H_p;  P = P_h/η",
+                           "H₁ the curve through the typed points: between two of them the shape-preserving cubic "
+                           "(PCHIP), beyond them a straight line with the end slope; n speed ratio"))
     eq.append(Equation("Grade lines", "EGL = H along the line;  HGL = EGL - V²/(2 g);  pressure head = HGL - z"))
     return eq

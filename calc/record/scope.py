@@ -73,9 +73,10 @@ def assumptions(c: Context) -> list[Assumption]:
             f"The last run ends at {shown(c.line.end.free_outlet, 'length', c.system)}, above the receiving "
             f"water surface at {shown(c.line.end.elevation, 'length', c.system)}: it discharges freely at the "
             "outlet, at atmospheric pressure (or the tank's), so the fall below the outlet does no work for the line."))
-    if any(isinstance(e, Pump) and e.mode == "curve" for e in c.line.elements):
-        out.append(Assumption("Pump curves are quadratics fitted through the typed points; beyond the "
-                              "typed flows the curve is extrapolated and flagged.", verify=True))
+    if any(isinstance(e, (Pump, Turbine)) and e.mode == "curve" for e in c.line.elements):
+        out.append(Assumption("Machine curves pass through every typed point, with a shape-preserving cubic between "
+                              "them; beyond the typed flows they are carried on straight and flagged, and more than "
+                              "20 % beyond, an operating point is not taken as a result.", verify=True))
     if any(isinstance(e, Pump) and e.speed_ratio != 1.0 for e in c.line.elements):
         out.append(Assumption("A pump at another speed follows the affinity laws: Q in proportion to "
                               "speed, head to its square.", verify=True))

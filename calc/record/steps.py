@@ -188,9 +188,7 @@ def _turbine_steps(c: Context, title: str, el: Turbine, d: dict, Q: float, rho: 
     elif el.mode == "head":
         steps.append(Step("H_t", "head taken (typed)", "H_t", "", num(H), "m", H))
     else:
-        a, b, c = el.curve.coeffs
-        steps.append(Step("H_t", "head from the fitted curve", "H_t = a Q² + b Q + c",
-                          f"= {paren(a)} × {sub(Q)}² + {paren(b)} × {sub(Q)} + {paren(c)}", num(H), "m", H))
+        steps += _curve_steps(c, "H_t", "head", el.curve, Q, H, "m")
     steps.append(Step("P_h", "hydraulic power", "P_h = ρ g Q H_t",
                       f"= {sub(rho)} × 9.80665 × {sub(Q)} × {sub(H)}", num(d["power_hydraulic"]), "W",
                       d["power_hydraulic"]))
@@ -214,14 +212,12 @@ def _pump_steps(c: Context, title: str, el: Pump, d: dict, Q: float, rho: float)
     if el.mode == "head":
         steps.append(Step("H_p", "head added (typed)", "H_p", "", num(H), "m", H))
     else:
-        a, b, c = el.curve.coeffs
         q = Q / n
-        H1 = el.curve(q)
+        H1 = float(el.curve(q))
         if n != 1.0:
             steps.append(Step("Q₁", "flow at the curve's own speed", "Q₁ = Q/n", f"= {sub(Q)} / {sub(n)}",
                               num(q), "m³/s", q))
-        steps.append(Step("H₁", "head from the fitted curve", "H₁ = a Q₁² + b Q₁ + c",
-                          f"= {paren(a)} × {sub(q)}² + {paren(b)} × {sub(q)} + {paren(c)}", num(H1), "m", H1))
+        steps += _curve_steps(c, "H₁", "head", el.curve, q, H1, "m", "Q₁")
         if n != 1.0:
             steps.append(Step("H_p", "head at this speed", "H_p = n² H₁", f"= {sub(n)}² × {sub(H1)}", num(H), "m", H))
     steps.append(Step("P_h", "hydraulic power", "P_h = ρ g Q H_p", f"= {sub(rho)} × 9.80665 × {sub(Q)} × {sub(H)}",
@@ -229,10 +225,7 @@ def _pump_steps(c: Context, title: str, el: Pump, d: dict, Q: float, rho: float)
     eta = d.get("efficiency")
     if eta:
         if el.efficiency_curve is not None:
-            a, b, c = el.efficiency_curve.coeffs
-            q = Q / n
-            steps.append(Step("η", "efficiency from the fitted curve", "η = a Q₁² + b Q₁ + c",
-                              f"= {paren(a)} × {sub(q)}² + {paren(b)} × {sub(q)} + {paren(c)}", num(eta), "–", eta))
+            steps += _curve_steps(c, "η", "efficiency", el.efficiency_curve, Q / n, eta, "–", "Q₁")
         steps.append(Step("P", "shaft power", "P = P_h/η", f"= {sub(d['power_hydraulic'])} / {sub(eta)}",
                           num(d["power_shaft"]), "W", d["power_shaft"]))
     if d.get("npsh_required") is not None:
@@ -240,7 +233,38 @@ def _pump_steps(c: Context, title: str, el: Pump, d: dict, Q: float, rho: float)
                           num(d["npsh_required"]), "m", d["npsh_required"]))
     notes = []
     if el.curve is not None:
-        notes.append(f"Largest gap between the typed points and the fitted curve: {num(el.curve.fit_residual())} m.")
+        notes.append("The curve passes through every typed point; between them it is the shape-preserving cubic, "
+                     "which never overshoots the typed values.")
     if d.get("in_curve_range") is False:
         notes.append("The flow lies outside the typed curve points: the curve is extrapolated.")
     return StepGroup(title, "pump", steps, notes)
+
+
+PCHIP_REF = ("Fritsch, F. N. and Carlson, R. E. (1980). Monotone piecewise cubic interpolation. SIAM Journal on "
+             "Numerical Analysis 17(2): 238-246; as implemented in SciPy's PchipInterpolator.")
+
+
+def _curve_steps(c: Context, sym: str, what: str, curve, q: float, y: float, unit: str, qsym: str = "Q") -> list[Step]:
+    """A value read off a typed curve, in steps a calculator repeats: the Hermite cubic between the two
+    typed points around ``q`` (slopes from the shape-preserving rule), or the straight end line beyond."""
+    ref = c.refs.cite(PCHIP_REF, "machine curves through typed points")
+    lo, hi = curve.Q_range
+    if q < lo or q > hi:
+        Qe, ye, d = (lo, curve.y[0], curve.slope_start) if q < lo else (hi, curve.y[-1], curve.slope_end)
+        return [Step(sym, f"{what}, carried straight past the typed points (extrapolated)",
+                     f"{sym} = y_end + d_end ({qsym} - Q_end)", f"= {sub(ye)} + {paren(d)} × ({sub(q)} - {sub(Qe)})",
+                     num(y), unit, y, ref)]
+    h = curve.hermite(q)
+    dQ = h["Q_j"] - h["Q_i"]
+    t = h["t"]
+    return [
+        Step("t", f"where {qsym} lies between the typed points {sub(h['Q_i'])} and {sub(h['Q_j'])} m³/s",
+             f"t = ({qsym} - Q_i) / (Q_j - Q_i)", f"= ({sub(q)} - {sub(h['Q_i'])}) / ({sub(h['Q_j'])} - {sub(h['Q_i'])})",
+             num(t), "–", t),
+        Step(sym, f"{what} on the curve through the typed points (slopes d_i = {sub(h['d_i'])}, "
+             f"d_j = {sub(h['d_j'])} per m³/s)",
+             f"{sym} = (2t³ - 3t² + 1) y_i + (t³ - 2t² + t) Δ d_i + (3t² - 2t³) y_j + (t³ - t²) Δ d_j",
+             f"= (2 × {sub(t)}³ - 3 × {sub(t)}² + 1) × {sub(h['y_i'])} + ({sub(t)}³ - 2 × {sub(t)}² + {sub(t)}) × "
+             f"{sub(dQ)} × {paren(h['d_i'])} + (3 × {sub(t)}² - 2 × {sub(t)}³) × {sub(h['y_j'])} + "
+             f"({sub(t)}³ - {sub(t)}²) × {sub(dQ)} × {paren(h['d_j'])}", num(y), unit, y, ref),
+    ]

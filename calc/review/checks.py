@@ -5,6 +5,7 @@ from __future__ import annotations
 from calc.model.elements import Line
 from calc.model.settings import CheckSettings
 from calc.review.cautions import band_findings, general_cautions
+from calc.review.curves import curve_findings
 from calc.review.findings import SEVERITIES, Finding
 from calc.review.flow import regime_findings, velocity_findings
 from calc.review.machines import pump_findings, turbine_findings
@@ -26,6 +27,7 @@ def review(line: Line, solution: Solution, settings: CheckSettings | None = None
         findings += pump_findings(line, point, settings)
         findings += turbine_findings(line, solution, point)
         findings += surge_findings(line, point, settings)
+    findings += curve_findings(line, solution)
     if band is not None:
         findings += band_findings(band)
     findings += general_cautions(line)

@@ -78,14 +78,7 @@ def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
         msg += (f", efficiency {eta:.3f}, shaft power {P / 1e3:.2f} kW." if eta and P else
                 "; no efficiency given, so no shaft power.")
         out.append(Finding("info", "pump-duty", f"{name}: duty point", msg, P if P else d["power_hydraulic"],
-                           None, "power", "pump curve as typed, fitted by least squares", i))
-        if d.get("in_curve_range") is False:
-            lo, hi = d["curve_range"]
-            out.append(Finding(
-                "warning", "pump-outside-curve", f"{name}: outside the typed curve",
-                f"The duty flow {Q * 1e3:.2f} L/s lies outside the typed curve points ({lo * 1e3:.2f} to "
-                f"{hi * 1e3:.2f} L/s): head, efficiency and NPSH required are extrapolated.",
-                Q, hi if Q > hi else lo, "flow", "pump curve as typed", i))
+                           None, "power", "pump curve through the typed points", i))
         if stations is not None:
             inlet = stations[0]
             V2g = inlet["egl"] - inlet["hgl"]
@@ -120,9 +113,11 @@ def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
                                        "head", src, i, inlet["chainage"]))
         Q_bep = pump.best_efficiency_flow() if pump.mode == "curve" else None
         if Q_bep is None or Q_bep <= 0:
+            why = pump.best_efficiency_note() if pump.mode == "curve" else "the pump is given by a fixed head"
             out.append(Finding("info", "pump-bep-unknown", f"{name}: best-efficiency flow unknown",
-                               "Give efficiencies at three or more curve points (rising then falling) to check "
-                               "the duty against the best-efficiency flow.", None, None, None, SRC_BEP, i))
+                               f"Not known from the data: {why}. Give the maker's efficiencies on both sides of the "
+                               "best point to check the duty against the best-efficiency flow.",
+                               None, None, None, SRC_BEP, i))
         else:
             r = Q / Q_bep
             lo, hi = s.bep_low, s.bep_high

@@ -192,7 +192,7 @@ def calculator(text: str) -> float:
     """What a checker's calculator gives for a substituted line such as '= π × 0.2776² / 4'."""
     expr = text.strip().removeprefix("=").strip()
     expr = re.sub(r"×10([⁻⁰¹²³⁴⁵⁶⁷⁸⁹]+)", lambda m: "e" + m.group(1).translate(_SUP), expr)
-    expr = expr.replace("×", "*").replace("²", "**2").replace("^", "**").replace("π", "pi")
+    expr = expr.replace("×", "*").replace("²", "**2").replace("³", "**3").replace("^", "**").replace("π", "pi")
     return _eval(ast.parse(expr, mode="eval"))
 
 

@@ -8,6 +8,7 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from scipy.interpolate import PchipInterpolator
 from scipy.optimize import brentq
 
 from calc.model.sheet import blank_sheet, parse
@@ -154,8 +155,9 @@ def test_pump_point_matches_independent_reference_solve():
     line = line_of(pump_doc(curve))
     sol = solve(line)
     assert len(sol.points) == 1
-    # Reference: quadratic through the three points (numpy), fluids' Colebrook, scipy brentq.
-    c = np.polyfit([0, 0.03, 0.06], [60, 55, 40], 2)
+    # Reference: scipy's PchipInterpolator through the three points (Fritsch and Carlson 1980),
+    # fluids' Colebrook, scipy brentq.
+    pchip = PchipInterpolator([0, 0.03, 0.06], [60, 55, 40])
     rho, mu, D, L = line.liquid.rho, line.liquid.mu, 0.2, 800.0
     A = math.pi * D * D / 4
 
@@ -163,7 +165,7 @@ def test_pump_point_matches_independent_reference_solve():
         V = Q / A
         f = fluids.friction.Colebrook(rho * V * D / mu, 4.5e-5 / D)
         # Typed K 1.5, plus the exit (K = 1) counted by default; the pump is first, so no entrance.
-        return np.polyval(c, Q) - 35.0 - (f * L / D + 1.5 + 1.0) * V * V / (2 * G)
+        return float(pchip(Q)) - 35.0 - (f * L / D + 1.5 + 1.0) * V * V / (2 * G)
 
     Q_ref = brentq(E, 1e-6, 0.2, xtol=1e-15)
     assert sol.points[0]["Q"] == pytest.approx(Q_ref, rel=1e-9)
