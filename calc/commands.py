@@ -93,7 +93,7 @@ def format_solution(sol, system: str = "SI", title: str = "") -> str:
             out.append(f"  largest shaft power the line can give: {_u(np_['max_power'], 'power', system)} "
                        f"at {_u(np_['Q_at_max'], 'flow', system)}")
     for k, p in enumerate(sol.points):
-        mark = "design point" if p["is_design"] else "other point"
+        mark = "design point" if p["is_design"] else ("cannot occur" if not p.get("attainable", True) else "other point")
         out.append("")
         out.append(f"Operating point {k + 1} ({mark}): Q = {_u(p['Q'], 'flow', system)}; "
                    f"energy residual {p['residual']:.1e} m")

@@ -93,6 +93,7 @@ def results(c: Context) -> list[dict]:
         out.append({
             "number": k + 1,
             "design": design,
+            "attainable": p.get("attainable", True),
             "why": p.get("why", ""),
             "Q": shown(p["Q"], "flow", s),
             "summary": summary,
@@ -112,7 +113,8 @@ def points_table(c: Context, results: list[dict]) -> Table | None:
             if label not in labels:
                 labels.append(label)
     values = [dict((label, v) for label, v in r["summary"]) for r in results]
-    head = ["Quantity"] + [f"Point {r['number']}" + (" (design)" if r["design"] else "") for r in results]
+    head = ["Quantity"] + [f"Point {r['number']}" + (" (design)" if r["design"] else
+                                                      " (cannot occur)" if not r["attainable"] else "") for r in results]
     rows = [[label] + [v.get(label, "–") for v in values] for label in labels]
     return Table(head, rows, "", ["l"] + ["r"] * len(results), css=f"points points-{len(results)}")
 

@@ -11,7 +11,8 @@ SEVERITIES = ("error", "warning", "caution", "info")
 
 # Where each limit comes from, written once so that findings, the record and the docs agree; the
 # sources of the limits a user may set live beside those settings (calc.model.settings).
-SRC_AIR = "AWWA M51, Air-Valve Design Manual (air valves at high points), from memory"
+SRC_AIR = ("AWWA Manual M51, Air Valves: Air-Release, Air/Vacuum, and Combination, 2nd edition (2016): "
+           "where air collects and which valve lets air out or in")
 SRC_VAPOUR = "vapour pressure of the liquid (water: IAPWS-IF97 saturation equation)"
 SRC_KORTEWEG = ("Korteweg wave speed with restraint factor c1, as in Wylie and Streeter, Fluid Transients "
                 "in Systems (1993)")

@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
-from calc.model.elements import Line, Pump, Turbine
+from calc.model.elements import Line, PipeRun, Pump, Turbine
 from calc.model.settings import SRC_PRACTICE
 from calc.review.findings import H_TOL, SRC_AIR, SRC_VAPOUR, Finding, label, suction_runs
+from calc.steady.siphon import broken_siphon_flow
 from calc.water import G
 
 
@@ -41,6 +42,11 @@ def stretches_below(stations: list[dict], h_limit: float, inclusive: bool = Fals
         cur["to"] = prev["chainage"]
         out.append(cur)
     return out
+
+
+def _run_start(line: Line, index: int) -> float:
+    """Chainage [m] where element ``index`` starts (runs only have length)."""
+    return sum(el.L for el in line.elements[:index] if isinstance(el, PipeRun))
 
 
 def pressure_findings(line: Line, point: dict) -> list[Finding]:
@@ -94,12 +100,22 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
                 "glands must be tight or air is drawn in; see the NPSH check.",
                 p_g, 0.0, "pressure", SRC_PRACTICE, e, m["chainage"]))
             continue
+        Q_broken = None
+        if e is not None and isinstance(line.elements[e], PipeRun):
+            Q_broken = broken_siphon_flow(line, e, m["chainage"] - _run_start(line, e))
+        Q = point["Q"]
+        broken = ("with air let in there the flow would fall to "
+                  + (f"{Q_broken * 1e3:.4g} L/s ({100 * Q_broken / Q:.0f} % of {Q * 1e3:.4g} L/s), the pipe below "
+                     "the crest running part full" if Q_broken else "nothing: the crest stands above what the start "
+                     "can lift water to")) if Q_broken is not None else ""
         out.append(Finding(
-            "warning", "pressure-subatmospheric", "Pressure below atmospheric",
+            "warning", "pressure-subatmospheric", "Siphon: pressure below atmospheric",
             f"From chainage {st['from']:.1f} m to {st['to']:.1f} m the pipe lies above its hydraulic grade line; "
-            f"lowest {m['pressure_head']:.2f} m ({p_g / 1e3:.1f} kPa gauge) {where(m)}. Air comes out of solution "
-            "and is drawn in at joints and air valves there: fit air valves at the high points, keep the grade "
-            "line some metres above the crown, or lower the pipe.",
+            f"lowest {m['pressure_head']:.2f} m ({p_g / 1e3:.1f} kPa gauge) {where(m)}. This reach works only as a "
+            "siphon: it must be primed (filled) to start, and the air that comes out of solution must be taken off "
+            "at the crest by a valve that only releases air (or a vacuum pump). An air-admitting (air/vacuum) valve "
+            f"there would break the siphon{': ' + broken if broken else ''}. Lowering the pipe below the grade line "
+            "or raising the grade line removes the siphon.",
             p_g, 0.0, "pressure", SRC_AIR, e, m["chainage"]))
     if line.end.free_outlet is not None:
         z_out, z_surf = line.end.free_outlet, line.end.elevation

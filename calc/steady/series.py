@@ -282,12 +282,28 @@ def solve(line: Line) -> Solution:
     for r in roots:
         sol.points.append(point_detail(line, r.Q, r.residual, r.slope))
     if roots:
-        sol.design_index, why = choose_design(line, roots)
+        usable = [k for k, p in enumerate(sol.points) if p["attainable"]]
+        if usable and len(usable) < len(roots):
+            k, why = choose_design(line, [roots[j] for j in usable])
+            sol.design_index = usable[k]
+            if len(usable) == 1:
+                why = "the only operating point that can occur"
+            why += "; the other flows would need pressures below vapour pressure, so they cannot occur"
+        else:
+            sol.design_index, why = choose_design(line, roots)
         for k, p in enumerate(sol.points):
             p["is_design"] = k == sol.design_index
-            p["why"] = why if k == sol.design_index else other_point_note(line, roots[k], roots[sol.design_index])
+            if k == sol.design_index:
+                p["why"] = why
+            elif not p["attainable"]:
+                p["why"] = "cannot occur: " + p["unattainable"]
+            else:
+                p["why"] = other_point_note(line, roots[k], roots[sol.design_index])
         n = len(roots)
         sol.message = "one operating point" if n == 1 else f"{n} operating points"
+        lost = n - sum(1 for p in sol.points if p["attainable"])
+        if lost:
+            sol.message += f", {lost} of which cannot occur (pressure would fall to vapour pressure)"
         sol.warnings = point_warnings(sol.points[sol.design_index])
     else:
         sol.no_point = explain_no_point(line, static, machines, Q_lo, Q_hi)
@@ -303,11 +319,34 @@ def point_detail(line: Line, Q: float, res: float, slope: float) -> dict:
         d["index"] = i
         details.append(d)
     rho = line.liquid.rho
+    profile = grade_lines(line, Q, details)
     return {
         "Q": Q, "residual": res, "slope": slope, "is_design": False, "why": "",
         "head_start": line.start.total_head(Q, rho), "head_end": line.end.total_head(Q, rho),
-        "elements": details, "profile": grade_lines(line, Q, details),
+        "elements": details, "profile": profile, **attainability(line, profile),
     }
+
+
+#: Pressure heads within this of vapour pressure count as reaching it [m] (as the checks' H_TOL).
+H_VAPOUR_TOL = 1e-6
+
+
+def attainability(line: Line, profile: list[dict]) -> dict:
+    """Whether a computed point can occur: the steady pressure must stay above vapour pressure everywhere.
+
+    Where it would fall to vapour pressure the water column parts (it boils at ambient temperature),
+    so the flow and heads computed there do not exist: ``attainable`` is False and ``unattainable``
+    says where.
+    """
+    h_vap = (line.liquid.p_vap - line.p_atm) / (line.liquid.rho * G)
+    low = min(profile, key=lambda st: st["pressure_head"]) if profile else None
+    if low is None or low["pressure_head"] > h_vap + H_VAPOUR_TOL:
+        return {"attainable": True, "unattainable": ""}
+    p_abs = line.p_atm + line.liquid.rho * G * low["pressure_head"]
+    return {"attainable": False,
+            "unattainable": (f"the steady pressure would fall to vapour pressure ({line.liquid.p_vap / 1e3:.2f} kPa "
+                             f"absolute) at chainage {low['chainage']:.1f} m, computed {p_abs / 1e3:.1f} kPa absolute; "
+                             "the water column parts there, so this flow cannot occur as computed")}
 
 
 def choose_design(line: Line, roots: list[Root]) -> tuple[int, str]:

@@ -334,3 +334,35 @@ def test_solution_dict_is_json_safe():
     json.dumps(sol.to_dict(), allow_nan=False)
     d = copy.deepcopy(sol.to_dict())
     assert d["status"] == "no_operating_point"
+
+
+def crest_turbine_doc():
+    """A set-power turbine fed over a crest: the high-flow root would need the crest below vapour pressure."""
+    doc = gravity_doc(length="1000 m", diameter="300 mm", z_start="100 m", z_end="20 m",
+                      fittings=[{"type": "entrance-sharp", "count": 1}])
+    doc["start"]["outlet_elevation"] = "97 m"
+    doc["elements"][0]["profile"] = [{"chainage": "300 m", "elevation": "96.5 m"}]
+    doc["elements"][0]["end_elevation"] = "18 m"
+    doc["elements"].append({"kind": "turbine", "label": "T1", "mode": "power", "power": "90 kW",
+                            "efficiency": "0.85"})
+    return doc
+
+
+def test_a_point_needing_pressure_below_vapour_cannot_occur_and_is_never_the_design():
+    line = line_of(crest_turbine_doc())
+    sol = solve(line)
+    assert len(sol.points) == 2
+    lo, hi = sol.points
+    # Independent: pressure head at the crest (300 m, 96.5 m) from the energy equation with fluids'
+    # Colebrook: start surface 100 m, sharp entrance 0.5, friction to the crest, velocity head.
+    rho, mu, D = line.liquid.rho, line.liquid.mu, 0.3
+    h_vap = (line.liquid.p_vap - line.p_atm) / (rho * G)
+
+    def crest_head(Q):
+        V = Q / (math.pi * D * D / 4)
+        f = fluids.friction.Colebrook(rho * V * D / mu, 4.5e-5 / D)
+        return 100.0 - (f * 300.0 / D + 0.5 + 1.0) * V * V / (2 * G) - 96.5
+
+    assert crest_head(hi["Q"]) < h_vap < crest_head(lo["Q"])
+    assert lo["attainable"] and not hi["attainable"]
+    assert sol.design_index == 0 and "cannot occur" in hi["why"] and "cannot occur" in sol.message
