@@ -49,6 +49,7 @@ VISCOSITY = _kind("a dynamic viscosity", "Pa*s", "1.0 mPa*s")
 MODULUS = _kind("an elastic modulus", "Pa", "2.19 GPa")
 TEMPERATURE = _kind("a temperature", "K", "12 degC")
 SPEED = _kind("a velocity", "m/s", "2 m/s")
+TIME = _kind("a time", "s", "5 s")
 RATIO = _kind("a plain number or percentage", "", "0.85 or 85 %")
 
 _NUMBER = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*?)\s*$")

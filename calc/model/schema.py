@@ -50,7 +50,7 @@ SCHEMA = {
                                   "description": "a percentage of each run's roughness, or a roughness"},
                 "roughness_high": {"type": ["string", "number", "null"],
                                    "description": "a percentage of each run's roughness, or a roughness"},
-                "surge_allowance": _q("a pressure")}}}},
+                "surge_allowance": _q("a pressure"), "surge_closure_time": _q("a time")}}}},
         "start": {"$ref": "#/$defs/node"},
         "end": {"$ref": "#/$defs/node"},
         "elements": {"type": "array", "maxItems": MAX_ELEMENTS, "items": {"type": "object", "required": ["kind"],

@@ -34,6 +34,7 @@ class CheckSettings:
     roughness_low: tuple | None = None
     roughness_high: tuple | None = None
     surge_allowance: float = 200e3     # [Pa] allowed for surge where it is not calculated
+    surge_closure_time: float = 0.0    # [s] how fast a valve or turbine can stop the flow; 0 = at once
     given: tuple = field(default=(), compare=False)  # names the user set
 
     #: Where each default comes from.
@@ -49,6 +50,7 @@ class CheckSettings:
         "roughness_low": "each run's roughness as given (new pipe, material table)",
         "roughness_high": "each run's aged roughness from the material table (Idelchik 2007 and others)",
         "surge_allowance": SRC_EN805,
+        "surge_closure_time": SRC_PRACTICE + " (screening takes a stop at once, the worst case; give the valve's closure time)",
     }
 
     def source(self, name: str) -> str:

@@ -10,21 +10,8 @@ from calc.model import implied
 from calc.model.elements import Curve, Fitting, Line, Node, PipeRun, Pump, Turbine, Valve
 from calc.model.implied import ENTRANCE_KEYS
 from calc.model.settings import CheckSettings
-from calc.units import (
-    DENSITY,
-    FLOW,
-    LENGTH,
-    MODULUS,
-    POWER,
-    PRESSURE,
-    RATIO,
-    SPEED,
-    TEMPERATURE,
-    VISCOSITY,
-    InputError,
-    Kind,
-    parse_quantity,
-)
+from calc.units import (DENSITY, FLOW, LENGTH, MODULUS, POWER, PRESSURE, RATIO, SPEED, TEMPERATURE, TIME,
+                        VISCOSITY, InputError, Kind, parse_quantity)
 from calc.water import custom_liquid, water
 
 FORMAT = "headsheet-sheet"
@@ -295,6 +282,8 @@ def _check_settings(r: _Reader, d: dict) -> CheckSettings:
     put("k_uncertainty", percent("k_uncertainty", 0.0, 0.9, "the K uncertainty"))
     put("surge_allowance", r.qty(d, "surge_allowance", f"{p}.surge_allowance", PRESSURE, required=False,
                                  lo=0.0, what="the surge allowance"))
+    put("surge_closure_time", r.qty(d, "surge_closure_time", f"{p}.surge_closure_time", TIME, required=False,
+                                    lo=0.0, hi=3600.0, what="the closure time"))
     for key in ("roughness_low", "roughness_high"):
         put(key, _roughness_setting(r, d, key, f"{p}.{key}"))
     s = CheckSettings(**given, given=tuple(given))

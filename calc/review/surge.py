@@ -4,29 +4,51 @@ from __future__ import annotations
 
 import math
 
-from calc.model.elements import Line, PipeRun, Pump
+from calc.model.elements import Line, PipeRun, Pump, Turbine, Valve
 from calc.model.settings import CheckSettings
 from calc.review.findings import RATING_NEAR, SRC_JOUKOWSKY, SRC_KORTEWEG, Finding, label
 from calc.water import G
 
+#: D/e below which a wall counts as thick and takes the thick-wall restraint factor [-] (Wylie and
+#: Streeter 1993: the thin-wall form holds for D/e above about 25).
+THICK_WALL = 25.0
+#: The shortest time over which a tripped pump's flow can stop [s], for the leg between a free surface
+#: and the pump: rotor inertia keeps even small pumps turning for some tenths of a second (common
+#: practice; a transient analysis with the machine's inertia replaces it).
+PUMP_RUNDOWN_MIN = 0.5
 
-def restraint_factor(restraint: str, nu: float) -> float:
-    """Pipe restraint factor c1 of the Korteweg wave speed [-].
 
-    c1 = 1 with expansion joints throughout, 1 - nu^2 anchored against axial movement throughout,
-    1 - nu/2 anchored at the upstream end only; nu is Poisson's ratio of the wall [-].
-    Reference: Wylie, E. B. and Streeter, V. L., Fluid Transients in Systems (1993), thin-walled pipes.
+def restraint_factor(restraint: str, nu: float, e_over_D: float | None = None) -> float:
+    """Pipe restraint factor c1 of the Korteweg wave speed [-], thin or thick wall.
+
+    Thin wall (``e_over_D`` None): c1 = 1 with expansion joints throughout, 1 - nu^2 anchored against
+    axial movement throughout, 1 - nu/2 anchored at the upstream end only.
+    Thick wall (e/D given): c1 = 2 (e/D)(1 + nu) + D (1 - nu^2)/(D + e) anchored throughout,
+    2 (e/D)(1 + nu) + D/(D + e) with expansion joints, 2 (e/D)(1 + nu) + D (1 - nu/2)/(D + e) anchored
+    upstream; each tends to the thin form as e/D goes to 0. nu is Poisson's ratio of the wall [-].
+    Reference: Wylie, E. B. and Streeter, V. L., Fluid Transients in Systems (1993), wave speed in
+    thin- and thick-walled pipes (from memory).
 
     >>> restraint_factor("expansion_joints", 0.3), restraint_factor("anchored", 0.3)
     (1.0, 0.91)
     >>> restraint_factor("anchored_upstream", 0.3)
     0.85
+    >>> round(restraint_factor("anchored", 0.46, 1 / 9), 4)
+    1.034
     """
+    if e_over_D is None:
+        if restraint == "expansion_joints":
+            return 1.0
+        if restraint == "anchored_upstream":
+            return 1.0 - nu / 2.0
+        return 1.0 - nu * nu
+    base = 2.0 * e_over_D * (1.0 + nu)
+    ring = 1.0 / (1.0 + e_over_D)
     if restraint == "expansion_joints":
-        return 1.0
+        return base + ring
     if restraint == "anchored_upstream":
-        return 1.0 - nu / 2.0
-    return 1.0 - nu * nu
+        return base + (1.0 - nu / 2.0) * ring
+    return base + (1.0 - nu * nu) * ring
 
 
 def korteweg_wave_speed(K: float, rho: float, D: float, e: float, E: float, c1: float = 1.0) -> float:
@@ -66,8 +88,12 @@ def pipeline_period(lengths_and_speeds) -> float:
     return 2.0 * sum(L / a for L, a in lengths_and_speeds)
 
 
-def wave_speed(line: Line, run: PipeRun) -> tuple[float | None, str]:
-    """Korteweg wave speed of one run [m/s], or None with what is missing."""
+def wave_speed_detail(line: Line, run: PipeRun) -> dict:
+    """Korteweg wave speed of one run with every input, or ``missing`` naming what is not known.
+
+    The thick-wall restraint factor is used where D/e is below THICK_WALL (PE of SDR 7.4 to 17 and
+    most plastic pipe), the thin-wall one elsewhere.
+    """
     missing = []
     K = line.liquid.bulk_modulus
     if not K:
@@ -77,47 +103,159 @@ def wave_speed(line: Line, run: PipeRun) -> tuple[float | None, str]:
     if not run.wall:
         missing.append("the wall thickness")
     if missing:
-        return None, " and ".join(missing)
+        return {"a": None, "missing": " and ".join(missing)}
     mat = run.material
-    c1 = restraint_factor(run.restraint, mat.nu_poisson)
-    return korteweg_wave_speed(K, line.liquid.rho, run.D, run.wall, mat.E, c1), ""
+    D_e = run.D / run.wall
+    thick = D_e < THICK_WALL
+    c1 = restraint_factor(run.restraint, mat.nu_poisson, run.wall / run.D if thick else None)
+    a = korteweg_wave_speed(K, line.liquid.rho, run.D, run.wall, mat.E, c1)
+    return {"a": a, "missing": "", "c1": c1, "form": "thick-wall" if thick else "thin-wall", "D_over_e": D_e,
+            "E": mat.E, "nu": mat.nu_poisson, "K": K, "e": run.wall, "D": run.D, "rho": line.liquid.rho,
+            "restraint": run.restraint}
+
+
+def wave_speed(line: Line, run: PipeRun) -> tuple[float | None, str]:
+    """Korteweg wave speed of one run [m/s], or None with what is missing."""
+    w = wave_speed_detail(line, run)
+    return w["a"], w["missing"]
+
+
+def describe_wave_speed(w: dict) -> str:
+    """The wave speed with the inputs a checker needs to repeat it."""
+    return (f"wave speed {w['a']:.0f} m/s (Korteweg, {w['form']} restraint factor c1 = {w['c1']:.4f} for "
+            f"{w['restraint'].replace('_', ' ')}, D/e = {w['D_over_e']:.1f}; E = {w['E'] / 1e9:.4g} GPa, "
+            f"nu = {w['nu']:.3g}, e = {w['e'] * 1e3:.4g} mm, D = {w['D'] * 1e3:.4g} mm, K = {w['K'] / 1e9:.4g} GPa, "
+            f"rho = {w['rho']:.1f} kg/m3)")
+
+
+def _first_up(text: str) -> str:
+    return text[:1].upper() + text[1:]
+
+
+def _stoppers(line: Line) -> list[tuple[int, str]]:
+    """Where the flow can be stopped: each valve, turbine and pump (index, kind); with none, a closure
+    at the downstream end of the line (index = number of elements)."""
+    out = [(i, "pump" if isinstance(el, Pump) else "valve" if isinstance(el, Valve) else "turbine")
+           for i, el in enumerate(line.elements) if isinstance(el, (Valve, Turbine, Pump))]
+    return out or [(len(line.elements), "end")]
+
+
+def surge_waves(line: Line, point: dict, speeds: dict[int, dict], s: CheckSettings) -> dict[int, dict]:
+    """The surge each run sees when the flow stops at each place it can: ``up`` (rise) and ``down`` (drop) [m].
+
+    The stop sends a wave F = Z Q both ways (Z = a / (g A) of the run next to it, Joukowsky); at a
+    change of pipe the wave passing from run 1 into run 2 carries on as 2 Z2 / (Z1 + Z2) times its
+    height (Wylie and Streeter 1993). Upstream of a valve or turbine the head rises, downstream it
+    falls; a tripped pump sends a rise up its suction and a drop down its discharge. Where the
+    wave's path ends at a free surface its reflection returns after the round trip t_r = 2 sum(L/a):
+    a stop that takes T longer than that gives only about F t_r / T (Michaud), which bounds the short
+    leg from a sump to a pump.
+    """
+    out: dict[int, dict] = {i: {"up": 0.0, "up_from": "", "down": 0.0, "down_from": ""}
+                            for i, el in enumerate(line.elements) if isinstance(el, PipeRun)}
+    Q = point["Q"]
+    for k, kind in _stoppers(line):
+        name = "the end of the line" if kind == "end" else label(line, k)
+        for direction in ("up", "down"):
+            idx = range(k - 1, -1, -1) if direction == "up" else range(k + 1, len(line.elements))
+            runs = [j for j in idx if isinstance(line.elements[j], PipeRun)]
+            if not runs:
+                continue
+            rises = direction == "up"   # a stop raises the head upstream of it and drops it downstream
+            path, F, Z_prev = [], None, None
+            for j in runs:
+                w = speeds[j]
+                if w["a"] is None:
+                    path.append((j, None))
+                    continue
+                Z = w["a"] / (G * line.elements[j].A)
+                F = Z * Q if F is None else F * 2.0 * Z / (Z_prev + Z)
+                Z_prev = Z
+                path.append((j, F))
+            node = line.start if direction == "up" else line.end
+            t_r = 2.0 * sum(line.elements[j].L / speeds[j]["a"] for j in runs if speeds[j]["a"])
+            T = PUMP_RUNDOWN_MIN if kind == "pump" else s.surge_closure_time
+            factor = min(1.0, t_r / T) if (node.kind == "reservoir" and T > 0.0 and all(speeds[j]["a"] for j in runs)) else 1.0
+            what = {"pump": "a trip of", "valve": "a sudden closure of", "turbine": "a load rejection at",
+                    "end": "a sudden closure at"}[kind] + " " + name
+            note = (f" (short leg: round trip {t_r:.3g} s against a stop of at least {T:g} s, so "
+                    f"{factor * 100:.0f} % of the full wave)" if factor < 1.0 else "")
+            for j, Fj in path:
+                if Fj is None:
+                    continue
+                h = Fj * factor
+                keys = [("up" if rises else "down", what + note)]
+                if kind == "pump" and not rises and h > 0.0:
+                    # After the down-surge the column comes back against the closing check valve and the
+                    # head rises about as far above steady (screening; a transient analysis tells).
+                    keys.append(("up", f"the column's return after {what} (check valve closing)" + note))
+                for key, text in keys:
+                    if h > out[j][key]:
+                        out[j][key] = h
+                        out[j][key + "_from"] = text
+    return out
 
 
 def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
-    """Screening only: Korteweg wave speed, Joukowsky rise for a sudden stop, and the run's rating."""
+    """Screening only: each run's wave speed, the surge reaching it from where the flow can stop, and its rating."""
     out = []
     rho = line.liquid.rho
     rg = rho * G
     period_parts = []
     complete = True
     by_index = {d["index"]: d for d in point["elements"]}
+    speeds = {i: wave_speed_detail(line, el) for i, el in enumerate(line.elements) if isinstance(el, PipeRun)}
+    waves = surge_waves(line, point, speeds, s)
+    h_vap = (line.liquid.p_vap - line.p_atm) / rg
     for i, el in enumerate(line.elements):
         if not isinstance(el, PipeRun):
             continue
         d = by_index[i]
         name = label(line, i)
-        heads = [st["pressure_head"] for st in point["profile"] if st["element"] == i]
+        stations = [st for st in point["profile"] if st["element"] == i]
+        heads = [st["pressure_head"] for st in stations]
         h_max = max(heads) if heads else 0.0
         p_steady = rg * h_max
-        a, missing = wave_speed(line, el)
-        if a is None:
+        w = speeds[i]
+        wave = waves[i]
+        if w["a"] is None:
             complete = False
             out.append(Finding("info", "surge-wave-speed-missing", f"{name}: wave speed not computed",
-                               f"Give {missing} to screen this run for surge; meanwhile an allowance of "
+                               f"Give {w['missing']} to screen this run for surge; meanwhile an allowance of "
                                f"{s.surge_allowance / 1e3:.0f} kPa is used against its rating.",
                                None, None, None, s.source("surge_allowance"), i))
             surge, how, src = s.surge_allowance, "the surge allowance", s.source("surge_allowance")
         else:
-            period_parts.append((el.L, a))
-            dH = joukowsky_head(a, d["V"])
+            period_parts.append((el.L, w["a"]))
+            dH = wave["up"]
+            own = joukowsky_head(w["a"], d["V"])
             surge, src = rg * dH, SRC_JOUKOWSKY
-            how = f"a Joukowsky rise of {dH:.1f} m ({rg * dH / 1e3:.0f} kPa) for a sudden stop"
-            out.append(Finding(
-                "info", "surge-screen", f"{name}: surge screening",
-                f"Wave speed {a:.0f} m/s (Korteweg, {el.restraint.replace('_', ' ')}); stopping "
-                f"{d['V']:.2f} m/s faster than the pipeline period gives a head rise of {dH:.1f} m "
-                f"({rg * dH / 1e3:.0f} kPa). Screening estimate, not a transient analysis.",
-                rg * dH, None, "pressure", SRC_KORTEWEG + "; " + SRC_JOUKOWSKY, i))
+            if dH > 0.0:
+                how = f"a rise of {dH:.1f} m ({rg * dH / 1e3:.0f} kPa) from {wave['up_from']}"
+                text = (f"{_first_up(describe_wave_speed(w))}. The surge reaching this run is a rise of {dH:.1f} m "
+                        f"({rg * dH / 1e3:.0f} kPa) from {wave['up_from']}; its own velocity {d['V']:.2f} m/s "
+                        f"stopped at once would give a V / g = {own:.1f} m.")
+            else:
+                how = "no rise (it lies downstream of where the flow stops)"
+                text = (f"{_first_up(describe_wave_speed(w))}. No rise reaches this run: it lies downstream of "
+                        "every place where the flow can stop, so it sees the drop instead.")
+            out.append(Finding("info", "surge-screen", f"{name}: surge screening",
+                               text + " Screening estimate, not a transient analysis.",
+                               rg * dH, None, "pressure", SRC_KORTEWEG + "; " + SRC_JOUKOWSKY, i))
+            # The end of a run on a fixed-head boundary (a tank, a point of known pressure) keeps its head.
+            fixed_end = i == len(line.elements) - 1 and line.end.kind != "jet"
+            candidates = stations[:-1] if fixed_end else stations
+            if wave["down"] > 0.0 and candidates:
+                low = min(candidates, key=lambda st: st["pressure_head"])
+                if low["pressure_head"] - wave["down"] <= h_vap:
+                    out.append(Finding(
+                        "warning", "surge-column-separation", f"{name}: column separation likely on the down-surge",
+                        f"The drop of {wave['down']:.1f} m from {wave['down_from']} takes the head at chainage "
+                        f"{low['chainage']:.1f} m (steady pressure head {low['pressure_head']:.2f} m) down to vapour "
+                        "pressure: the column is likely to part there, and its rejoining gives the worst surge. "
+                        "Slow the stop, add protection (an air vessel, a surge tank, air admission), or confirm "
+                        "with a transient analysis.", rg * (low["pressure_head"] - wave["down"]), rg * h_vap,
+                        "pressure", SRC_JOUKOWSKY, i, low["chainage"]))
         peak = p_steady + surge
         if el.rating:
             text = (f"Highest steady pressure {p_steady / 1e3:.0f} kPa plus {how} gives {peak / 1e3:.0f} kPa "
