@@ -64,6 +64,18 @@ class PipeSize:
     ID: float
     source: str
     pressure_class: str | None
+    #: The standard's minimum wall [m] where ``wall`` is the mean wall from the tolerance (plastics).
+    wall_min: float | None = None
+
+
+def wall_tolerance_grade_v(e_min: float) -> float:
+    """Largest wall allowed by ISO 11922-1 grade V [m]: e_min + (0.1 e_min + 0.1 mm), the tolerance rounded up to 0.1 mm.
+
+    >>> round(wall_tolerance_grade_v(0.0100) * 1e3, 6), round(wall_tolerance_grade_v(0.0082) * 1e3, 6)
+    (11.1, 9.2)
+    """
+    tol_tenths = math.ceil(round((0.1 * e_min * 1e3 + 0.1) * 10.0, 9))
+    return e_min + tol_tenths / 10.0 * MM
 
 
 @dataclass(frozen=True)
@@ -141,6 +153,10 @@ def _load_sizes(name: str) -> tuple[str, dict[tuple[str, str], PipeSize], list[s
     std = data["standard"]
     src = data["sources"]
     classes = data["classes"]
+    tol = data.get("wall_tolerance")
+    if tol and tol.get("grade") != "V":
+        raise ValueError(f"{name}: only the grade V wall tolerance is known here")
+    tolerance = ("; mean wall from e_min and e_max, " + _cite(src, tol["source"], None, name)) if tol else ""
     table: dict[tuple[str, str], PipeSize] = {}
     nominals: list[str] = []
     for row in data["sizes"]:
@@ -154,9 +170,13 @@ def _load_sizes(name: str) -> tuple[str, dict[tuple[str, str], PipeSize], list[s
             pressure = info.get("pressure_class") if isinstance(info, dict) else None
             OD = row["OD_mm"] * MM
             wall = wall_mm * MM
+            wall_min = None
+            if tolerance:
+                # The real wall lies between e_min and e_max: the mean gives the bore that carries the flow.
+                wall_min, wall = wall, (wall + wall_tolerance_grade_v(wall)) / 2.0
             table[(row["nominal"], klass)] = PipeSize(
                 standard=std, nominal=row["nominal"], klass=klass, OD=OD, wall=wall,
-                ID=OD - 2.0 * wall, source=citation, pressure_class=pressure,
+                ID=OD - 2.0 * wall, source=citation + tolerance, pressure_class=pressure, wall_min=wall_min,
             )
     return data["name"], table, nominals, list(classes)
 
@@ -314,8 +334,8 @@ def pipe_size(standard: str, nominal: str, klass: str) -> PipeSize:
 
     >>> p = pipe_size("asme-b36.10m", "2", "40"); round(p.ID * 1e3, 2)
     52.48
-    >>> p = pipe_size("pe-iso4427", "110", "SDR11"); round(p.wall * 1e3, 1), p.pressure_class
-    (10.0, 'PN16')
+    >>> p = pipe_size("pe-iso4427", "110", "SDR11"); round(p.wall_min * 1e3, 2), round(p.wall * 1e3, 2), p.pressure_class
+    (10.0, 10.55, 'PN16')
     """
     name, table, nominals, classes = _standard(standard)
     nom = _canonical_nominal(standard, nominal)

@@ -294,8 +294,8 @@ def test_pe_outside_diameters_are_the_iso_161_1_series():
 
 def test_pe_110_against_references():
     # ISO 4427-2 / EN 12201-2, references.md [memory]: OD 110 wall 10.0 (SDR 11), 6.6 (SDR 17).
-    assert t.pipe_size("pe-iso4427", "110", "SDR11").wall * 1e3 == pytest.approx(10.0, abs=1e-9)
-    assert t.pipe_size("pe-iso4427", "110", "SDR17").wall * 1e3 == pytest.approx(6.6, abs=1e-9)
+    assert t.pipe_size("pe-iso4427", "110", "SDR11").wall_min * 1e3 == pytest.approx(10.0, abs=1e-9)
+    assert t.pipe_size("pe-iso4427", "110", "SDR17").wall_min * 1e3 == pytest.approx(6.6, abs=1e-9)
     # Note: ceil(110/17, 0.1 mm) would give 6.5; the printed 6.6 comes from ISO 4065's exact S.
     assert math.ceil(110 / 17 * 10) / 10 == 6.5
 
@@ -332,7 +332,10 @@ def test_pe_wall_follows_iso_4065(od, klass, wall, raised):
     # The class label is the nominal SDR: 2S + 1 with S exact differs from it by under 1.5 %.
     assert (2 * S_EXACT[klass] + 1) == pytest.approx(float(klass[3:]), rel=0.015)
     p = t.pipe_size("pe-iso4427", str(od), klass)
-    assert p.ID == pytest.approx((od - 2 * wall) * 1e-3, rel=1e-12)
+    # The bore uses the mean wall between e_min and e_max (ISO 11922-1 grade V: 0.1 e + 0.1 mm, rounded up).
+    e_max = wall + math.ceil(round((0.1 * wall + 0.1) * 10, 9)) / 10
+    assert p.wall_min == pytest.approx(wall * 1e-3, rel=1e-12)
+    assert p.ID == pytest.approx((od - (wall + e_max)) * 1e-3, rel=1e-12)
 
 
 @pytest.mark.parametrize(
@@ -348,7 +351,21 @@ def test_pe_wall_follows_iso_4065(od, klass, wall, raised):
     ],
 )
 def test_pe_wall_against_published_table(od, klass, wall):
-    assert t.pipe_size("pe-iso4427", str(od), klass).wall * 1e3 == pytest.approx(wall, abs=1e-9)
+    assert t.pipe_size("pe-iso4427", str(od), klass).wall_min * 1e3 == pytest.approx(wall, abs=1e-9)
+
+
+@pytest.mark.parametrize("od, klass, e_min, e_max", [
+    # e_min and e_max as printed in a national adoption of the PE pipe standard (MS 1058-2:2005,
+    # tolerances to grade V of ISO 11922-1), read, not recalled.
+    (90, "SDR11", 8.2, 9.2), (110, "SDR11", 10.0, 11.1), (315, "SDR11", 28.6, 31.6), (500, "SDR11", 45.4, 50.1),
+    (250, "SDR17", 14.8, 16.4), (160, "SDR7.4", 21.9, 24.2), (355, "SDR13.6", 26.1, 28.9),
+])
+def test_pe_mean_wall_from_the_grade_v_tolerance(od, klass, e_min, e_max):
+    p = t.pipe_size("pe-iso4427", str(od), klass)
+    assert t.wall_tolerance_grade_v(e_min * 1e-3) * 1e3 == pytest.approx(e_max, abs=1e-9)
+    assert p.wall * 1e3 == pytest.approx((e_min + e_max) / 2, abs=1e-9)
+    assert p.ID * 1e3 == pytest.approx(od - (e_min + e_max), abs=1e-9)
+    assert "ISO 11922-1" in p.source
 
 
 # ---------------------------------------------------------------------------

@@ -327,8 +327,9 @@ def test_inputs_show_the_text_as_typed_its_si_value_and_its_source(hydro, coolin
     rows = [row for t in record.build(hydro).inputs for row in t.rows]
     assert ["Length L", "640 m", "640 m", "typed"] in rows
     diameter = next(r for r in rows if r[0] == "Inner diameter D" and "315" in r[1])
-    # ISO 4427-2: PE 315 SDR 17, wall 18.7 mm, bore 315 - 2 x 18.7 = 277.6 mm.
-    assert diameter[2] == "0.2776 m" and diameter[3].startswith("size table")
+    # ISO 4427-2: PE 315 SDR 17, e_min 18.7 mm, e_max 20.7 mm (ISO 11922-1 grade V), mean wall 19.7 mm,
+    # bore 315 - 2 x 19.7 = 275.6 mm.
+    assert diameter[2] == "0.2756 m" and diameter[3].startswith("size table")
     roughness = next(r for r in rows if r[0] == "Roughness ε" and "pe100" in r[1])
     assert "material table" in roughness[3]
     # US customary as typed: 38 psi = 38 x 6894.757 Pa (psi by definition, NIST SP 811) = 262001 Pa.
