@@ -424,6 +424,22 @@ METHODS: dict[str, FrictionMethod] = {
 }
 
 
+#: A method name may end in '@laminar' or '@turbulent': in transitional flow (Re 2000-4000) the
+#: friction factor is then held at that bound (64/Re, or the turbulent formula) instead of the blend,
+#: which is how the range of the answer bounds a flow whose friction factor nobody can predict.
+TRANSITION_BOUNDS = {"laminar": 0.0, "turbulent": 1.0}
+
+
+def _bound(method: str) -> tuple[str, str]:
+    """(method, transition bound or '') from a method name such as 'colebrook@laminar'."""
+    if isinstance(method, str) and "@" in method:
+        base, _, bound = method.partition("@")
+        if bound not in TRANSITION_BOUNDS:
+            raise ValueError(f"unknown transition bound {bound!r}; choose laminar or turbulent")
+        return base, bound
+    return method, ""
+
+
 def _method(method: str) -> FrictionMethod:
     try:
         return METHODS[method]
@@ -475,6 +491,7 @@ def friction_factor(Re: float, eD: float, method: str = "colebrook") -> float:
     Hagen-Poiseuille laminar law, f = 64/Re, e.g. White, F. M., Fluid Mechanics.
     Turbulent correlations: see `METHODS`.
     """
+    method, bound = _bound(method)
     m = _method(method)
     if not (Re > 0.0 and eD >= 0.0):
         _check(Re, eD)
@@ -485,7 +502,7 @@ def friction_factor(Re: float, eD: float, method: str = "colebrook") -> float:
     ft = m.scalar(Re, eD)
     if Re >= RE_TURBULENT:
         return ft
-    w = (Re - RE_LAMINAR) / (RE_TURBULENT - RE_LAMINAR)
+    w = (Re - RE_LAMINAR) / (RE_TURBULENT - RE_LAMINAR) if not bound else TRANSITION_BOUNDS[bound]
     return (1.0 - w) * (64.0 / Re) + w * ft
 
 
@@ -498,6 +515,7 @@ def friction_factor_array(Re: np.ndarray, eD: float, method: str = "colebrook") 
     >>> np.round(friction_factor_array(np.array([1000.0, 1e5]), 1e-4), 7).tolist()
     [0.064, 0.0185139]
     """
+    method, bound = _bound(method)
     m = _method(method)
     Re = np.asarray(Re, dtype=float)
     shape = Re.shape
@@ -513,6 +531,8 @@ def friction_factor_array(Re: np.ndarray, eD: float, method: str = "colebrook") 
         Rt = Re[turb]
         ft = m.array(Rt, eD[turb])
         w = np.minimum((Rt - RE_LAMINAR) / (RE_TURBULENT - RE_LAMINAR), 1.0)
+        if bound:
+            w = np.full_like(w, TRANSITION_BOUNDS[bound])
         # Same arithmetic as the scalar path, so the two agree to the last rounding.
         f[turb] = np.where(Rt >= RE_TURBULENT, ft, (1.0 - w) * (64.0 / Rt) + w * ft)
     return f.reshape(shape)

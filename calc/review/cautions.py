@@ -13,13 +13,20 @@ def band_findings(band: dict) -> list[Finding]:
     if band.get("Q_low") is None:
         return out
     Qn, lo, hi = band["Q_nominal"], band["Q_low"], band["Q_high"]
+    tail = "Quote the answer to that precision."
+    severity = "info"
+    if band.get("transitional"):
+        tail = (f"{', '.join(band['transitional'])} run{'s' if len(band['transitional']) > 1 else ''} in transitional "
+                "flow (Re 2000-4000), where nobody can predict the friction factor: the flow may lie anywhere in this "
+                "range. Change the bore or the flow to move out of the transition zone.")
+        severity = "warning"
     out.append(Finding(
-        "info", "band-flow", "Range of the answer",
+        severity, "band-flow", "Range of the answer",
         f"Flow {Qn * 1e3:.3g} L/s; with {band['describe']}, it lies between {lo * 1e3:.3g} and {hi * 1e3:.3g} L/s "
-        f"({100 * (lo / Qn - 1):+.1f} % / {100 * (hi / Qn - 1):+.1f} %). Quote the answer to that precision.",
+        f"({100 * (lo / Qn - 1):+.1f} % / {100 * (hi / Qn - 1):+.1f} %). {tail}",
         Qn, None, "flow", band["source"]))
     for m in band.get("machines", []):
-        if m["low"] is None or m["nominal"] is None or m["low"] == m["high"]:
+        if m["low"] is None or m["nominal"] is None or abs(m["high"] - m["low"]) <= 1e-6 * abs(m["nominal"]):
             continue
         q = m["quantity"]
         unit, scale = ("kW", 1e-3) if q == "power" else ("m", 1.0)

@@ -180,6 +180,15 @@ def band(line: Line, solution: Solution, settings: CheckSettings | None = None) 
     for m in friction.METHODS:
         if m != line.method:
             plan["friction"].append((f"friction-{m}", f"the {m.replace('_', ' ')} formula", {"method": m}))
+    # In transitional flow the friction factor may lie anywhere from the laminar to the turbulent value.
+    transitional = [d["label"] or "a run" for d in point["elements"] if d["kind"] == "pipe"
+                    and d["regime"] == "transitional"]
+    if transitional and not friction.METHODS[line.method].all_regimes:
+        plan["transition"] = [
+            ("transition-laminar", "laminar friction (64/Re) in the transitional runs",
+             {"method": f"{line.method}@laminar"}),
+            ("transition-turbulent", "turbulent friction in the transitional runs",
+             {"method": f"{line.method}@turbulent"})]
 
     cases = []
     solves = scans = 0
@@ -222,13 +231,16 @@ def band(line: Line, solution: Solution, settings: CheckSettings | None = None) 
     for c in cases:
         # A machine's head and power depend on the flow and the liquid only, not on the pipe data.
         c["machines"] = _machine_values(line, c["Q"])
-        c["method"] = c["args"].get("method", line.method)
+        c["method"] = c["args"].get("method", line.method).partition("@")[0]
         del c["args"]
 
     machines = []
     for j, m in enumerate(nominal_machines):
         el = line.elements[m["index"]]
-        if isinstance(el, Turbine):
+        if isinstance(el, Turbine) and el.mode == "power":
+            # At a set power the shaft power is fixed; what the uncertain line changes is the flow and net head.
+            what, q, key = "net head", "head", "head"
+        elif isinstance(el, Turbine):
             what, q, key = "shaft power", "power", "power_shaft"
         else:
             what, q, key = "pump head", "head", "head"
@@ -247,11 +259,14 @@ def band(line: Line, solution: Solution, settings: CheckSettings | None = None) 
         parts.append(f"fitting K values +/-{k * 100:g} %")
     if plan["friction"]:
         parts.append("each friction formula")
+    if plan.get("transition"):
+        parts.append("the friction factor from laminar to turbulent in the transitional runs")
     return {
         "Q_nominal": Q0, "Q_low": min(flows), "Q_high": max(flows),
         "describe": (" and ".join(parts) if len(parts) < 3 else ", ".join(parts[:-1]) + " and " + parts[-1])
                     or "no changes",
         "factors": factors, "cases": cases, "machines": machines, "notes": notes,
         "complete": all(c["Q"] is not None for c in cases),
+        "transitional": transitional if plan.get("transition") else [],
         "solves": solves, "full_scans": scans, "source": SOURCE,
     }
