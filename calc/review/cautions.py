@@ -4,11 +4,12 @@ from __future__ import annotations
 
 from calc.model.elements import Line, Pump, Turbine
 from calc.model.settings import SRC_EN805, SRC_PRACTICE
-from calc.review.findings import SRC_AIR, Finding
+from calc.review.findings import SRC_AIR, Finding, Shown
 
 
-def band_findings(band: dict) -> list[Finding]:
+def band_findings(band: dict, u: Shown | None = None) -> list[Finding]:
     """The uncertainty band as findings: the flow range, and any case without an operating point."""
+    u = u or Shown()
     out = []
     if band.get("Q_low") is None:
         return out
@@ -22,18 +23,17 @@ def band_findings(band: dict) -> list[Finding]:
         severity = "warning"
     out.append(Finding(
         severity, "band-flow", "Range of the answer",
-        f"Flow {Qn * 1e3:.3g} L/s; with {band['describe']}, it lies between {lo * 1e3:.3g} and {hi * 1e3:.3g} L/s "
+        f"Flow {u(Qn, 'flow', '.3g')}; with {band['describe']}, it lies between {u(lo, 'flow', '.3g')} and {u(hi, 'flow', '.3g')} "
         f"({100 * (lo / Qn - 1):+.1f} % / {100 * (hi / Qn - 1):+.1f} %). {tail}",
         Qn, None, "flow", band["source"]))
     for m in band.get("machines", []):
         if m["low"] is None or m["nominal"] is None or abs(m["high"] - m["low"]) <= 1e-6 * abs(m["nominal"]):
             continue
         q = m["quantity"]
-        unit, scale = ("kW", 1e-3) if q == "power" else ("m", 1.0)
         out.append(Finding(
             "info", f"band-{m['kind']}", f"{m['label']}: range",
-            f"{m['what'].capitalize()} {m['nominal'] * scale:.3g} {unit}, between {m['low'] * scale:.3g} and "
-            f"{m['high'] * scale:.3g} {unit} over the same cases.", m["nominal"], None, q, band["source"],
+            f"{m['what'].capitalize()} {u(m['nominal'], q, '.3g')}, between {u(m['low'], q, '.3g')} and "
+            f"{u(m['high'], q, '.3g')} over the same cases.", m["nominal"], None, q, band["source"],
             m["index"]))
     lost = [c for c in band["cases"] if c["Q"] is None]
     if lost:

@@ -6,7 +6,7 @@ from calc.model.elements import Line
 from calc.model.settings import CheckSettings
 from calc.review.cautions import band_findings, general_cautions
 from calc.review.curves import curve_findings
-from calc.review.findings import SEVERITIES, Finding
+from calc.review.findings import SEVERITIES, Finding, shown_in
 from calc.review.flow import regime_findings, velocity_findings
 from calc.review.machines import pump_findings, turbine_findings
 from calc.review.pressure import pressure_findings
@@ -29,7 +29,7 @@ def review(line: Line, solution: Solution, settings: CheckSettings | None = None
         findings += surge_findings(line, point, settings)
     findings += curve_findings(line, solution)
     if band is not None:
-        findings += band_findings(band)
+        findings += band_findings(band, shown_in(line))
     findings += general_cautions(line)
     findings.sort(key=lambda f: SEVERITIES.index(f.severity))
     return findings

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from calc.model.elements import EXTRAPOLATION_LIMIT, Line, Pump, Turbine
 from calc.model.settings import SRC_PRACTICE
-from calc.review.findings import Finding, label
+from calc.review.findings import Finding, label, shown_in
 from calc.steady.series import Solution
 
 SRC_CURVE = "machine curve as typed: the maker's test points; outside them nothing is known"
@@ -18,13 +18,14 @@ def _point_name(solution: Solution, k: int) -> str:
 
 def curve_findings(line: Line, solution: Solution) -> list[Finding]:
     """Rising head curves, efficiencies assumed, and, at every operating point, curves read past their typed points."""
+    u = shown_in(line)
     out: list[Finding] = []
     for i, el in enumerate(line.elements):
         name = label(line, i)
         if isinstance(el, Pump) and el.curve is not None:
             rising = el.curve.rising_stretches()
             if rising:
-                spans = ", ".join(f"{a * 1e3:.4g}-{b * 1e3:.4g} L/s" for a, b in rising)
+                spans = ", ".join(f"{a * 1e3:.4g}-{u(b, 'flow', '.4g')}" for a, b in rising)
                 out.append(Finding(
                     "caution", "pump-curve-rising", f"{name}: head rises with flow",
                     f"The typed head does not fall with flow between {spans}. A pump whose head rises with flow "
@@ -43,11 +44,11 @@ def curve_findings(line: Line, solution: Solution) -> list[Finding]:
             i = d["index"]
             lo, hi = d["curve_range"]
             Q = point["Q"]
-            span = f"{lo * 1e3:.4g} to {hi * 1e3:.4g} L/s"
+            span = f"{lo * 1e3:.4g} to {u(hi, 'flow', '.4g')}"
             if d.get("beyond_curve_limit"):
                 out.append(Finding(
                     "error", "curve-beyond-limit", f"{label(line, i)}: far outside its curve",
-                    f"At {where}, {Q * 1e3:.4g} L/s, the flow lies more than {EXTRAPOLATION_LIMIT * 100:.0f} % beyond "
+                    f"At {where}, {u(Q, 'flow', '.4g')}, the flow lies more than {EXTRAPOLATION_LIMIT * 100:.0f} % beyond "
                     f"the typed curve points ({span}): the machine's head there is not known, so this operating "
                     "point is not a result. Type the curve out to this flow, or change the line.",
                     Q, hi * (1 + EXTRAPOLATION_LIMIT) if Q > hi else lo * (1 - EXTRAPOLATION_LIMIT), "flow",
@@ -55,7 +56,7 @@ def curve_findings(line: Line, solution: Solution) -> list[Finding]:
             else:
                 out.append(Finding(
                     "warning", "curve-extrapolated", f"{label(line, i)}: outside the typed curve",
-                    f"At {where}, {Q * 1e3:.4g} L/s lies outside the typed curve points ({span}): head, efficiency "
+                    f"At {where}, {u(Q, 'flow', '.4g')} lies outside the typed curve points ({span}): head, efficiency "
                     "and NPSH required are carried on straight from the last points, which the maker has not "
                     "tested. Confirm with the maker's curve.", Q, hi if Q > hi else lo, "flow", SRC_CURVE, i))
     return out

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import asdict, dataclass
 
 from calc.model.elements import Line, PipeRun, Pump, Valve
+from calc.units import to_display
 
 #: Severity order, worst first.
 SEVERITIES = ("error", "warning", "caution", "info")
@@ -75,3 +76,20 @@ def suction_runs(line: Line) -> set[int]:
                 out.add(j)
                 j -= 1
     return out
+
+
+class Shown:
+    """A value in the sheet's own units for a finding's words: ``u(0.0432, "flow", ".3g")`` gives '43.2 L/s'
+    on an SI sheet and '685 gpm' on a US one (the value and limit fields stay SI)."""
+
+    def __init__(self, system: str = "SI"):
+        self.system = system if system in ("SI", "US") else "SI"
+
+    def __call__(self, value: float, quantity: str, spec: str) -> str:
+        v, unit = to_display(value, quantity, self.system)
+        return f"{v:{spec}} {unit}"
+
+
+def shown_in(line: Line) -> Shown:
+    """The display units of the sheet the line came from."""
+    return Shown((line.header or {}).get("units", "SI"))

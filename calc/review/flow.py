@@ -4,10 +4,11 @@ from __future__ import annotations
 
 from calc.model.elements import Line
 from calc.model.settings import CheckSettings
-from calc.review.findings import SRC_LAMINAR, SRC_TRANSITION, Finding, suction_runs
+from calc.review.findings import SRC_LAMINAR, SRC_TRANSITION, Finding, shown_in, suction_runs
 
 
 def velocity_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
+    u = shown_in(line)
     out = []
     suction = suction_runs(line)
     for d in point["elements"]:
@@ -20,12 +21,12 @@ def velocity_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding
         where = "pump suction" if is_suction else "pipe run"
         if d["V"] > vmax:
             out.append(Finding("warning", "velocity-high", f"{d['label']}: velocity high",
-                               f"Velocity {d['V']:.2f} m/s exceeds the {where} limit of {vmax:g} m/s: "
+                               f"Velocity {u(d['V'], 'velocity', '.2f')} exceeds the {where} limit of {u(vmax, 'velocity', '.3g')}: "
                                "expect high losses, erosion, noise and larger surge on closure.",
                                d["V"], vmax, "velocity", s.source(name), i))
         elif d["V"] < s.velocity_min:
             out.append(Finding("info", "velocity-low", f"{d['label']}: velocity low",
-                               f"Velocity {d['V']:.2f} m/s is below {s.velocity_min:g} m/s: sediment may "
+                               f"Velocity {u(d['V'], 'velocity', '.2f')} is below {u(s.velocity_min, 'velocity', '.3g')}: sediment may "
                                "settle and air may collect at high points.",
                                d["V"], s.velocity_min, "velocity", s.source("velocity_min"), i))
     return out

@@ -13,6 +13,7 @@ from calc.review.findings import (
     SRC_PENSTOCK,
     Finding,
     label,
+    shown_in,
 )
 from calc.steady.series import Solution
 from calc.water import G
@@ -60,6 +61,7 @@ def _machine_stations(point: dict, i: int) -> tuple[dict, dict] | None:
 
 
 def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
+    u = shown_in(line)
     out = []
     rho, p_atm, p_vap = line.liquid.rho, line.p_atm, line.liquid.p_vap
     rg = rho * G
@@ -73,9 +75,9 @@ def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
         stations = _machine_stations(point, i)
         eta = d["efficiency"]
         P = d["power_shaft"]
-        msg = (f"At {Q * 1e3:.2f} L/s the pump adds {d['head']:.2f} m; hydraulic power "
-               f"{d['power_hydraulic'] / 1e3:.2f} kW")
-        msg += (f", efficiency {eta:.3f}, shaft power {P / 1e3:.2f} kW." if eta and P else
+        msg = (f"At {u(Q, 'flow', '.2f')} the pump adds {u(d['head'], 'head', '.2f')}; hydraulic power "
+               f"{u(d['power_hydraulic'], 'power', '.2f')}")
+        msg += (f", efficiency {eta:.3f}, shaft power {u(P, 'power', '.2f')}." if eta and P else
                 "; no efficiency given, so no shaft power.")
         out.append(Finding("info", "pump-duty", f"{name}: duty point", msg, P if P else d["power_hydraulic"],
                            None, "power", "pump curve through the typed points", i))
@@ -85,8 +87,8 @@ def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
             p_abs = p_atm + rg * inlet["pressure_head"]
             npsha = npsh_available(p_abs, math.sqrt(max(2 * G * V2g, 0.0)), p_vap, rho)
             npshr = d.get("npsh_required")
-            basis = (f"NPSH available {npsha:.2f} m at the pump inlet (elevation {inlet['elevation']:.2f} m, "
-                     f"absolute pressure {p_abs / 1e3:.1f} kPa, vapour pressure {p_vap / 1e3:.2f} kPa)")
+            basis = (f"NPSH available {u(npsha, 'head', '.2f')} at the pump inlet (elevation {u(inlet['elevation'], 'head', '.2f')}, "
+                     f"absolute pressure {u(p_abs, 'pressure', '.1f')}, vapour pressure {u(p_vap, 'pressure', '.2f')})")
             if npshr is None:
                 out.append(Finding("caution", "pump-npsh-unknown", f"{name}: NPSH required not given",
                                    basis + ": give the maker's NPSH required (NPSH3) on the curve points to "
@@ -94,22 +96,22 @@ def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
             else:
                 need = npsh_margin_needed(npshr, s.npsh_margin_ratio, s.npsh_margin_min)
                 margin = (f"the margin asked for is NPSHA at least {s.npsh_margin_ratio:g} x NPSHR or NPSHR + "
-                          f"{s.npsh_margin_min:g} m, whichever is greater: {need:.2f} m")
+                          f"{u(s.npsh_margin_min, 'head', '.3g')}, whichever is greater: {u(need, 'head', '.2f')}")
                 src = ("set on the sheet" if {"npsh_margin_ratio", "npsh_margin_min"} & set(s.given)
                        else SRC_NPSH)
                 if npsha < npshr:
                     out.append(Finding("error", "pump-npsh", f"{name}: cavitation",
-                                       f"{basis} is less than the NPSH required {npshr:.2f} m: the pump cavitates "
+                                       f"{basis} is less than the NPSH required {u(npshr, 'head', '.2f')}: the pump cavitates "
                                        "and its head falls off. Lower the pump, shorten or enlarge the suction line, "
                                        "or choose a pump with less NPSH required.", npsha, npshr, "head", src, i,
                                        inlet["chainage"]))
                 elif npsha < need:
                     out.append(Finding("warning", "pump-npsh", f"{name}: NPSH margin small",
-                                       f"{basis} against NPSH required {npshr:.2f} m; {margin}.", npsha, need,
+                                       f"{basis} against NPSH required {u(npshr, 'head', '.2f')}; {margin}.", npsha, need,
                                        "head", src, i, inlet["chainage"]))
                 else:
                     out.append(Finding("info", "pump-npsh", f"{name}: NPSH margin",
-                                       f"{basis} against NPSH required {npshr:.2f} m; {margin}.", npsha, need,
+                                       f"{basis} against NPSH required {u(npshr, 'head', '.2f')}; {margin}.", npsha, need,
                                        "head", src, i, inlet["chainage"]))
         Q_bep = pump.best_efficiency_flow() if pump.mode == "curve" else None
         if Q_bep is None or Q_bep <= 0:
@@ -122,7 +124,7 @@ def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
             r = Q / Q_bep
             lo, hi = s.bep_low, s.bep_high
             src = s.source("bep_low")
-            text = (f"The duty flow is {r * 100:.0f} % of the best-efficiency flow {Q_bep * 1e3:.2f} L/s "
+            text = (f"The duty flow is {r * 100:.0f} % of the best-efficiency flow {u(Q_bep, 'flow', '.2f')} "
                     f"(preferred range {lo * 100:.0f}-{hi * 100:.0f} %)")
             if r < lo or r > hi:
                 out.append(Finding("warning", "pump-bep", f"{name}: away from best efficiency",
@@ -135,6 +137,7 @@ def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
 
 
 def turbine_findings(line: Line, solution: Solution, point: dict) -> list[Finding]:
+    u = shown_in(line)
     out = []
     gross = solution.static_head
     machine_heads = sum(d["head_change"] for d in point["elements"] if d["kind"] in ("pump", "turbine"))
@@ -147,14 +150,14 @@ def turbine_findings(line: Line, solution: Solution, point: dict) -> list[Findin
         H = d["head"]
         out.append(Finding(
             "info", "turbine-duty", f"{name}: design point",
-            f"At {Q * 1e3:.2f} L/s: net head {H:.2f} m of {gross:.2f} m gross, hydraulic power "
-            f"{d['power_hydraulic'] / 1e3:.2f} kW, shaft power {d['power_shaft'] / 1e3:.2f} kW "
+            f"At {u(Q, 'flow', '.2f')}: net head {u(H, 'head', '.2f')} of {u(gross, 'head', '.2f')} gross, hydraulic power "
+            f"{u(d['power_hydraulic'], 'power', '.2f')}, shaft power {u(d['power_shaft'], 'power', '.2f')} "
             f"(efficiency {d['efficiency']:.3f}).", d["power_shaft"], None, "power",
             "P = eta rho g Q H (standard)", i))
         if gross > 0:
             loss = (gross - machine_heads) / gross
-            text = (f"The line loses {loss * 100:.1f} % of the gross head ({gross - machine_heads:.2f} m of "
-                    f"{gross:.2f} m) at the design point")
+            text = (f"The line loses {loss * 100:.1f} % of the gross head ({u(gross - machine_heads, 'head', '.2f')} of "
+                    f"{u(gross, 'head', '.2f')}) at the design point")
             if loss > PENSTOCK_LOSS_WARNING:
                 sev, tail = "warning", ": more than about 15 %, which wastes water; a larger bore pays back."
             elif loss > PENSTOCK_LOSS_CAUTION:
@@ -169,8 +172,8 @@ def turbine_findings(line: Line, solution: Solution, point: dict) -> list[Findin
             Hm = m["head_available_at_max"]
             out.append(Finding(
                 "info", "turbine-max-power", f"{name}: most power the line can give",
-                f"The most shaft power this line can give the turbine is {Pm / 1e3:.2f} kW at {Qm * 1e3:.2f} L/s "
-                f"(net head {Hm:.2f} m, {100 * (1 - Hm / gross) if gross > 0 else float('nan'):.0f} % of gross "
+                f"The most shaft power this line can give the turbine is {u(Pm, 'power', '.2f')} at {u(Qm, 'flow', '.2f')} "
+                f"(net head {u(Hm, 'head', '.2f')}, {100 * (1 - Hm / gross) if gross > 0 else float('nan'):.0f} % of gross "
                 f"head lost); the design point gives {100 * d['power_shaft'] / Pm:.0f} % of it with "
                 f"{100 * Q / Qm:.0f} % of the flow.", Pm, None, "power", SRC_MAX_POWER, i))
         out.append(Finding(

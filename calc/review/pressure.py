@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from calc.model.elements import Line, PipeRun, Pump, Turbine
 from calc.model.settings import SRC_PRACTICE
-from calc.review.findings import H_TOL, SRC_AIR, SRC_VAPOUR, Finding, label, suction_runs
+from calc.review.findings import H_TOL, SRC_AIR, SRC_VAPOUR, Finding, label, shown_in, suction_runs
 from calc.steady.siphon import broken_siphon_flow
 from calc.water import G
 
@@ -51,6 +51,7 @@ def _run_start(line: Line, index: int) -> float:
 
 def pressure_findings(line: Line, point: dict) -> list[Finding]:
     """Sub-atmospheric stretches, column separation and the lowest pressure along the line."""
+    u = shown_in(line)
     stations = point["profile"]
     if not stations:
         return []
@@ -66,7 +67,7 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
 
     def where(s):
         e = s["element"]
-        return f"at chainage {s['chainage']:.1f} m" + (f" ({label(line, e)})" if e is not None else "")
+        return f"at chainage {u(s['chainage'], 'head', '.1f')}" + (f" ({label(line, e)})" if e is not None else "")
 
     # Column separation first: the steady answer does not hold there.
     h_vap = (p_vap - p_atm) / rg
@@ -75,8 +76,8 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
         p_abs = p_atm + rg * m["pressure_head"]
         out.append(Finding(
             "error", "pressure-vapour", "Pressure falls to vapour pressure",
-            f"From chainage {st['from']:.1f} m to {st['to']:.1f} m the computed absolute pressure is at or below "
-            f"the vapour pressure ({p_vap / 1e3:.2f} kPa); lowest {p_abs / 1e3:.1f} kPa absolute {where(m)}. "
+            f"From chainage {u(st['from'], 'head', '.1f')} to {u(st['to'], 'head', '.1f')} the computed absolute pressure is at or below "
+            f"the vapour pressure ({u(p_vap, 'pressure', '.2f')}); lowest {u(p_abs, 'pressure', '.1f')} absolute {where(m)}. "
             "The water column separates there, so the flow and pressures computed are not valid: lower the "
             "line, raise the hydraulic grade line (less loss upstream, higher start) or add a break tank.",
             rg * m["pressure_head"], p_vap - p_atm, "pressure", SRC_VAPOUR, m["element"], m["chainage"]))
@@ -87,7 +88,7 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
         if id(m) in machine_out:
             out.append(Finding(
                 "caution", "pressure-turbine-outlet", f"{label(line, e)}: outlet below atmospheric",
-                f"The pressure head at the turbine outlet is {m['pressure_head']:.2f} m ({p_g / 1e3:.1f} kPa gauge): "
+                f"The pressure head at the turbine outlet is {u(m['pressure_head'], 'head', '.2f')} ({u(p_g, 'pressure', '.1f')} gauge): "
                 "a draft tube under suction. Check the turbine setting against the maker's cavitation limit.",
                 p_g, 0.0, "pressure", "turbine maker's setting (cavitation coefficient)", e, m["chainage"]))
             continue
@@ -95,8 +96,8 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
         if in_suction:
             out.append(Finding(
                 "caution", "pressure-suction-vacuum", f"{label(line, e)}: suction under vacuum",
-                f"Pressure below atmospheric from chainage {st['from']:.1f} m to {st['to']:.1f} m on the suction "
-                f"side, lowest {m['pressure_head']:.2f} m ({p_g / 1e3:.1f} kPa gauge) {where(m)}: joints and "
+                f"Pressure below atmospheric from chainage {u(st['from'], 'head', '.1f')} to {u(st['to'], 'head', '.1f')} on the suction "
+                f"side, lowest {u(m['pressure_head'], 'head', '.2f')} ({u(p_g, 'pressure', '.1f')} gauge) {where(m)}: joints and "
                 "glands must be tight or air is drawn in; see the NPSH check.",
                 p_g, 0.0, "pressure", SRC_PRACTICE, e, m["chainage"]))
             continue
@@ -105,13 +106,13 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
             Q_broken = broken_siphon_flow(line, e, m["chainage"] - _run_start(line, e))
         Q = point["Q"]
         broken = ("with air let in there the flow would fall to "
-                  + (f"{Q_broken * 1e3:.4g} L/s ({100 * Q_broken / Q:.0f} % of {Q * 1e3:.4g} L/s), the pipe below "
+                  + (f"{u(Q_broken, 'flow', '.4g')} ({100 * Q_broken / Q:.0f} % of {u(Q, 'flow', '.4g')}), the pipe below "
                      "the crest running part full" if Q_broken else "nothing: the crest stands above what the start "
                      "can lift water to")) if Q_broken is not None else ""
         out.append(Finding(
             "warning", "pressure-subatmospheric", "Siphon: pressure below atmospheric",
-            f"From chainage {st['from']:.1f} m to {st['to']:.1f} m the pipe lies above its hydraulic grade line; "
-            f"lowest {m['pressure_head']:.2f} m ({p_g / 1e3:.1f} kPa gauge) {where(m)}. This reach works only as a "
+            f"From chainage {u(st['from'], 'head', '.1f')} to {u(st['to'], 'head', '.1f')} the pipe lies above its hydraulic grade line; "
+            f"lowest {u(m['pressure_head'], 'head', '.2f')} ({u(p_g, 'pressure', '.1f')} gauge) {where(m)}. This reach works only as a "
             "siphon: it must be primed (filled) to start, and the air that comes out of solution must be taken off "
             "at the crest by a valve that only releases air (or a vacuum pump). An air-admitting (air/vacuum) valve "
             f"there would break the siphon{': ' + broken if broken else ''}. Lowering the pipe below the grade line "
@@ -121,8 +122,8 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
         z_out, z_surf = line.end.free_outlet, line.end.elevation
         out.append(Finding(
             "info", "end-free-discharge", "Free discharge above the receiving tank",
-            f"The last run ends at {z_out:.2f} m, {z_out - z_surf:.2f} m above the receiving water surface at "
-            f"{z_surf:.2f} m: it discharges freely at the outlet, so the flow is driven to the outlet's "
+            f"The last run ends at {u(z_out, 'head', '.2f')}, {u(z_out - z_surf, 'head', '.2f')} above the receiving water surface at "
+            f"{u(z_surf, 'head', '.2f')}: it discharges freely at the outlet, so the flow is driven to the outlet's "
             "elevation and the fall below it does no work. Lowering the outlet below the surface (a submerged "
             "inlet to the tank) would add that head.", z_out, z_surf, "length", SRC_PRACTICE, len(line.elements) - 1,
             stations[-1]["chainage"]))
@@ -130,8 +131,8 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
     h = low["pressure_head"]
     out.append(Finding(
         "info", "pressure-lowest", "Lowest pressure",
-        f"Lowest pressure {rg * h / 1e3:.1f} kPa gauge ({(p_atm + rg * h) / 1e3:.1f} kPa absolute, "
-        f"{h:.2f} m of head) {where(low)}. Pressures are computed at the run ends and profile points; between "
+        f"Lowest pressure {u(rg * h, 'pressure', '.1f')} gauge ({u((p_atm + rg * h), 'pressure', '.1f')} absolute, "
+        f"{u(h, 'head', '.2f')} of head) {where(low)}. Pressures are computed at the run ends and profile points; between "
         "them they vary linearly, so add profile points at every high point of the route.",
         rg * h, None, "pressure", "steady grade line", low["element"], low["chainage"]))
     return out

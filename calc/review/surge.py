@@ -6,7 +6,7 @@ import math
 
 from calc.model.elements import Line, PipeRun, Pump, Turbine, Valve
 from calc.model.settings import CheckSettings
-from calc.review.findings import RATING_NEAR, SRC_JOUKOWSKY, SRC_KORTEWEG, Finding, label
+from calc.review.findings import RATING_NEAR, SRC_JOUKOWSKY, SRC_KORTEWEG, Finding, Shown, label, shown_in
 from calc.water import G
 
 #: D/e below which a wall counts as thick and takes the thick-wall restraint factor [-] (Wylie and
@@ -120,11 +120,11 @@ def wave_speed(line: Line, run: PipeRun) -> tuple[float | None, str]:
     return w["a"], w["missing"]
 
 
-def describe_wave_speed(w: dict) -> str:
+def describe_wave_speed(w: dict, u: Shown) -> str:
     """The wave speed with the inputs a checker needs to repeat it."""
-    return (f"wave speed {w['a']:.0f} m/s (Korteweg, {w['form']} restraint factor c1 = {w['c1']:.4f} for "
+    return (f"wave speed {u(w['a'], 'velocity', '.0f')} (Korteweg, {w['form']} restraint factor c1 = {w['c1']:.4f} for "
             f"{w['restraint'].replace('_', ' ')}, D/e = {w['D_over_e']:.1f}; E = {w['E'] / 1e9:.4g} GPa, "
-            f"nu = {w['nu']:.3g}, e = {w['e'] * 1e3:.4g} mm, D = {w['D'] * 1e3:.4g} mm, K = {w['K'] / 1e9:.4g} GPa, "
+            f"nu = {w['nu']:.3g}, e = {u(w['e'], 'diameter', '.4g')}, D = {u(w['D'], 'diameter', '.4g')}, K = {w['K'] / 1e9:.4g} GPa, "
             f"rho = {w['rho']:.1f} kg/m3)")
 
 
@@ -198,6 +198,7 @@ def surge_waves(line: Line, point: dict, speeds: dict[int, dict], s: CheckSettin
 
 def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
     """Screening only: each run's wave speed, the surge reaching it from where the flow can stop, and its rating."""
+    u = shown_in(line)
     out = []
     rho = line.liquid.rho
     rg = rho * G
@@ -222,7 +223,7 @@ def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
             complete = False
             out.append(Finding("info", "surge-wave-speed-missing", f"{name}: wave speed not computed",
                                f"Give {w['missing']} to screen this run for surge; meanwhile an allowance of "
-                               f"{s.surge_allowance / 1e3:.0f} kPa is used against its rating.",
+                               f"{u(s.surge_allowance, 'pressure', '.0f')} is used against its rating.",
                                None, None, None, s.source("surge_allowance"), i))
             surge, how, src = s.surge_allowance, "the surge allowance", s.source("surge_allowance")
         else:
@@ -231,13 +232,13 @@ def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
             own = joukowsky_head(w["a"], d["V"])
             surge, src = rg * dH, SRC_JOUKOWSKY
             if dH > 0.0:
-                how = f"a rise of {dH:.1f} m ({rg * dH / 1e3:.0f} kPa) from {wave['up_from']}"
-                text = (f"{_first_up(describe_wave_speed(w))}. The surge reaching this run is a rise of {dH:.1f} m "
-                        f"({rg * dH / 1e3:.0f} kPa) from {wave['up_from']}; its own velocity {d['V']:.2f} m/s "
-                        f"stopped at once would give a V / g = {own:.1f} m.")
+                how = f"a rise of {u(dH, 'head', '.1f')} ({u(rg * dH, 'pressure', '.0f')}) from {wave['up_from']}"
+                text = (f"{_first_up(describe_wave_speed(w, u))}. The surge reaching this run is a rise of {u(dH, 'head', '.1f')} "
+                        f"({u(rg * dH, 'pressure', '.0f')}) from {wave['up_from']}; its own velocity {u(d['V'], 'velocity', '.2f')} "
+                        f"stopped at once would give a V / g = {u(own, 'head', '.1f')}.")
             else:
                 how = "no rise (it lies downstream of where the flow stops)"
-                text = (f"{_first_up(describe_wave_speed(w))}. No rise reaches this run: it lies downstream of "
+                text = (f"{_first_up(describe_wave_speed(w, u))}. No rise reaches this run: it lies downstream of "
                         "every place where the flow can stop, so it sees the drop instead.")
             out.append(Finding("info", "surge-screen", f"{name}: surge screening",
                                text + " Screening estimate, not a transient analysis.",
@@ -250,20 +251,20 @@ def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
                 if low["pressure_head"] - wave["down"] <= h_vap:
                     out.append(Finding(
                         "warning", "surge-column-separation", f"{name}: column separation likely on the down-surge",
-                        f"The drop of {wave['down']:.1f} m from {wave['down_from']} takes the head at chainage "
-                        f"{low['chainage']:.1f} m (steady pressure head {low['pressure_head']:.2f} m) down to vapour "
+                        f"The drop of {u(wave['down'], 'head', '.1f')} from {wave['down_from']} takes the head at chainage "
+                        f"{u(low['chainage'], 'head', '.1f')} (steady pressure head {u(low['pressure_head'], 'head', '.2f')}) down to vapour "
                         "pressure: the column is likely to part there, and its rejoining gives the worst surge. "
                         "Slow the stop, add protection (an air vessel, a surge tank, air admission), or confirm "
                         "with a transient analysis.", rg * (low["pressure_head"] - wave["down"]), rg * h_vap,
                         "pressure", SRC_JOUKOWSKY, i, low["chainage"]))
         peak = p_steady + surge
         if el.rating:
-            text = (f"Highest steady pressure {p_steady / 1e3:.0f} kPa plus {how} gives {peak / 1e3:.0f} kPa "
-                    f"against the rating {el.rating / 1e3:.0f} kPa")
+            text = (f"Highest steady pressure {u(p_steady, 'pressure', '.0f')} plus {how} gives {u(peak, 'pressure', '.0f')} "
+                    f"against the rating {u(el.rating, 'pressure', '.0f')}")
             if p_steady > el.rating:
                 out.append(Finding("error", "rating-steady", f"{name}: steady pressure above rating",
-                                   f"Highest steady pressure {p_steady / 1e3:.0f} kPa exceeds the rating "
-                                   f"{el.rating / 1e3:.0f} kPa even without surge.", p_steady, el.rating,
+                                   f"Highest steady pressure {u(p_steady, 'pressure', '.0f')} exceeds the rating "
+                                   f"{u(el.rating, 'pressure', '.0f')} even without surge.", p_steady, el.rating,
                                    "pressure", "the run's rating as typed", i))
             elif peak > el.rating:
                 out.append(Finding("error", "surge-rating", f"{name}: surge may exceed rating",
@@ -278,8 +279,8 @@ def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
                                    peak, el.rating, "pressure", src, i))
         else:
             out.append(Finding("caution", "surge-no-rating", f"{name}: no pressure rating given",
-                               f"Highest steady pressure {p_steady / 1e3:.0f} kPa; with {how}, "
-                               f"{peak / 1e3:.0f} kPa. Give the rating of the pipe and joints to check it.",
+                               f"Highest steady pressure {u(p_steady, 'pressure', '.0f')}; with {how}, "
+                               f"{u(peak, 'pressure', '.0f')}. Give the rating of the pipe and joints to check it.",
                                peak, None, "pressure", src, i))
     if period_parts:
         T = pipeline_period(period_parts)
