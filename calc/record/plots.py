@@ -344,10 +344,28 @@ def curves_plot(analysis, system: str = "SI") -> Plot | None:
         sign = 0.0
         point_y = [static for _ in sol.points]
         y_label = f"Head [{uh}]"
+    typed_points = []  # (x, y, colour) of every typed curve point
     for n, (i, h) in enumerate(heads.items()):
         el = line.elements[i]
         what = "head added" if isinstance(el, Pump) else "head taken"
-        series.append((f"{el.label or el.kind}: {what}", sign * h * kh, MACHINE_COLOURS[n % len(MACHINE_COLOURS)], 2.0, None))
+        colour = MACHINE_COLOURS[n % len(MACHINE_COLOURS)]
+        y = sign * h * kh
+        curve = getattr(el, "curve", None)
+        if curve is None:
+            series.append((f"{el.label or el.kind}: {what}", y, colour, 2.0, None))
+            continue
+        # Solid over the typed flows, dashed where the curve is carried past them.
+        n_speed = getattr(el, "speed_ratio", 1.0)
+        lo_q, hi_q = curve.Q_range[0] * n_speed, curve.Q_range[1] * n_speed
+        inside = (Q >= lo_q) & (Q <= hi_q)
+        series.append((f"{el.label or el.kind}: {what}", np.where(inside, y, np.nan), colour, 2.0, None))
+        if not inside.all():
+            # The dashed part takes one point of the solid part on each side, so the two meet.
+            outside = np.convolve((~inside).astype(int), [1, 1, 1], mode="same") > 0
+            series.append((f"{el.label or el.kind}: past the typed points (extrapolated)",
+                           np.where(outside, y, np.nan), colour, 1.6, "5 4"))
+        for q, v in zip(curve.Q, curve.y):
+            typed_points.append((q * n_speed * kq, sign * v * n_speed ** 2 * kh, colour))
     if len(heads) > 1:
         series.append(("All machines together", sign * machine_sum * kh, COLOURS["total"], 1.6, "7 4"))
     ys = np.concatenate([s[1][np.isfinite(s[1])] for s in series] + [np.array(point_y) * kh])
@@ -366,8 +384,13 @@ def curves_plot(analysis, system: str = "SI") -> Plot | None:
     for label, y, colour, width, dash in series:
         fr.line(x, y, colour, width, dash)
         items.append((label, colour, dash))
+    for xq, yq, colour in typed_points:
+        fr.point(xq, yq, "", colour)
+    if typed_points:
+        items.append(("Typed curve points", MACHINE_COLOURS[0], "dot"))
     for k, (p, y) in enumerate(zip(sol.points, point_y)):
-        fr.point(p["Q"] * kq, y * kh, str(k + 1) + (" (design)" if p.get("is_design") else ""))
+        fr.point(p["Q"] * kq, y * kh, str(k + 1) + (" (design)" if p.get("is_design") else
+                                                     " (cannot occur)" if not p.get("attainable", True) else ""))
     if sol.points:
         items.append(("Operating points", COLOURS["point"], "dot"))
     rows = legend_rows(items)

@@ -460,7 +460,8 @@ def test_curves_plot_marks_every_operating_point_and_the_power_maximum(hydro):
     kinds = {p.key: p for p in plots.all_plots(hydro)}
     assert set(kinds) == {"profile", "curves", "power"}
     labels = [el.text for el in _svg(kinds["curves"]).iter() if el.tag.endswith("text")]
-    assert "1 (design)" in labels and "2" in labels
+    second = "2" if hydro.solution.points[1]["attainable"] else "2 (cannot occur)"
+    assert "1 (design)" in labels and second in labels
     power_labels = [el.text for el in _svg(kinds["power"]).iter() if el.tag.endswith("text")]
     assert "max" in power_labels
 
@@ -512,3 +513,22 @@ def test_input_changes_name_each_field_and_compare_gives_before_and_after():
     flow = next(r for r in table.rows if r[0] == "Flow at the design point")
     # A longer main needs more head, so the pump delivers less.
     assert printed(flow[2].split()[0]) < printed(flow[1].split()[0]) and flow[3].startswith("-")
+
+
+def test_curves_plot_dashes_a_machine_curve_past_its_typed_points(hydro):
+    from calc.analysis import analyse
+    from calc.model.sheet import blank_sheet
+
+    doc = blank_sheet()
+    doc["start"].update({"elevation": "100 m", "outlet_elevation": "98 m"})
+    doc["end"].update({"elevation": "110 m"})
+    doc["elements"] = [
+        {"kind": "pump", "label": "P", "mode": "curve", "curve": [
+            {"flow": "0 L/s", "head": "30 m"}, {"flow": "20 L/s", "head": "27 m"}, {"flow": "30 L/s", "head": "20 m"}]},
+        {"kind": "pipe", "label": "M", "length": "300 m", "diameter": "150 mm", "material": "steel-commercial",
+         "roughness": "", "end_elevation": "108 m", "fittings": []}]
+    svg = _svg([p for p in plots.all_plots(analyse(doc)) if p.key == "curves"][0])
+    dashed = [el for el in svg.iter() if el.tag.endswith("polyline") and el.get("stroke-dasharray") == "5 4"]
+    assert dashed  # the pump curve beyond 30 L/s
+    texts = [el.text for el in svg.iter() if el.tag.endswith("text")]
+    assert any("extrapolated" in (t or "") for t in texts) and "Typed curve points" in texts
