@@ -491,7 +491,9 @@ def friction_factor(Re: float, eD: float, method: str = "colebrook") -> float:
     Hagen-Poiseuille laminar law, f = 64/Re, e.g. White, F. M., Fluid Mechanics.
     Turbulent correlations: see `METHODS`.
     """
-    method, bound = _bound(method)
+    bound = ""
+    if "@" in method:  # a transition bound: rare, so the common call pays only this test
+        method, bound = _bound(method)
     m = _method(method)
     if not (Re > 0.0 and eD >= 0.0):
         _check(Re, eD)
