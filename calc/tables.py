@@ -156,7 +156,8 @@ def _load_sizes(name: str) -> tuple[str, dict[tuple[str, str], PipeSize], list[s
     tol = data.get("wall_tolerance")
     if tol and tol.get("grade") != "V":
         raise ValueError(f"{name}: only the grade V wall tolerance is known here")
-    tolerance = ("; mean wall from e_min and e_max, " + _cite(src, tol["source"], None, name)) if tol else ""
+    # Cited as a reference of its own (the record splits a source string at '.; ').
+    tolerance = ("; " + _cite(src, tol["source"], None, name)) if tol else ""
     table: dict[tuple[str, str], PipeSize] = {}
     nominals: list[str] = []
     for row in data["sizes"]:

@@ -17,6 +17,8 @@ again after changing bores (the inverse questions do): it first takes off what i
 
 from __future__ import annotations
 
+import re
+
 from calc import tables
 from calc.model.elements import Fitting, Line, PipeRun
 
@@ -39,8 +41,9 @@ def _table_fitting(key: str, why: str) -> Fitting:
 
 
 def _crane_source() -> str:
-    """Crane TP-410M as the fitting table cites it (the cone rows), so one source keeps one number."""
-    return tables.fitting(TRANSITION_SOURCE_KEY).source
+    """Crane TP-410M as the fitting table cites it (the cone rows, without a row's detail), so one source
+    keeps one reference number."""
+    return re.sub(r"\s*\[[^\[\]]*\]\s*$", "", tables.fitting(TRANSITION_SOURCE_KEY).source)
 
 
 def _label(run: PipeRun, i: int) -> str:
