@@ -52,7 +52,8 @@ CURVE_POINT_TEMPLATE = {"flow": "0 L/s", "head": "0 m", "efficiency": "", "npsh_
 def blank_sheet() -> dict:
     """A new, valid sheet: a gravity line between two reservoirs with one pipe run."""
     pipe = copy.deepcopy(ELEMENT_TEMPLATES["pipe"])
-    pipe.update({"label": "Main", "length": "500 m", "end_elevation": "90 m",
+    # The pipe enters the receiving tank below its surface: the plainest gravity line.
+    pipe.update({"label": "Main", "length": "500 m", "end_elevation": "78 m",
                  "fittings": [{"type": "entrance-sharp", "count": 1}, {"type": "exit", "count": 1}]})
     return {
         "format": FORMAT, "version": VERSION,

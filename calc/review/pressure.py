@@ -101,6 +101,25 @@ def pressure_findings(line: Line, point: dict) -> list[Finding]:
                 "glands must be tight or air is drawn in; see the NPSH check.",
                 p_g, 0.0, "pressure", SRC_PRACTICE, e, m["chainage"]))
             continue
+        if m["chainage"] <= 1e-9 and line.start.kind == "reservoir":
+            # Lowest at the intake itself: the connection sits too close to the surface for the
+            # entrance loss and velocity head, so it draws air there; that, not a siphon, is the cause.
+            depth = line.start.elevation - line.start.pipe_elevation
+            if line.start.outlet_elevation is None:
+                out.append(Finding(
+                    "info", "pressure-intake-depth", "Pipe connection depth not given",
+                    "The pipe connection's elevation is not given, so it is taken at the water surface, where the "
+                    f"entrance loss and velocity head leave {u(m['pressure_head'], 'head', '.2f')} of pressure "
+                    "head: give the connection elevation (below the lowest water level) to check its submergence.",
+                    p_g, 0.0, "pressure", SRC_PRACTICE, e, 0.0))
+                continue
+            out.append(Finding(
+                "warning", "pressure-intake", "Intake too close to the water surface",
+                f"At the pipe connection, {u(depth, 'head', '.2f')} below the supply surface, the pressure is "
+                f"{u(m['pressure_head'], 'head', '.2f')} ({u(p_g, 'pressure', '.1f')} gauge): less submergence than "
+                "the entrance loss and velocity head need, so the intake draws air and vortices form. Set the "
+                "connection deeper below the lowest water level.", p_g, 0.0, "pressure", SRC_PRACTICE, e, 0.0))
+            continue
         Q_broken = None
         if e is not None and isinstance(line.elements[e], PipeRun):
             Q_broken = broken_siphon_flow(line, e, m["chainage"] - _run_start(line, e))

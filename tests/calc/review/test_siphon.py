@@ -59,3 +59,24 @@ def test_a_crest_above_the_start_level_carries_nothing_once_broken():
     a = analyse(siphon_doc(z_crest="101 m"))
     f = finding(a, "pressure-subatmospheric")
     assert "fall to nothing" in f.message
+
+
+def test_an_intake_at_the_surface_is_said_to_draw_air_not_called_a_siphon():
+    # The connection at the water surface: the entrance loss and velocity head take the pressure below
+    # atmospheric right at the intake (energy equation: p/(rho g) = -(1 + K_entrance) V^2/2g there).
+    doc = siphon_doc()
+    doc["start"]["outlet_elevation"] = "100 m"
+    doc["elements"][0]["profile"] = []
+    doc["elements"][0]["end_elevation"] = "90 m"
+    doc["end"]["elevation"] = "80 m"
+    a = analyse(doc)
+    codes = {f.code for f in a.findings}
+    assert "pressure-intake" in codes and "pressure-subatmospheric" not in codes
+    V = a.solution.design["elements"][0]["V"]
+    f = finding(a, "pressure-intake")
+    assert f.value == pytest.approx(-a.line.liquid.rho * (1 + 0.5) * V * V / 2, rel=1e-9)
+
+    doc["start"]["outlet_elevation"] = ""
+    b = analyse(doc)
+    assert {"pressure-intake-depth"} <= {f.code for f in b.findings}
+    assert not {"pressure-intake", "pressure-subatmospheric"} & {f.code for f in b.findings}
