@@ -108,3 +108,15 @@ def test_solve_prints_findings_and_json_carries_them(capsys):
     data = json.loads(capsys.readouterr().out)
     assert data["findings"] and all("severity" in f for f in data["findings"])
     assert data["band"] is not None
+
+
+def test_output_cut_short_by_its_reader_is_no_traceback():
+    # `headsheet solve FILE | head -1`: the reader goes away. Here it is gone before the first write
+    # (the read end closed at once), so every write meets a closed pipe; the command ends quietly.
+    path = Path(__file__).resolve().parents[2] / "examples" / "hydro-penstock.json"
+    proc = subprocess.Popen([sys.executable, "-m", "server.cli", "solve", str(path), "--all"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    proc.stdout.close()
+    err = proc.stderr.read()
+    assert proc.wait(timeout=60) == 0
+    assert "Traceback" not in err
