@@ -60,6 +60,26 @@ _COMMA_NUMBER = re.compile(r"^\s*[+-]?\d+(?:,\d+)+(?:\.\d*)?\s*[^\d,]")
 _THOUSANDS = re.compile(r"^\s*[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?(?=\s*[^\d,.])")
 
 
+# What a unit may be before the unit library sees it: unit names (letters, µ, Ω, °, or %) joined by
+# *, /, · or spaces, each with at most one small power (^2, **-1, ², m3 read as m^3). Anything else,
+# numbers inside the unit or powers of powers among them ('m*10**10**10' would have the library
+# build a gigantic integer with the interpreter locked), is refused at once.
+_UNIT_NAME = r"(?:[A-Za-zµμΩ°]+|%)"
+_UNIT_FACTOR = _UNIT_NAME + r"(?:\s*(?:\^|\*\*)\s*-?[1-4]|[²³])?"
+_UNIT_GRAMMAR = re.compile(rf"^{_UNIT_FACTOR}(?:\s*[*/·]\s*{_UNIT_FACTOR}|\s+{_UNIT_FACTOR})*$")
+
+
+def unit_allowed(unit: str) -> bool:
+    """Whether a unit as typed (after `unit_text`) has the plain shape of a unit.
+
+    >>> [unit_allowed(u) for u in ("kg/m^3", "mPa*s", "ft^3/s", "degC", "%", "m ** 2", "L/s")]
+    [True, True, True, True, True, True, True]
+    >>> [unit_allowed(u) for u in ("m*10**10**10", "m**1000", "m^(2)", "kg/(m^3)", "m*1e9")]
+    [False, False, False, False, False]
+    """
+    return bool(_UNIT_GRAMMAR.match(unit))
+
+
 def unit_text(unit: str) -> str:
     """A unit as typed, in pint's spelling: a bare 2 or 3 after a unit is a power (m3/h -> m^3/h).
 
@@ -125,8 +145,12 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
         if kind is RATIO:
             return number
         raise InputError(path, text, f"needs a unit: {kind.name}, e.g. {kind.example}")
+    spelled = unit_text(unit)
+    if not unit_allowed(spelled):
+        raise InputError(path, text, f"'{unit}' is not a unit: write unit names with at most small powers, "
+                                     f"e.g. {kind.example}")
     try:
-        q = Q_(number, unit_text(unit))
+        q = Q_(number, spelled)
     except Exception:  # pint's parser raises assorted error types on garbage
         raise InputError(path, text, f"'{unit}' is not a unit we know: enter {kind.name}, e.g. {kind.example}") from None
     if q.dimensionality != kind.dimensionality:

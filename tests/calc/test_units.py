@@ -45,3 +45,34 @@ def test_an_unknown_unit_is_still_refused():
     with pytest.raises(InputError) as e:
         parse_quantity("3 blorps/s", FLOW, "q")
     assert "not a unit we know" in e.value.message
+
+
+BOMBS = ["1 m*10**10**10", "1 m**9**9**9", "2 kg/m**99999999", "1 m*1e308*1e308", "1 (m**9)**9**9", "3 m^(2**2**2**2)"]
+
+
+def test_unit_expression_bombs_are_refused_before_the_unit_library_sees_them():
+    # Each of these would have pint build a gigantic number with the interpreter locked (a whole
+    # server frozen for minutes or days): run in a child process with a deadline, so the old
+    # behaviour fails this test instead of hanging the suite.
+    import subprocess
+    import sys
+
+    code = ("from calc.units import LENGTH, InputError, parse_quantity\n"
+            f"for text in {BOMBS!r}:\n"
+            "    try:\n"
+            "        parse_quantity(text, LENGTH, 'x')\n"
+            "    except InputError as e:\n"
+            "        assert 'not a unit' in e.message or 'must be' in e.message, e.message\n"
+            "    else:\n"
+            "        raise SystemExit('accepted: ' + text)\n")
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=30)
+    assert r.returncode == 0, r.stderr
+
+
+@pytest.mark.parametrize("text", ["2.5 kg/m^3", "1.0 mPa*s", "9 ft^3/s", "3 m · s/s", "12 degC", "85 %"])
+def test_plain_units_still_parse(text):
+    from calc.units import DENSITY, RATIO, TEMPERATURE, VISCOSITY
+
+    kind = {"kg/m^3": DENSITY, "mPa*s": VISCOSITY, "ft^3/s": FLOW, "m · s/s": LENGTH, "degC": TEMPERATURE,
+            "%": RATIO}[text.split(" ", 1)[1]]
+    parse_quantity(text, kind, "x")

@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from servertools import HX, BrowserClient, form_fields
+from servertools import FIGURES, HX, BrowserClient, form_fields
 
 from calc.model import sheet as calc_sheet
 from server.app import create_app
@@ -144,3 +144,28 @@ def test_random_form_posts_never_break_the_sheet(data):
         assert response.status_code in OK_STATUSES
         _stored_is_whole(client)
         assert client.get("/sheets/1").status_code == 200
+
+
+UNIT_BOMBS = ["1 m*10**10**10", "1 m**9**9**9", "2 mm**99999999", "1 (m**9)**9**9"]
+
+
+def test_unit_expression_bombs_are_refused_quickly_through_the_api(client):
+    # A 15-character unit expression once froze the whole server: each is now refused by the unit
+    # grammar before the unit library runs, with the field's path and a message.
+    import time
+
+    slowest = 0.0
+    for text in UNIT_BOMBS:
+        doc = calc_sheet.blank_sheet()
+        doc["elements"][0]["length"] = text
+        t = time.perf_counter()
+        parsed = calc_sheet.parse(doc)  # the refusal itself, without the HTTP round trip
+        slowest = max(slowest, time.perf_counter() - t)
+        assert not parsed.ok
+        response = client.post("/api/solve", json={"document": doc})
+        assert response.status_code == 422
+        errors = response.json()["errors"]
+        assert [e["path"] for e in errors] == ["elements.0.length"] and "not a unit" in errors[0]["message"]
+    FIGURES["unit-expression bombs refused"] += len(UNIT_BOMBS)
+    FIGURES["unit-expression bombs: slowest refusal (parse), ms"] = max(FIGURES["unit-expression bombs: slowest refusal (parse), ms"],
+                                                                round(slowest * 1e3, 1))
