@@ -50,6 +50,8 @@ _VIEW_POST = [re.compile(p) for p in (
     r"^/sheets/(\d+)/revisions/\d+/signatures$", r"^/api/sheets/(\d+)/revisions/\d+/signatures$",
 )]
 _FORM_TOKEN = re.compile(rb"(?:^|&)csrf_token=([^&]*)")
+#: GET routes that cost real work (a PDF render, a scan of every revision): never for other sites.
+EXPENSIVE_GET = re.compile(r"^/sheets/\d+/(revisions/\d+/)?record\.pdf$|^/verify(/.*)?$|^/api/verify(/.*)?$")
 
 # Scripts only from this server (htmx's trigger filters need eval; no inline script runs), no
 # framing (a sign-off button must not be clickable through someone else's page), forms post home.
@@ -194,6 +196,17 @@ class Guard:
                 await self._key_needed(scope, receive, send, *refused)
                 return
 
+        if method in ("GET", "HEAD") and EXPENSIVE_GET.match(route_path) and \
+                headers.get("sec-fetch-site") in ("cross-site", "same-site"):
+            # An <img> or link on any web page could make this server render PDFs or scan for
+            # fingerprints; the browser says where the request came from, and only our pages may.
+            await self._refuse(scope, receive, send, 403, "Request refused",
+                               "This address does real work (a PDF, a scan of every record), so it is served only "
+                               "when opened directly (typed, or from a bookmark) or from Headsheet's own pages, not "
+                               "from another site's page. Open it directly.",
+                               path=route_path)
+            return
+
         if method in UNSAFE:
             why = foreign_origin(headers, scope)
             if why:
@@ -303,6 +316,10 @@ class Guard:
                 h.setdefault("X-Content-Type-Options", "nosniff")
                 h.setdefault("X-Frame-Options", "DENY")
                 h.setdefault("Referrer-Policy", "same-origin")
+                if not scope["path"].startswith("/static/"):
+                    # Sheets, records, PDFs, exports and API answers are not to be kept by browsers
+                    # or proxies (a shared office computer, a read-only link's pages).
+                    h["Cache-Control"] = "no-store"
                 if h.get("content-type", "").startswith("text/html") and not docs:
                     h.setdefault("Content-Security-Policy", CSP)
                 if set_csrf:

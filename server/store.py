@@ -153,6 +153,9 @@ class Store:
     def __init__(self, data_dir: Path):
         self.data_dir = Path(data_dir)
         self.data_dir.mkdir(parents=True, exist_ok=True)
+        # Every sheet and the cookie-signing secret live here: this user only (a folder others
+        # cannot enter protects the WAL and journal files SQLite makes with the process umask).
+        os.chmod(self.data_dir, 0o700)
         self.path = self.data_dir / DB_NAME
         self._local = threading.local()
         self._opened: list[sqlite3.Connection] = []
@@ -164,6 +167,7 @@ class Store:
             con.executescript(_SIGNOFF_SCHEMA)  # sign-off block, end of file
             con.executescript(_SHARING_SCHEMA)  # read-only links, below the sign-off block
             con.execute(f"PRAGMA user_version={SCHEMA_VERSION}")
+        os.chmod(self.path, 0o600)
 
     @contextmanager
     def _connect(self) -> Iterator[sqlite3.Connection]:
