@@ -92,14 +92,21 @@ def too_deep(obj: Any, limit: int = MAX_DEPTH) -> bool:
     return False
 
 
+#: The largest sheet document stored [bytes of JSON]: far above any real line (the parser's own
+#: limits give some 200 kB at most), far below what would slow every page that shows it.
+MAX_DOCUMENT_BYTES = 500_000
+
+
 def json_problem(doc: Any) -> str | None:
-    """Why JSON data cannot be stored as a sheet document (too deep, NaN or infinity), or None."""
+    """Why JSON data cannot be stored as a sheet document (too deep, NaN or infinity, too large), or None."""
     if too_deep(doc):
         return "nests too deeply to be a sheet"
     try:
-        json.dumps(doc, allow_nan=False)
+        text = json.dumps(doc, allow_nan=False)
     except (ValueError, TypeError):
         return "holds a number that is not finite (NaN or infinity)"
+    if len(text) > MAX_DOCUMENT_BYTES:
+        return f"is larger than a sheet may be ({len(text) // 1000} kB; at most {MAX_DOCUMENT_BYTES // 1000} kB)"
     return None
 
 

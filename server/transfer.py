@@ -19,9 +19,11 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 from datetime import datetime, timezone
 from typing import Any
 
+from calc.model import sheet as calc_sheet
 from server.editing import json_problem
 from server.store import Revision, Store, digest_of, dump_document
 
@@ -89,7 +91,7 @@ def _text(obj: dict, key: str, where: str, required: bool = True) -> str:
 def read_export(raw: bytes | str) -> dict:
     """Parse and check an export file; ImportRefused says exactly what is wrong with it."""
     try:
-        data = json.loads(raw, parse_constant=_no_constant)
+        data = json.loads(raw, parse_constant=_no_constant, parse_float=_finite)
     except RecursionError:
         raise ImportRefused("The file nests too deeply to be a Headsheet export.") from None
     except (ValueError, UnicodeDecodeError) as e:
@@ -110,6 +112,14 @@ def read_export(raw: bytes | str) -> dict:
 
 def _no_constant(name: str):
     raise ValueError(f"{name} is not a number JSON allows")
+
+
+def _finite(text: str) -> float:
+    """A JSON number as a float, refusing one too large to be finite (1e999 reads as infinity)."""
+    value = float(text)
+    if not math.isfinite(value):
+        raise ValueError(f"the number {text[:40]} is too large to be finite")
+    return value
 
 
 def check_export(data: dict) -> tuple[str, list[Revision], list[dict], dict]:
@@ -143,6 +153,12 @@ def check_export(data: dict) -> tuple[str, list[Revision], list[dict], dict]:
         problem = json_problem(document)
         if problem:
             raise ImportRefused(f"{where}: the document {problem}.")
+        # The same checks and limits as a sheet saved through the pages or the API.
+        parsed = calc_sheet.parse(document)
+        if not parsed.ok:
+            first = parsed.errors[0]
+            raise ImportRefused(f"{where}: the document does not pass the sheet's checks ({len(parsed.errors)} "
+                                f"error(s); the first: {first.path or 'the sheet'} {first.message}).")
         text = dump_document(document)
         if digest_of(text) != r.get("digest"):
             raise ImportRefused(f"{where}: the document does not match its digest.")

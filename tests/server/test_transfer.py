@@ -97,7 +97,8 @@ def test_a_file_consistent_in_its_checksum_but_wrong_inside_is_refused(app, clie
         transfer.import_sheet(app.state.store, json.dumps(data))
 
 
-@pytest.mark.parametrize("raw", [b"", b"{", b"[1]", b"\xff\xfe", b'{"format": NaN}', b"[" * 100_000, b"null"])
+@pytest.mark.parametrize("raw", [b"", b"{", b"[1]", b"\xff\xfe", b'{"format": NaN}', b"[" * 100_000, b"null",
+                                 b'{"format": "headsheet-sheet-export", "version": 1, "n": 1e999}'])
 def test_garbage_is_refused(app, raw):
     with pytest.raises(transfer.ImportRefused):
         transfer.import_sheet(app.state.store, raw)
@@ -215,3 +216,38 @@ def test_backup_while_the_store_is_being_written_is_consistent(app, data_dir, tm
         # A snapshot: revisions 1..n with no gap, and each copy at least as new as the one before.
         assert numbers == list(range(1, len(numbers) + 1)) and len(numbers) >= previous
         previous = len(numbers)
+
+
+def _reexport(client, sheet_id, change):
+    """An export of ``sheet_id`` with its last revision's document changed and every digest made to match,
+    as a faulty or hostile program would write it."""
+    data = json.loads(client.get(f"/sheets/{sheet_id}/export.json").content)
+    rev = data["revisions"][-1]
+    change(rev["document"])
+    rev["digest"] = transfer.digest_of(transfer.dump_document(rev["document"]))
+    data["checksum"] = transfer.checksum(data)
+    return data
+
+
+def test_an_import_passes_the_same_limits_as_a_saved_sheet(app, client, worked):
+    # 10,000 elements were once imported and drawn; the parser allows 200, as for any saved sheet.
+    def many(doc):
+        doc["elements"] = doc["elements"] * (400 // len(doc["elements"]) + 1)
+
+    data = _reexport(client, worked, many)
+    with pytest.raises(transfer.ImportRefused, match="does not pass the sheet's checks"):
+        transfer.import_sheet(app.state.store, json.dumps(data))
+
+    def junk(doc):  # a 90,000-item key nobody reads would be kept forever, since revisions are never deleted
+        doc["junk"] = list(range(90_000))
+
+    with pytest.raises(transfer.ImportRefused, match="larger than a sheet may be"):
+        transfer.import_sheet(app.state.store, json.dumps(_reexport(client, worked, junk)))
+
+
+def test_a_huge_number_in_an_import_is_refused_with_a_message_not_a_server_error(client, worked):
+    body = client.get(f"/sheets/{worked}/export.json").content.replace(b'"count": 1', b'"count": 1e999', 1)
+    token = form_fields(client.get("/").text)["csrf_token"]
+    response = client.post("/sheets/import", files={"file": ("x.json", body, "application/json")},
+                           data={"csrf_token": token})
+    assert response.status_code == 422 and "too large to be finite" in response.text
