@@ -28,7 +28,7 @@ from server.form import message_id
 from server.guard import Guard
 from server.results import SolveCache, lowest_pressure, number, quantity
 from server.store import SheetNotFound, Store
-from server.web import CSRF_FIELD, error_response
+from server.web import CSRF_FIELD, allowed_host_names, error_response
 
 log = logging.getLogger("headsheet.server")
 
@@ -224,11 +224,13 @@ def _templates() -> Jinja2Templates:
 
 
 def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = False,
-               addresses: list[str] | None = None) -> FastAPI:
+               addresses: list[str] | None = None, host_names: list[str] | None = None) -> FastAPI:
     """The application over the store in ``data_dir``; demo sheets are seeded when the store is new.
 
     With ``share``, every request needs the access key kept in the data folder (made now if there
     is none); ``addresses`` are the network addresses the server is reachable at, for the links it shows.
+    The server answers only to loopback names, those addresses and ``host_names`` (and the names in
+    HEADSHEET_HOST_NAMES), so a web page whose name is made to resolve to this computer gets nothing.
     """
     app = FastAPI(
         title="Headsheet",
@@ -249,6 +251,7 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = Fa
     app.state.store.seed_once([(d.name, d.document) for d in app.state.demos])
     app.state.sharing = Sharing(KeyFile(data_dir), Signer(app.state.store.secret()), share=share)
     app.state.addresses = list(addresses or [])
+    app.state.host_names = allowed_host_names(app.state.addresses, host_names or [])
     if share:
         app.state.sharing.keys.ensure()
     for path, name, methods, endpoint, in_schema in ROUTES:

@@ -24,7 +24,8 @@ def cmd_serve(args) -> int:
     from server.main import serve
 
     try:
-        serve(Path(args.data), host=args.host, port=args.port, share=args.share, key=args.key)
+        serve(Path(args.data), host=args.host, port=args.port, share=args.share, key=args.key,
+              host_names=args.host_name)
     except BadKey as e:
         sys.exit(f"headsheet: --key: {e}")
     return 0
@@ -109,6 +110,9 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
                         "and require the access key")
     s.add_argument("--key", default=None, metavar="KEY",
                    help="set a new access key (at least 8 letters or digits) before starting")
+    s.add_argument("--host-name", action="append", default=[], metavar="NAME",
+                   help="another name this server is reached by (a DNS name on the site network); it answers "
+                        "only to this computer's own names, its addresses and these")
     s.set_defaults(func=cmd_serve)
 
     s = sub.add_parser("key", help="print the access key of a shared store, or change it")

@@ -29,7 +29,7 @@ from starlette.requests import Request, cookie_parser
 from starlette.responses import JSONResponse, RedirectResponse, Response
 
 from server.access import Sharing, normalise_key, same_key
-from server.web import CSRF_FIELD, KEY_PATH, VIEW_PREFIX, cookie_name, error_response, is_api
+from server.web import CSRF_FIELD, KEY_PATH, VIEW_PREFIX, cookie_name, error_response, host_name, is_api
 
 UNSAFE = {"POST", "PUT", "PATCH", "DELETE"}
 #: What a visitor without the key may load: the key page and what it needs to look right.
@@ -161,6 +161,15 @@ class Guard:
                 "csrf": signer.token("csrf") if fresh else csrf_cookie, "route_path": path}
         scope["headsheet"] = info
         route_path = path
+
+        name = host_name(headers.get("host", ""))
+        if name not in self.state.host_names:
+            # DNS rebinding: another site's name made to resolve to this computer. Answer nothing.
+            await self._refuse(scope, receive, send, 421, "Unknown host name",
+                               f"This server answers only to the names it serves, not to '{name[:60]}'. "
+                               "If that is your own name for this computer, start the server with "
+                               "--host-name for it.")
+            return
 
         if path.startswith(VIEW_PREFIX) or path == VIEW_PREFIX.rstrip("/"):
             token, _, rest = path[len(VIEW_PREFIX):].partition("/")

@@ -45,7 +45,7 @@ def local_addresses() -> list[str]:
 
 
 def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool = False,
-          key: str | None = None) -> None:
+          key: str | None = None, host_names: list[str] | None = None) -> None:
     """Open (or create) the store in ``data_dir``, seed the demo sheets on first start, and serve until stopped.
 
     ``share`` listens on every network interface and requires the access key; so does any
@@ -66,7 +66,8 @@ def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool
     if key is not None:
         keys.write(key)
     addresses = local_addresses() if host in ("0.0.0.0", "::") else []
-    app = create_app(data_dir, share=guarded, addresses=addresses)
+    names = list(host_names or []) + ([host] if host not in ("0.0.0.0", "::") else [])
+    app = create_app(data_dir, share=guarded, addresses=addresses, host_names=names)
     print(f"Headsheet: sheets stored in {data_dir / 'headsheet.sqlite'}", flush=True)
     if not guarded:
         shown_host = f"[{host}]" if ":" in host else host

@@ -13,6 +13,32 @@ CSRF_FIELD = "csrf_token"
 ACCESS_DAYS = 30
 #: Longest name kept for the history of edits [characters].
 MAX_AUTHOR = 100
+#: The names this computer always answers to; a served address or a name the user adds joins them.
+LOOPBACK_NAMES = ("localhost", "127.0.0.1", "::1")
+#: More host names to answer to, comma-separated (as `headsheet serve --host-name`).
+HOST_NAMES_ENV = "HEADSHEET_HOST_NAMES"
+
+
+def host_name(header: str) -> str:
+    """The name in a Host header, without port, brackets or a final dot, in lower case.
+
+    >>> host_name("LocalHost:8000"), host_name("[::1]:8000"), host_name("sheets.example.")
+    ('localhost', '::1', 'sheets.example')
+    """
+    text = (header or "").strip().lower()
+    if text.startswith("["):
+        text = text[1:].split("]", 1)[0]
+    elif text.count(":") == 1:
+        text = text.split(":", 1)[0]
+    return text.rstrip(".")
+
+
+def allowed_host_names(addresses=(), extra=()) -> frozenset[str]:
+    """Loopback names, the served addresses, names given and those in HEADSHEET_HOST_NAMES."""
+    import os
+
+    env = [n for n in os.environ.get(HOST_NAMES_ENV, "").split(",") if n.strip()]
+    return frozenset(host_name(n) for n in (*LOOPBACK_NAMES, *addresses, *extra, *env) if n and n.strip())
 
 
 def cookie_name(kind: str, scope: dict) -> str:

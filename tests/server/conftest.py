@@ -2,10 +2,15 @@
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
 import pytest
 from servertools import FIGURES, BrowserClient, form_fields
+
+# The in-process test client sends Host: testserver; a user adds such a name with --host-name, and
+# the tests do the same through the environment the server reads (see test_hardening for refusals).
+os.environ.setdefault("HEADSHEET_HOST_NAMES", "testserver")
 
 from server.app import create_app
 

@@ -8,6 +8,8 @@ from __future__ import annotations
 import re
 import stat
 
+import pytest
+
 from servertools import FIGURES
 
 from server.app import create_app
@@ -48,3 +50,30 @@ def test_another_sites_page_cannot_start_a_pdf_render_or_a_verify_scan(client):
     assert client.get("/sheets/1/revisions/1/record.pdf", headers={"Sec-Fetch-Site": "same-origin"}).status_code == 200
     assert client.get("/verify", headers={"Sec-Fetch-Site": "none"}).status_code == 200
     FIGURES["cross-site requests for costly work refused"] += refused
+
+
+@pytest.mark.parametrize("host", ["evil.example", "evil.example:8000", "127.0.0.1.evil.example", "attacker.test."])
+def test_a_page_rebound_to_this_computer_gets_nothing(client, host):
+    # DNS rebinding: a page whose own name resolves to 127.0.0.1 sends its own Host header.
+    for url in ("/", "/api/sheets", "/sheets/1/export.json", "/static/favicon.svg"):
+        response = client.get(url, headers={"Host": host})
+        assert response.status_code == 421, (url, host)
+        assert "answers only to the names it serves" in response.text
+    response = client.post("/api/sheets", json={"document": {}}, headers={"Host": host})
+    assert response.status_code == 421
+    FIGURES["rebinding attempts refused"] += 5
+
+
+@pytest.mark.parametrize("host", ["localhost:8000", "127.0.0.1:8000", "[::1]:8000", "LOCALHOST"])
+def test_loopback_names_are_served(client, host):
+    assert client.get("/api/sheets", headers={"Host": host}).status_code == 200
+
+
+def test_the_served_addresses_and_added_names_are_served(tmp_path):
+    from servertools import BrowserClient
+
+    app = create_app(tmp_path / "d", addresses=["192.0.2.7"], host_names=["sheets.office.example"])
+    with BrowserClient(app) as c:
+        for host in ("192.0.2.7:8000", "sheets.office.example"):
+            assert c.get("/api/sheets", headers={"Host": host}).status_code == 200
+        assert c.get("/api/sheets", headers={"Host": "other.example"}).status_code == 421

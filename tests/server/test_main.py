@@ -128,3 +128,19 @@ def test_a_shared_server_refuses_requests_without_the_key(tmp_path):
         server.terminate()
         server.wait(timeout=10)
         server.stdout.close()
+
+
+def test_serve_answers_to_its_addresses_and_the_names_given(tmp_path, monkeypatch):
+    import uvicorn
+
+    from server import main
+    from server.cli import main as headsheet
+
+    ran = {}
+    monkeypatch.setattr(uvicorn, "run", lambda app, **kw: ran.update(app=app, **kw))
+    monkeypatch.setattr(main, "local_addresses", lambda: ["192.0.2.10"])
+    monkeypatch.delenv("HEADSHEET_HOST_NAMES", raising=False)
+    headsheet(["serve", "--data", str(tmp_path / "data"), "--share", "--host-name", "sheets.office.example"])
+    names = ran["app"].state.host_names
+    assert {"localhost", "127.0.0.1", "::1", "192.0.2.10", "sheets.office.example"} <= names
+    assert "testserver" not in names and "evil.example" not in names
