@@ -41,6 +41,20 @@
     say(text || ("The server refused this change (status " + xhr.status + "). Nothing was saved; reload the page."));
   });
 
+  // The sheet form re-solves after a pause in typing and at once on a choice. htmx's trigger filters
+  // would need eval (refused by the page's security policy), so the two kinds of edit are told apart
+  // here and re-sent from the field as events of their own: hs-typed and hs-chose.
+  document.addEventListener("input", function (event) {
+    var field = event.target;
+    if (field.tagName === "SELECT" || !field.form || field.form.id !== "sheet-form") return;
+    field.dispatchEvent(new CustomEvent("hs-typed", { bubbles: true }));
+  });
+  document.addEventListener("change", function (event) {
+    var field = event.target;
+    if (field.tagName !== "SELECT" || !field.form || field.form.id !== "sheet-form") return;
+    field.dispatchEvent(new CustomEvent("hs-chose", { bubbles: true }));
+  });
+
   document.addEventListener("htmx:sendError", function () {
     say("The server did not answer, so this change is not saved. Check that it is running, then type again.");
   });

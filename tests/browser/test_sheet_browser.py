@@ -57,6 +57,21 @@ def test_changing_a_pipe_diameter_changes_the_flow(page, live):
     assert page.console_errors == []
 
 
+def test_a_choice_re_solves_at_once_under_a_policy_that_forbids_eval(page, live):
+    # The page's security policy has no 'unsafe-eval' (no evaluated text can run), and a choice in a
+    # select (here the results' units) re-solves without typing anything.
+    response = page.goto(f"{live.url}/sheets/1")
+    assert "unsafe-eval" not in response.headers["content-security-policy"]
+    flow = page.locator("#result-flow")
+    before = flow.inner_text()
+    units = page.locator("#f-header-units")
+    units.select_option("US" if "L/s" in before else "SI")
+    expect(flow).not_to_have_text(before)
+    assert ("gpm" in flow.inner_text()) == ("L/s" in before)
+    expect(page.locator("#save-status")).to_contain_text("Revision 2")
+    assert page.console_errors == []
+
+
 def test_add_a_pipe_run(page, live):
     page.goto(f"{live.url}/sheets/1")
     n = len(_doc(live)["elements"])
