@@ -25,7 +25,7 @@ def cmd_serve(args) -> int:
 
     try:
         serve(Path(args.data), host=args.host, port=args.port, share=args.share, key=args.key,
-              host_names=args.host_name)
+              host_names=args.host_name, behind_proxy=args.behind_proxy)
     except BadKey as e:
         sys.exit(f"headsheet: --key: {e}")
     return 0
@@ -113,6 +113,8 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
     s.add_argument("--host-name", action="append", default=[], metavar="NAME",
                    help="another name this server is reached by (a DNS name on the site network); it answers "
                         "only to this computer's own names, its addresses and these")
+    s.add_argument("--behind-proxy", action="store_true",
+                   help="a reverse proxy is in front: believe its forwarded-for headers for client addresses")
     s.set_defaults(func=cmd_serve)
 
     s = sub.add_parser("key", help="print the access key of a shared store, or change it")

@@ -29,7 +29,7 @@ from starlette.requests import Request, cookie_parser
 from starlette.responses import JSONResponse, RedirectResponse, Response
 
 from server.access import Sharing, normalise_key, same_key
-from server.web import CSRF_FIELD, KEY_PATH, VIEW_PREFIX, cookie_name, error_response, host_name, is_api
+from server.web import ACCESS_DAYS, CSRF_FIELD, KEY_PATH, VIEW_PREFIX, cookie_name, error_response, host_name, is_api
 
 UNSAFE = {"POST", "PUT", "PATCH", "DELETE"}
 #: What a visitor without the key may load: the key page and what it needs to look right.
@@ -261,7 +261,8 @@ class Guard:
         key = self.sharing.key()
         if not key:
             return 401, "This server is shared, but no access key is set: run `headsheet key --new` on it.", 0
-        if self.sharing.signer.valid("access", cookies.get(cookie_name("key", scope)), normalise_key(key)):
+        if self.sharing.signer.valid_timed("access", cookies.get(cookie_name("key", scope)), ACCESS_DAYS * 86400,
+                                           normalise_key(key)):
             return None
         typed = headers.get(KEY_HEADER)
         auth = headers.get("authorization", "")
@@ -271,12 +272,15 @@ class Guard:
             return 401, ("This server is shared with an access key. Open the key page, or send the key in the "
                          "X-Headsheet-Key header."), 0
         client = (scope.get("client") or ("?", 0))[0]
-        wait = self.sharing.attempts.wait(client)
-        if wait > 0:
-            return 429, f"Too many wrong keys from this computer; wait {int(wait) + 1} s and try again.", wait
+        # The right key always works, so one person's wrong guesses never lock out everyone who shares
+        # their address (an office behind one router); only wrong keys wait. With a 79-bit key the
+        # limit is a second line: guessing it is hopeless at any speed a server answers.
         if same_key(typed, key):
             self.sharing.attempts.succeeded(client)
             return None
+        wait = self.sharing.attempts.wait(client)
+        if wait > 0:
+            return 429, f"Too many wrong keys from this computer; wait {int(wait) + 1} s and try again.", wait
         self.sharing.attempts.failed(client)
         return 401, "That is not this server's access key.", 0
 

@@ -45,7 +45,7 @@ def local_addresses() -> list[str]:
 
 
 def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool = False,
-          key: str | None = None, host_names: list[str] | None = None) -> None:
+          key: str | None = None, host_names: list[str] | None = None, behind_proxy: bool = False) -> None:
     """Open (or create) the store in ``data_dir``, seed the demo sheets on first start, and serve until stopped.
 
     ``share`` listens on every network interface and requires the access key; so does any
@@ -88,4 +88,7 @@ def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool
               "at once and signs everyone out)", flush=True)
         print("Headsheet: a sheet's read-only links (on its page) let a reviewer view, print and sign it "
               "without the key.", flush=True)
-    uvicorn.run(app, host=host, port=port, log_level="warning")
+    # Client addresses come from the connection: a forwarded-for header is anybody's to write, so it
+    # is believed only when the user says a proxy is in front (behind_proxy).
+    uvicorn.run(app, host=host, port=port, log_level="warning", proxy_headers=behind_proxy,
+                forwarded_allow_ips="*" if behind_proxy else None)

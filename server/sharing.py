@@ -62,21 +62,22 @@ async def key_submit(request: Request) -> Response:
     if not sharing.share:
         return RedirectResponse(next_path, status_code=303)
     client = (request.client.host if request.client else "?")
-    wait = sharing.attempts.wait(client)
+    key = sharing.key()
+    right = bool(key) and bool(form["key"].strip()) and same_key(form["key"], key)
+    wait = 0.0 if right else sharing.attempts.wait(client)  # the right key is never made to wait
     if wait > 0:
         response = _key_page(request, next_path, f"Too many wrong keys from this computer. Wait {int(wait) + 1} "
                                                  "seconds, then try again.", 429)
         response.headers["Retry-After"] = str(int(wait) + 1)
         return response
-    key = sharing.key()
-    if not key or not form["key"].strip() or not same_key(form["key"], key):
+    if not right:
         if form["key"].strip():
             sharing.attempts.failed(client)
         return _key_page(request, next_path, "That is not the access key. It is printed where the server was "
                                              "started, and kept in the server's data folder.", 401)
     sharing.attempts.succeeded(client)
     response = RedirectResponse(next_path, status_code=303)
-    response.set_cookie(cookie_name("key", request.scope), sharing.signer.token("access", normalise_key(key)),
+    response.set_cookie(cookie_name("key", request.scope), sharing.signer.timed_token("access", normalise_key(key)),
                         max_age=ACCESS_DAYS * 86400, httponly=True, samesite="strict")
     return response
 

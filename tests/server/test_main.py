@@ -144,3 +144,18 @@ def test_serve_answers_to_its_addresses_and_the_names_given(tmp_path, monkeypatc
     names = ran["app"].state.host_names
     assert {"localhost", "127.0.0.1", "::1", "192.0.2.10", "sheets.office.example"} <= names
     assert "testserver" not in names and "evil.example" not in names
+
+
+
+def test_forwarded_for_headers_are_believed_only_behind_a_proxy(tmp_path, monkeypatch):
+    # A client could write X-Forwarded-For itself and dodge the per-address limit of wrong keys.
+    import uvicorn
+
+    from server import main
+
+    ran = {}
+    monkeypatch.setattr(uvicorn, "run", lambda app, **kw: ran.update(app=app, **kw))
+    main.serve(tmp_path / "data", port=8123)
+    assert ran["proxy_headers"] is False
+    main.serve(tmp_path / "data", port=8123, behind_proxy=True)
+    assert ran["proxy_headers"] is True

@@ -136,16 +136,35 @@ def test_wrong_keys_are_limited_mildly_per_computer(shared, key):
         statuses = [guesser.get("/api/sheets", headers={"X-Headsheet-Key": f"guess-{i}"}).status_code
                     for i in range(8)]
         assert statuses == [401] * 5 + [429] * 3
-        blocked = guesser.get("/api/sheets", headers={"X-Headsheet-Key": key})
+        blocked = guesser.get("/api/sheets", headers={"X-Headsheet-Key": "one more guess"})
         assert blocked.status_code == 429 and "wait" in blocked.json()["message"]
         assert 0 < int(blocked.headers["Retry-After"]) <= 61
         token = re.search(r'name="csrf_token" value="([^"]+)"', guesser.get("/key").text).group(1)
-        page = guesser.post("/key", data={"key": key, "csrf_token": token}, follow_redirects=False)
+        page = guesser.post("/key", data={"key": "still guessing", "csrf_token": token}, follow_redirects=False)
         assert page.status_code == 429 and "Wait" in page.text
-    # Once the window has passed, the right key works again.
-    shared.state.sharing.attempts.window = 0.0
-    with TestClient(shared) as later:
-        assert later.get("/api/sheets", headers={"X-Headsheet-Key": key}).status_code == 200
+    # A colleague behind the same address who has the key is never locked out by someone's guesses.
+    with TestClient(shared) as colleague:
+        assert colleague.get("/api/sheets", headers={"X-Headsheet-Key": key}).status_code == 200
+        token = re.search(r'name="csrf_token" value="([^"]+)"', colleague.get("/key").text).group(1)
+        page = colleague.post("/key", data={"key": key, "csrf_token": token}, follow_redirects=False)
+        assert page.status_code == 303
+
+
+def test_the_access_cookie_expires_on_the_server_not_only_in_the_browser(shared, key):
+    # A copied cookie must not open the server for ever: the server checks the time it signed into it.
+    import time as _time
+
+    from server.access import normalise_key
+    from server.web import ACCESS_DAYS, cookie_name
+
+    signer = shared.state.sharing.signer
+    name = cookie_name("key", {"server": ("testserver", 80)})
+    fresh = signer.timed_token("access", normalise_key(key))
+    old = signer.timed_token("access", normalise_key(key), now=_time.time() - ACCESS_DAYS * 86400 - 60)
+    untimed = signer.token("access", normalise_key(key))  # the old form, with no time in it
+    for value, status in ((fresh, 200), (old, 401), (untimed, 401)):
+        with TestClient(shared, cookies={name: value}) as browser:
+            assert browser.get("/api/sheets").status_code == status
 
 
 def test_attempts_forget_old_failures():
