@@ -158,8 +158,9 @@ class Curve:
         q = min(max(float(Q), self.Q[0]), self.Q[-1])
         i = min(max(bisect.bisect_right(self.Q, q) - 1, 0), len(self.Q) - 2)
         Qi, Qj = self.Q[i], self.Q[i + 1]
-        return {"Q_i": Qi, "Q_j": Qj, "y_i": self.y[i], "y_j": self.y[i + 1], "d_i": self.slope(Qi) if i else self.slope_start,
-                "d_j": self.slope(Qj) if i + 1 < len(self.Q) - 1 else self.slope_end, "t": (q - Qi) / (Qj - Qi)}
+        # slope() gives the end slopes at the first and last points, the cubic's own slope between.
+        return {"Q_i": Qi, "Q_j": Qj, "y_i": self.y[i], "y_j": self.y[i + 1], "d_i": self.slope(Qi),
+                "d_j": self.slope(Qj), "t": (q - Qi) / (Qj - Qi)}
 
     def extrapolated(self, Q: float) -> bool:
         return not self.Q[0] <= Q <= self.Q[-1]

@@ -59,8 +59,7 @@ def complete(line: Line) -> Line:
     els = line.elements
     for el in els:
         if isinstance(el, PipeRun):
-            el.fittings = [f for f in el.fittings if not f.implied]
-            el._cache_key = None
+            el.fittings = [f for f in el.fittings if not f.implied]  # constants() re-keys on the fittings
     line.end.free_outlet = None
     runs = [(i, el) for i, el in enumerate(els) if isinstance(el, PipeRun)]
     if not runs:
