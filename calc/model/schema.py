@@ -23,26 +23,57 @@ def _q(kind_name: str) -> dict:
 
 _RATIO = {"type": ["string", "number", "null"], "description": "a plain number or a percentage"}
 
+_KEY = {"type": ["string", "number", "null"]}
+
+
+def _group(properties: dict, **extra) -> dict:
+    """An object with these keys and no others (the parser refuses any other key)."""
+    return {"type": "object", "properties": properties, "additionalProperties": False, **extra}
+
+
+_LABEL = {"type": ["string", "null"], "maxLength": MAX_LABEL}
+_ELEMENTS = {
+    "pipe": _group({
+        "kind": {"const": "pipe"}, "label": _LABEL, "length": _q("a length"), "diameter": _q("a length"),
+        "size": {"anyOf": [{"type": "null"}, {"$ref": "#/$defs/size"}]}, "material": {"type": ["string", "null"]},
+        "condition": {"enum": ["new", "aged", "", None]}, "roughness": _q("a length"),
+        "wall_thickness": _q("a length"), "end_elevation": _q("a length"), "rating": _q("a gauge pressure"),
+        "restraint": {"enum": [*RESTRAINTS, "", None]},
+        "profile": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/profile_point"}},
+        "fittings": {"type": ["array", "null"], "maxItems": MAX_FITTINGS, "items": {"$ref": "#/$defs/fitting"}}}),
+    "turbine": _group({
+        "kind": {"const": "turbine"}, "label": _LABEL, "mode": {"enum": ["power", "head", "curve", "", None]},
+        "power": _q("a power"), "efficiency": _RATIO, "head": _q("a length"),
+        "curve": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/curve_point"}}}),
+    "pump": _group({
+        "kind": {"const": "pump"}, "label": _LABEL, "mode": {"enum": ["curve", "head", "", None]},
+        "speed_ratio": _RATIO, "efficiency": _RATIO, "head": _q("a length"),
+        "curve": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/curve_point"}}}),
+    "valve": _group({"kind": {"const": "valve"}, "label": _LABEL, "K": _RATIO, "diameter": _q("a length")}),
+}
+
 SCHEMA = {
     "$schema": "https://json-schema.org/draft/2020-12/schema",
     "title": "Headsheet sheet document",
     "type": "object",
     "required": ["format", "version", "start", "end", "elements"],
+    "additionalProperties": False,
     "properties": {
         "format": {"const": FORMAT},
         "version": {"const": VERSION},
-        "header": {"type": "object", "properties": {
-            **{k: {"type": "string", "maxLength": MAX_TEXT} for k in HEADER_FIELDS},
-            "revision_scheme": {"enum": ["letters", "numbers"]},
-            "units": {"enum": ["SI", "US"]}}},
-        "liquid": {"type": "object", "properties": {
-            "kind": {"enum": ["water", "custom"]}, "temperature": _q("a temperature"),
-            "name": {"type": "string"}, "density": _q("a density"), "viscosity": _q("a viscosity"),
-            "vapour_pressure": _q("an absolute pressure"), "bulk_modulus": _q("a modulus")}},
-        "site": {"type": "object", "properties": {"atmospheric_pressure": _q("an absolute pressure")}},
-        "settings": {"type": "object", "properties": {
-            "friction_method": {"enum": list(friction.METHODS)},
-            "checks": {"type": "object", "properties": {
+        "header": _group({
+            **{k: {"type": ["string", "null"], "maxLength": MAX_TEXT} for k in HEADER_FIELDS},
+            "revision_scheme": {"enum": ["letters", "numbers", "", None]},
+            "units": {"enum": ["SI", "US", "", None]}}),
+        "liquid": _group({
+            "kind": {"enum": ["water", "custom", "", None]}, "temperature": _q("a temperature"),
+            "name": {"type": ["string", "null"], "maxLength": MAX_LABEL}, "density": _q("a density"),
+            "viscosity": _q("a viscosity"), "vapour_pressure": _q("an absolute pressure"),
+            "bulk_modulus": _q("a modulus")}),
+        "site": _group({"atmospheric_pressure": _q("an absolute pressure")}),
+        "settings": _group({
+            "friction_method": {"enum": [*friction.METHODS, "", None]},
+            "checks": _group({
                 "velocity_max": _q("a velocity"), "velocity_max_suction": _q("a velocity"),
                 "velocity_min": _q("a velocity"), "npsh_margin_ratio": _RATIO, "npsh_margin_min": _q("a length"),
                 "bep_low": _RATIO, "bep_high": _RATIO, "k_uncertainty": _RATIO,
@@ -50,28 +81,33 @@ SCHEMA = {
                                   "description": "a percentage of each run's roughness, or a roughness"},
                 "roughness_high": {"type": ["string", "number", "null"],
                                    "description": "a percentage of each run's roughness, or a roughness"},
-                "surge_allowance": _q("a pressure"), "surge_closure_time": _q("a time")}}}},
-        "start": {"$ref": "#/$defs/node"},
-        "end": {"$ref": "#/$defs/node"},
-        "elements": {"type": "array", "maxItems": MAX_ELEMENTS, "items": {"type": "object", "required": ["kind"],
-                     "properties": {"kind": {"enum": ["pipe", "turbine", "pump", "valve"]},
-                                    "label": {"type": "string", "maxLength": MAX_LABEL},
-                                    "length": _q("a length"), "diameter": _q("a length"),
-                                    "size": {"type": ["object", "null"]}, "material": {"type": ["string", "null"]},
-                                    "roughness": _q("a length"), "end_elevation": _q("a length"),
-                                    "condition": {"enum": ["new", "aged"]},
-                                    "wall_thickness": _q("a length"), "rating": _q("a gauge pressure"),
-                                    "restraint": {"enum": list(RESTRAINTS)},
-                                    "profile": {"type": "array", "maxItems": MAX_POINTS},
-                                    "fittings": {"type": "array", "maxItems": MAX_FITTINGS},
-                                    "mode": {"enum": ["power", "head", "curve"]},
-                                    "power": _q("a power"), "efficiency": _RATIO, "head": _q("a length"),
-                                    "speed_ratio": _RATIO, "K": _RATIO,
-                                    "curve": {"type": "array", "maxItems": MAX_POINTS}}}},
+                "surge_allowance": _q("a pressure"), "surge_closure_time": _q("a time")})}),
+        "start": {"$ref": "#/$defs/start"},
+        "end": {"$ref": "#/$defs/end"},
+        # Each element has the keys of its kind only.
+        "elements": {"type": "array", "maxItems": MAX_ELEMENTS, "items": {
+            "type": "object", "required": ["kind"], "properties": {"kind": {"enum": list(_ELEMENTS)}},
+            "allOf": [{"if": {"properties": {"kind": {"const": kind}}, "required": ["kind"]},
+                       "then": {"$ref": f"#/$defs/{kind}"}} for kind in _ELEMENTS]}},
     },
-    "$defs": {"node": {"type": "object", "required": ["kind", "elevation"], "properties": {
-        "kind": {"enum": ["reservoir", "pressure", "jet"]}, "elevation": _q("a length"),
-        "pressure": _q("a gauge pressure"), "outlet_elevation": _q("a length"),
-        "entrance": {"enum": list(ENTRANCE_KEYS)},
-        "nozzle_diameter": _q("a length"), "velocity_coefficient": _RATIO}}},
+    "$defs": {
+        # A node keeps the keys of the kinds it had before (the form never deletes a key), so the
+        # start has those of a reservoir and a pressure, the end those of a jet too.
+        "start": _group({
+            "kind": {"enum": ["reservoir", "pressure", "", None]}, "elevation": _q("a length"),
+            "pressure": _q("a gauge pressure"), "outlet_elevation": _q("a length"),
+            "entrance": {"enum": [*ENTRANCE_KEYS, "", None]}}, required=["elevation"]),
+        "end": _group({
+            "kind": {"enum": ["reservoir", "pressure", "jet", "", None]}, "elevation": _q("a length"),
+            "pressure": _q("a gauge pressure"), "nozzle_diameter": _q("a length"),
+            "velocity_coefficient": _RATIO}, required=["elevation"]),
+        **_ELEMENTS,
+        "size": _group({"standard": _KEY, "nominal": _KEY, "class": _KEY}),
+        "fitting": _group({"type": {"type": "string"}, "count": {"type": ["integer", "number", "string", "null"]},
+                           "label": _LABEL, "K": _RATIO, "K1": _RATIO, "Kinf": _RATIO, "Ki": _RATIO, "Kd": _RATIO},
+                          required=["type"]),
+        "profile_point": _group({"chainage": _q("a length"), "elevation": _q("a length")}),
+        "curve_point": _group({"flow": _q("a flow"), "head": _q("a length"), "efficiency": _RATIO,
+                               "npsh_required": _q("a length")}),
+    },
 }

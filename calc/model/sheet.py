@@ -48,6 +48,40 @@ FITTING_TEMPLATE = {"type": "k", "K": "0.5", "count": 1, "label": "Fitting"}
 PROFILE_POINT_TEMPLATE = {"chainage": "0 m", "elevation": "0 m"}
 CURVE_POINT_TEMPLATE = {"flow": "0 L/s", "head": "0 m", "efficiency": "", "npsh_required": ""}
 
+#: Every key a sheet document may hold, by where it sits; the parser refuses any other key
+#: (``calc/model/schema.py`` lists the same keys, ``tests/calc/model/test_unknown_keys.py`` compares them).
+#: A group whose kind or mode the form switches keeps the keys of its other kinds or modes (the form
+#: never deletes a key), so those are accepted: the liquid holds the keys of water and of a typed liquid,
+#: the end those of a reservoir, a pressure and a jet, and a fitting the K values of every type.
+SHEET_FIELDS = ("format", "version", "header", "liquid", "site", "settings", "start", "end", "elements")
+HEADER_KEYS = HEADER_FIELDS + ("revision_scheme", "units")
+LIQUID_FIELDS = ("kind", "temperature", "name", "density", "viscosity", "vapour_pressure", "bulk_modulus")
+SITE_FIELDS = ("atmospheric_pressure",)
+SETTINGS_FIELDS = ("friction_method", "checks")
+CHECK_FIELDS = ("velocity_max", "velocity_max_suction", "velocity_min", "npsh_margin_ratio", "npsh_margin_min",
+                "bep_low", "bep_high", "k_uncertainty", "roughness_low", "roughness_high", "surge_allowance",
+                "surge_closure_time")
+NODE_FIELDS = {"start": ("kind", "elevation", "pressure", "outlet_elevation", "entrance"),
+               "end": ("kind", "elevation", "pressure", "nozzle_diameter", "velocity_coefficient")}
+#: The keys of each element kind; a key of another kind is refused with a message naming that kind
+#: (an element's kind never changes on the form, so no element gathers another kind's keys).
+ELEMENT_FIELDS = {
+    "pipe": ("kind", "label", "length", "diameter", "size", "material", "condition", "roughness",
+             "wall_thickness", "end_elevation", "rating", "restraint", "profile", "fittings"),
+    "turbine": ("kind", "label", "mode", "power", "efficiency", "head", "curve"),
+    "pump": ("kind", "label", "mode", "speed_ratio", "efficiency", "head", "curve"),
+    "valve": ("kind", "label", "K", "diameter"),
+}
+ELEMENT_NAMES = {"pipe": "a pipe run", "turbine": "a turbine", "pump": "a pump", "valve": "a valve"}
+SIZE_FIELDS = ("standard", "nominal", "class")
+FITTING_FIELDS = ("type", "count", "label", "K", "K1", "Kinf", "Ki", "Kd")
+PROFILE_POINT_FIELDS = ("chainage", "elevation")
+CURVE_POINT_FIELDS = ("flow", "head", "efficiency", "npsh_required")
+#: Unknown keys reported one by one; past these, one more error gives how many were left out.
+MAX_UNKNOWN_REPORTED = 20
+#: An unknown key is shown (in its error's path and value) cut to this many characters.
+MAX_KEY_SHOWN = 40
+
 
 def blank_sheet() -> dict:
     """A new, valid sheet: a gravity line between two reservoirs with one pipe run."""
@@ -88,10 +122,40 @@ class _Reader:
 
     def __init__(self):
         self.errors: list[InputError] = []
+        self.unknown_left_out = 0  # unknown keys past MAX_UNKNOWN_REPORTED
+        self.unknown_left_out_in: set[str] = set()  # the groups those keys were in
+        self._unknown_reported = 0
 
     def fail(self, path, value, message):
         self.errors.append(InputError(path, value, message))
         return None
+
+    def known(self, d: dict, path: str, fields, what: str, elsewhere: dict | None = None):
+        """Refuse every key of ``d`` not in ``fields``: ``what`` names the group in the message
+        (e.g. "a pipe run"); ``elsewhere`` maps a key that belongs to another group to the message saying so."""
+        listed = ", ".join(fields)
+        for key in d:
+            if key in fields:
+                continue
+            if self._unknown_reported >= MAX_UNKNOWN_REPORTED:
+                self.unknown_left_out += 1
+                self.unknown_left_out_in.add(path)
+                continue
+            self._unknown_reported += 1
+            name = str(key)
+            name = name if len(name) <= MAX_KEY_SHOWN else name[:MAX_KEY_SHOWN] + "…"
+            where = (elsewhere or {}).get(key)
+            message = where or f"is not a field of {what} (the fields are: {listed})"
+            self.fail(f"{path}.{name}" if path else name, name, message)
+
+    def report_unknown_left_out(self):
+        """One error for the unknown keys past the first ``MAX_UNKNOWN_REPORTED``, at their group if they share one."""
+        n = self.unknown_left_out
+        if n:
+            groups = self.unknown_left_out_in
+            path = next(iter(groups)) if len(groups) == 1 else ""
+            self.fail(path, f"{n} keys", f"has {n} more fields this program does not know "
+                                         f"(only the first {MAX_UNKNOWN_REPORTED} are listed)")
 
     @staticmethod
     def blank(v) -> bool:
@@ -184,28 +248,42 @@ def parse(doc: object) -> Parsed:
     if not isinstance(doc, dict):
         r.fail("", type(doc).__name__, "the sheet must be a JSON object")
         return Parsed(None, r.errors)
+    r.known(doc, "", SHEET_FIELDS, "a sheet")
     if doc.get("format", FORMAT) != FORMAT:
         r.fail("format", doc.get("format"), f"must be '{FORMAT}'")
     if doc.get("version", VERSION) != VERSION:
         r.fail("version", doc.get("version"), f"this program reads sheet format version {VERSION}")
 
     header = r.obj(doc, "header", "header")
+    r.known(header, "header", HEADER_KEYS, "the header")
     hdr = {k: r.text(header, k, f"header.{k}") or "" for k in HEADER_FIELDS}
     hdr["revision_scheme"] = r.choice(header, "revision_scheme", "header.revision_scheme",
                                       ("letters", "numbers"), "letters")
     hdr["units"] = r.choice(header, "units", "header.units", ("SI", "US"), "SI")
 
-    liquid = _liquid(r, r.obj(doc, "liquid", "liquid"))
+    liquid_doc = r.obj(doc, "liquid", "liquid")
+    r.known(liquid_doc, "liquid", LIQUID_FIELDS, "the liquid")
+    liquid = _liquid(r, liquid_doc)
     site = r.obj(doc, "site", "site")
+    r.known(site, "site", SITE_FIELDS, "the site")
     p_atm = r.qty(site, "atmospheric_pressure", "site.atmospheric_pressure", PRESSURE, required=False,
                   default=101325.0, lo=1000.0, hi=200000.0, what="the atmospheric pressure (absolute)")
     settings = r.obj(doc, "settings", "settings")
+    r.known(settings, "settings", SETTINGS_FIELDS, "the settings")
     method = r.choice(settings, "friction_method", "settings.friction_method", tuple(friction.METHODS),
                       "colebrook")
-    check_settings = _check_settings(r, r.obj(settings, "checks", "settings.checks"))
+    checks = r.obj(settings, "checks", "settings.checks")
+    r.known(checks, "settings.checks", CHECK_FIELDS, "the check settings")
+    check_settings = _check_settings(r, checks)
 
-    start = _node(r, r.obj(doc, "start", "start"), "start", liquid)
-    end = _node(r, r.obj(doc, "end", "end"), "end", liquid)
+    start_doc, end_doc = r.obj(doc, "start", "start"), r.obj(doc, "end", "end")
+    r.known(start_doc, "start", NODE_FIELDS["start"], "the start",
+            {k: "is a field of a free jet, which only the end can be" for k in NODE_FIELDS["end"]
+             if k not in NODE_FIELDS["start"]})
+    r.known(end_doc, "end", NODE_FIELDS["end"], "the end",
+            {k: "is a field of the start only" for k in NODE_FIELDS["start"] if k not in NODE_FIELDS["end"]})
+    start = _node(r, start_doc, "start", liquid)
+    end = _node(r, end_doc, "end", liquid)
 
     raw = r.lst(doc, "elements", "elements", MAX_ELEMENTS)
     elements = []
@@ -217,6 +295,7 @@ def parse(doc: object) -> Parsed:
             r.fail(path, e, "must be a group of fields")
             continue
         kind = e.get("kind")
+        _known_element_keys(r, e, path, kind)
         if kind == "pipe":
             el = _pipe(r, e, path)
             if el is not None:
@@ -243,11 +322,34 @@ def parse(doc: object) -> Parsed:
                    f"is larger than the bore it is fitted to ({bore * 1e3:.4g} mm): a nozzle narrows the flow; "
                    "leave it empty for a jet from the open pipe end")
     del z
+    r.report_unknown_left_out()
     if r.errors:
         return Parsed(None, r.errors)
     line = Line(start=start, end=end, elements=elements, liquid=liquid, method=method, p_atm=p_atm,
                 header=hdr, settings={**settings, "checks": check_settings})
     return Parsed(implied.complete(line), [])
+
+
+def _known_element_keys(r: _Reader, e: dict, path: str, kind):
+    """Refuse the keys an element of its kind does not have, naming the kind a key belongs to if another."""
+    if not isinstance(kind, str) or kind not in ELEMENT_FIELDS:  # the kind itself is refused; a key of no kind at all is refused too
+        every = tuple(dict.fromkeys(k for fields in ELEMENT_FIELDS.values() for k in fields))
+        r.known(e, path, every, "any element")
+        return
+    own = ELEMENT_FIELDS[kind]
+    elsewhere = {}
+    for other, fields in ELEMENT_FIELDS.items():
+        for k in fields:
+            if k not in own:
+                elsewhere.setdefault(k, []).append(ELEMENT_NAMES[other])
+    r.known(e, path, own, ELEMENT_NAMES[kind],
+            {k: f"is a field of {' or '.join(names)}, not of {ELEMENT_NAMES[kind]}" for k, names in elsewhere.items()})
+    points = e.get("curve")
+    if "curve" in own and isinstance(points, list) and len(points) <= MAX_POINTS:
+        # Every mode's curve points, read or not (the points stay when the mode changes).
+        for j, pt in enumerate(points):
+            if isinstance(pt, dict):
+                r.known(pt, f"{path}.curve.{j}", CURVE_POINT_FIELDS, "a curve point")
 
 
 def _check_settings(r: _Reader, d: dict) -> CheckSettings:
@@ -386,6 +488,8 @@ def _pipe(r: _Reader, e: dict, path: str):
     D_source = "typed by the user"
     size_obj = None
     size = e.get("size")
+    if isinstance(size, dict):
+        r.known(size, f"{path}.size", SIZE_FIELDS, "a pipe size")
     if D is None and len(r.errors) == n_err:
         if isinstance(size, dict) and not all(r.blank(size.get(k)) for k in ("standard", "nominal", "class")):
             try:
@@ -437,6 +541,7 @@ def _pipe(r: _Reader, e: dict, path: str):
         if not isinstance(pt, dict):
             r.fail(pp, pt, "must have a chainage and an elevation")
             continue
+        r.known(pt, pp, PROFILE_POINT_FIELDS, "a profile point")
         s = r.qty(pt, "chainage", f"{pp}.chainage", LENGTH, lo=0.0, what="the chainage")
         zz = r.qty(pt, "elevation", f"{pp}.elevation", LENGTH)
         if s is not None and L is not None and s > L * (1 + 1e-9):
@@ -459,6 +564,7 @@ def _fitting(r: _Reader, ft, path: str):
     if not isinstance(ft, dict):
         return r.fail(path, ft, "must be a fitting")
     n_err = len(r.errors)
+    r.known(ft, path, FITTING_FIELDS, "a fitting")
     kind = ft.get("type")
     count = r.count(ft, "count", f"{path}.count")
     label = r.text(ft, "label", f"{path}.label", MAX_LABEL) or ""

@@ -244,6 +244,12 @@ def test_an_import_passes_the_same_limits_as_a_saved_sheet(app, client, worked):
     with pytest.raises(transfer.ImportRefused, match="larger than a sheet may be"):
         transfer.import_sheet(app.state.store, json.dumps(_reexport(client, worked, junk)))
 
+    def small_junk(doc):  # a small unknown key is refused too: the parser knows every key a sheet has
+        doc["header"]["colour"] = "red"
+
+    with pytest.raises(transfer.ImportRefused, match="header.colour"):
+        transfer.import_sheet(app.state.store, json.dumps(_reexport(client, worked, small_junk)))
+
 
 def test_a_huge_number_in_an_import_is_refused_with_a_message_not_a_server_error(client, worked):
     body = client.get(f"/sheets/{worked}/export.json").content.replace(b'"count": 1', b'"count": 1e999', 1)
