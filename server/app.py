@@ -18,6 +18,7 @@ from markupsafe import Markup, escape
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from server import (
+    account_pages,  # who may sign: accounts page and API
     api,
     pages,
     record,  # the calculation record: record, PDF, sign-off, verify, compare
@@ -262,6 +263,7 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = Fa
             kwargs["response_class"] = HTMLResponse
         app.add_api_route(path, endpoint, **kwargs)
     app.include_router(record.router)
+    app.include_router(account_pages.router)
     app.mount("/static", StaticFiles(directory=str(STATIC)), name="static")
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _validation_error)

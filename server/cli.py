@@ -140,6 +140,61 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
     s.add_argument("file", metavar="FILE", help="a file written by `headsheet export` or the Export link")
     s.set_defaults(func=cmd_import)
 
+    s = sub.add_parser("accounts", help="the accounts that may sign records: list, add, disable, set a password")
+    s.add_argument("--data", default=DEFAULT_DATA, help=data_help)
+    s.add_argument("action", choices=["list", "add", "disable", "password"])
+    s.add_argument("login", nargs="?", default="", metavar="LOGIN")
+    s.add_argument("--name", default="", help="the person's name as the record shows it (add)")
+    s.add_argument("--initials", default="", help="the person's initials (add)")
+    s.add_argument("--roles", default="", help="comma-separated: preparer, checker, approver (add)")
+    s.add_argument("--admin", action="store_true", help="may add and disable accounts on the Accounts page (add)")
+    s.add_argument("--password-stdin", action="store_true", help="read the password from standard input")
+    s.set_defaults(func=cmd_accounts)
+
+
+def _password(args, prompt: str) -> str:
+    """A password from standard input (--password-stdin, for scripts) or typed without echo."""
+    if args.password_stdin:
+        return sys.stdin.readline().rstrip("\r\n")
+    import getpass
+
+    first = getpass.getpass(prompt)
+    if getpass.getpass("Type it again: ") != first:
+        sys.exit("headsheet: the two passwords differ; nothing was changed")
+    return first
+
+
+def cmd_accounts(args) -> int:
+    from server.accounts import ROLES, AccountRefused, Accounts, NewAccount
+
+    accounts = Accounts(_store(args.data, must_exist=args.action != "add"))
+    try:
+        if args.action == "list":
+            for a in accounts.store.accounts():
+                state = f"disabled {a.disabled[:10]}" if a.disabled else "signs"
+                print(f"{a.login:20} {a.name} ({a.initials}); may sign as {', '.join(a.roles)}"
+                      f"{'; administrator' if a.admin else ''}; {state}")
+        elif args.action == "add":
+            if not args.login or not args.name or not args.initials:
+                sys.exit("headsheet: accounts add needs LOGIN, --name and --initials")
+            roles = tuple(r.strip() for r in (args.roles or "").split(",") if r.strip())
+            bad = [r for r in roles if r not in ROLES]
+            if bad or not roles:
+                sys.exit(f"headsheet: --roles is a comma-separated list of {', '.join(ROLES)}")
+            made = accounts.create(NewAccount(args.login, args.name, args.initials, roles, args.admin),
+                                   _password(args, f"Password for {args.login}: "), "command line")
+            print(f"Account '{made.login}' ({made.name}) added; it may sign as {', '.join(made.roles)}"
+                  f"{' and is an administrator' if made.admin else ''}.")
+        elif args.action == "password":
+            who = accounts.set_password(args.login or "", _password(args, f"New password for {args.login}: "))
+            print(f"The password of '{who.login}' was changed.")
+        elif args.action == "disable":
+            gone = accounts.disable(args.login or "")
+            print(f"Account '{gone.login}' disabled: its signatures stay, it signs no more.")
+    except AccountRefused as refused:
+        sys.exit(f"headsheet: {refused}")
+    return 0
+
 
 def build_parser() -> argparse.ArgumentParser:
     """The whole `headsheet` command: the calculation commands, then the server's."""

@@ -236,8 +236,10 @@ def issue_labels(store: Store, rev: Revision, header: dict) -> dict:
 def page_extras(request: Request, sheet_id: int) -> dict:
     """What only the whole sheet page shows: its read-only links."""
     store = _store(request)
-    links = [{"link": link, "urls": view_urls(request, link.token)} for link in store.view_links(sheet_id)]
-    return {"links": links}
+    people = {a.id: a for a in store.accounts()}
+    links = [{"link": link, "urls": view_urls(request, link.token), "reviewer": people.get(link.account_id)}
+             for link in store.view_links(sheet_id)]
+    return {"links": links, "reviewers": [a for a in people.values() if a.enabled]}
 
 
 def view_urls(request: Request, token: str) -> list[str]:

@@ -18,12 +18,12 @@ from starlette.concurrency import run_in_threadpool
 from calc import record as calc_record
 from calc.analysis import Analysis, analyse
 from calc.record import fingerprint as fp
-from server import pdf
+from server import accounts, pdf
+from server.accounts import AccountRefused, Accounts
 from server.store import Revision, SheetNotFound, SignOffRefused, Store
 
 log = logging.getLogger("headsheet.record")
 
-MAX_NAME = 100
 MAX_COMMENT = 500
 #: Shortest fingerprint prefix the verify page accepts: 16 hex digits, 64 bits, no accidental match.
 MIN_PREFIX = 16
@@ -72,6 +72,21 @@ def verify_address(request: Request, fprint: str) -> str:
     return f"{request.url.scheme}://{request.url.netloc}{root}{path}"
 
 
+def _with_versions(store: Store, rev: Revision) -> list[dict]:
+    """The revision's signatures, each with the program version its fingerprint was made under.
+
+    Signatures made before the version was stored with them take it from the fingerprints the
+    store noted for the revision (a record is fingerprinted whenever it is opened or signed).
+    """
+    sigs = store.signatures(rev.sheet_id, rev.number)
+    for sig in sigs:
+        if not sig["version"]:
+            known = [f["version"] for f in store.find_fingerprint(sig["fingerprint"])
+                     if f["sheet_id"] == rev.sheet_id and f["number"] == rev.number]
+            sig["version"] = known[0] if known else ""
+    return sigs
+
+
 def build_record(request: Request, rev: Revision, remember: bool = True) -> tuple[calc_record.Record, Analysis]:
     """The record of a stored revision, with its label, signatures and verify address; notes its fingerprint."""
     store = _store(request)
@@ -81,7 +96,7 @@ def build_record(request: Request, rev: Revision, remember: bool = True) -> tupl
     fprint = fp.fingerprint(analysis, version)
     meta = calc_record.Meta(
         sheet_id=rev.sheet_id, store_revision=rev.number, label_index=index, created=rev.created,
-        printed=_now(), frozen=rev.frozen, signatures=store.signatures(rev.sheet_id, rev.number),
+        printed=_now(), frozen=rev.frozen, signatures=_with_versions(store, rev),
         verify_url=verify_address(request, fprint),
     )
     rec = calc_record.build(analysis, meta, version)
@@ -101,6 +116,8 @@ def record_context(request: Request, sheet_id: int, number: int, *, for_pdf: boo
     scheme = rec.header["revision_scheme"]
     next_label = calc_record.revision_label(store.frozen_before(sheet_id, number) + 1, scheme)
     signed_roles = [s.role for s in rec.signoff if s.done]
+    link = link_of(request)
+    reviewer = store.account_by_id(link.account_id) if link and link.account_id is not None else None
     next_role = next((r for r in calc_record.ROLES if r not in signed_roles), None)
     if for_pdf:
         def asset(path: str) -> str:
@@ -127,7 +144,9 @@ def record_context(request: Request, sheet_id: int, number: int, *, for_pdf: boo
         "message": message,
         "message_kind": message_kind,
         "form": form or {},
-        "max_name": MAX_NAME,
+        "link": link,
+        "link_login": reviewer.login if reviewer else "",
+        "accounts_exist": store.account_count() > 0,
         "max_comment": MAX_COMMENT,
     }
 
@@ -191,35 +210,81 @@ async def record_pdf(request: Request, sheet_id: int, number: int, paper: str = 
 
 # -- sign-off -------------------------------------------------------------------------------------
 
-def _check_signature(role: str, name: str, comment: str) -> str | None:
-    if role not in calc_record.ROLES:
-        return "Choose a role: preparer, checker or approver."
-    if not name.strip():
-        return "Type your name to sign."
-    if len(name) > MAX_NAME:
-        return f"A name may be at most {MAX_NAME} characters."
-    if len(comment) > MAX_COMMENT:
-        return f"A comment may be at most {MAX_COMMENT} characters."
-    return None
+def accounts_of(request: Request) -> Accounts:
+    """The server's account rules (made on first use, over the app's store)."""
+    state = request.app.state
+    found = getattr(state, "accounts", None)
+    if found is None:
+        found = state.accounts = Accounts(state.store)
+    return found
 
 
-def sign(request: Request, sheet_id: int, number: int, role: str, name: str, comment: str,
+def client_of(request: Request) -> str:
+    return request.client.host if request.client else ""
+
+
+def link_of(request: Request):
+    """The read-only link this request came through, or None for the server's own pages."""
+    info = request.scope.get("headsheet") or {}
+    if info.get("viewer") is None:
+        return None
+    token = info.get("view_prefix", "").rsplit("/", 1)[-1]
+    return _store(request).view_link(token)
+
+
+class SignatureRefused(SignOffRefused):
+    """A refused signature, naming the form field at fault (for the message beside it)."""
+
+    def __init__(self, status: int, message: str, field: str = ""):
+        super().__init__(status, message)
+        self.field = field
+
+
+def sign(request: Request, sheet_id: int, number: int, role: str, login: str, password: str, comment: str,
          seen: str | None) -> dict:
-    """Validate and store one signature; raises SignOffRefused with the status to answer."""
+    """Confirm the signer's identity and store one signature; raises SignOffRefused with the status to answer.
+
+    The signer is the account whose login and password are given, and the role must be one that
+    account may sign in. Through a read-only link, only the reviewer the link was made for signs,
+    in the link's role; a link made for nobody is for viewing only.
+    """
     store = _store(request)
     rev = store.revision(sheet_id, number)
-    problem = _check_signature(role, name, comment)
-    if problem:
-        raise SignOffRefused(422, problem)
+    if role not in calc_record.ROLES:
+        raise SignatureRefused(422, "Choose a role: preparer, checker or approver.", "role")
+    if len(comment) > MAX_COMMENT:
+        raise SignatureRefused(422, f"A comment may be at most {MAX_COMMENT} characters.", "comment")
+    link = link_of(request)
+    if link is not None:
+        if link.account_id is None:
+            raise SignatureRefused(403, "This read-only link is for viewing: it was not made for a reviewer, so "
+                                        "nobody signs through it. Ask for a link made for you and your role.")
+        reviewer = store.account_by_id(link.account_id)
+        if role != link.role or reviewer is None or accounts.normal_login(login) != reviewer.login:
+            who = reviewer.login if reviewer else "its reviewer"
+            raise SignatureRefused(403, f"This link was made for '{who}' to sign as {link.role}: it signs only "
+                                        "as that person, in that role.", "login")
+    if store.account_count() == 0:
+        raise SignatureRefused(409, "Signing needs an account on this server, and there is none yet. Make the first "
+                                    "one on the Accounts page (from this computer) or with "
+                                    "'headsheet accounts add'.")
+    try:
+        signer = accounts_of(request).signer(login, password, role, client_of(request))
+    except AccountRefused as refused:
+        raise SignatureRefused(refused.status, str(refused), refused.field) from None
     analysis = _analysis(rev.document_json)
     if not analysis.ok:
-        raise SignOffRefused(422, "This revision has input errors, so it has no record to sign.")
-    current = fp.fingerprint(analysis)
+        raise SignatureRefused(422, "This revision has input errors, so it has no record to sign.")
+    version = fp.program_version()
+    current = fp.fingerprint(analysis, version)
     if seen is not None and fp.normalise(seen) != current:
-        raise SignOffRefused(409, "The record has changed since it was opened (its fingerprint differs): "
-                                  "read it again before signing.")
-    store.remember_fingerprint(current, sheet_id, number, fp.program_version())
-    return store.sign(sheet_id, number, role, " ".join(name.split()), comment.strip(), current)
+        raise SignatureRefused(409, "The record has changed since it was opened (its fingerprint differs): "
+                                    "read it again before signing.")
+    store.remember_fingerprint(current, sheet_id, number, version)
+    return store.sign(sheet_id, number, role, signer, comment.strip(), current, version, accounts.IDENTIFIED)
+
+
+SIGN_FIELDS = ("role", "login", "password", "comment", "fingerprint")
 
 
 async def sign_form(request: Request, sheet_id: int, number: int) -> Response:
@@ -227,11 +292,13 @@ async def sign_form(request: Request, sheet_id: int, number: int) -> Response:
         data = await request.form(max_fields=20, max_files=0)
     except Exception:  # a malformed form reads as empty
         data = {}
-    form = {k: (data.get(k) if isinstance(data.get(k), str) else "") for k in ("role", "name", "comment", "fingerprint")}
+    form = {k: (data.get(k) if isinstance(data.get(k), str) else "") for k in SIGN_FIELDS}
     try:
-        await run_in_threadpool(sign, request, sheet_id, number, form["role"], form["name"][:2000],
-                                form["comment"][:5000], form["fingerprint"])
+        await run_in_threadpool(sign, request, sheet_id, number, form["role"], form["login"][:200],
+                                form["password"][:1000], form["comment"][:5000], form["fingerprint"])
     except SignOffRefused as refused:
+        form["password"] = ""  # never sent back
+        form["field"] = getattr(refused, "field", "")
         context = await run_in_threadpool(record_context, request, sheet_id, number, message=str(refused),
                                           message_kind="error", form=form)
         return _render(request, "record.html", context, refused.status)
@@ -240,7 +307,8 @@ async def sign_form(request: Request, sheet_id: int, number: int) -> Response:
 
 class SignIn(BaseModel):
     role: str = Field(description="preparer, checker or approver; they sign in that order")
-    name: str = Field(max_length=MAX_NAME)
+    login: str = Field(max_length=200, description="the signer's account on this server")
+    password: str = Field(max_length=1000, description="the signer's password, confirming this signature")
     comment: str = Field("", max_length=MAX_COMMENT)
     fingerprint: str | None = Field(None, description="the fingerprint the signer read; 409 if the record differs")
 
@@ -250,7 +318,8 @@ def _record_json(request: Request, rev: Revision) -> dict:
     return {"sheet_id": rev.sheet_id, "revision": rev.number, "label": rec.header["revision"],
             "frozen": rev.frozen, "signed": rec.signed, "ok": analysis.ok, "fingerprint": rec.fingerprint,
             "version": rec.version, "verify_url": rec.verify_url,
-            "signatures": [{"role": s.role, "name": s.name, "comment": s.comment, "signed": s.signed}
+            "signatures": [{"role": s.role, "name": s.name, "initials": s.initials, "login": s.login,
+                            "comment": s.comment, "signed": s.signed, "status": s.status, "identified": s.how}
                            for s in rec.signoff if s.done]}
 
 
@@ -261,10 +330,14 @@ async def api_record(request: Request, sheet_id: int, number: int) -> Response:
 
 async def api_sign(request: Request, sheet_id: int, number: int, body: SignIn) -> Response:
     try:
-        await run_in_threadpool(sign, request, sheet_id, number, body.role, body.name, body.comment, body.fingerprint)
+        await run_in_threadpool(sign, request, sheet_id, number, body.role, body.login, body.password, body.comment,
+                                body.fingerprint)
     except SignOffRefused as refused:
-        title = "Conflict" if refused.status == 409 else "Invalid input"
-        return _json_error(refused.status, title, str(refused))
+        title = {409: "Conflict", 401: "Not identified", 403: "Not allowed", 429: "Too many tries"}.get(
+            refused.status, "Invalid input")
+        field = getattr(refused, "field", "")
+        return _json_error(refused.status, title, str(refused),
+                           [{"path": field, "message": str(refused)}] if field else [])
     rev = _store(request).revision(sheet_id, number)
     return JSONResponse(await run_in_threadpool(_record_json, request, rev), status_code=201)
 

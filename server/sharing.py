@@ -84,10 +84,28 @@ async def key_submit(request: Request) -> Response:
 
 # -- read-only links ------------------------------------------------------------------------------
 
+def _make_link(store: Store, sheet_id: int, note: str, reviewer: str) -> str | None:
+    """Make a link (for a reviewer "login role", or view only); returns why not, or None."""
+    account_id = role = None
+    if reviewer.strip():
+        login, _, role = reviewer.strip().partition(" ")
+        found = store.account(login.casefold())
+        if found is None or not found[0].enabled:
+            return f"There is no working account '{login[:40]}' to make a link for."
+        if role not in found[0].roles:
+            return f"{found[0].name} may not sign as '{role[:20]}'; their roles are {', '.join(found[0].roles)}."
+        account_id = found[0].id
+    store.latest(sheet_id)  # 404 for a sheet that does not exist
+    store.create_view_link(sheet_id, note, account_id, role)
+    return None
+
+
 async def link_create(request: Request, sheet_id: int) -> Response:
-    form = await _fields(request, "note")
+    form = await _fields(request, "note", "reviewer")
     note = clean_author(form["note"])[:MAX_LINK_NOTE]
-    await run_in_threadpool(_store(request).create_view_link, sheet_id, note)
+    problem = await run_in_threadpool(_make_link, _store(request), sheet_id, note, form["reviewer"][:200])
+    if problem:
+        return _error(request, 422, "No link made", problem)
     return RedirectResponse(_url(request, "sheet", sheet_id=sheet_id) + "#links", status_code=303)
 
 

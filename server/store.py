@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import Any, Iterator
 
 DB_NAME = "headsheet.sqlite"
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2  # 2: accounts, identified signatures, links for a named reviewer
 
 # Revisions are the record of the engineering work, so the database itself refuses to
 # rewrite or delete them; only `frozen` may change, and only from 0 to 1 (for sign-off).
@@ -166,6 +166,8 @@ class Store:
             con.executescript(_SCHEMA)
             con.executescript(_SIGNOFF_SCHEMA)  # sign-off block, end of file
             con.executescript(_SHARING_SCHEMA)  # read-only links, below the sign-off block
+            con.executescript(_ACCOUNTS_SCHEMA)  # accounts and trusted installations, at the end
+            _add_columns(con)
             con.execute(f"PRAGMA user_version={SCHEMA_VERSION}")
         os.chmod(self.path, 0o600)
 
@@ -352,11 +354,13 @@ class Store:
     # == sign-off and record fingerprints (the calculation record; server/record.py) ================
     # Kept apart from the sheet methods above. Tables in _SIGNOFF_SCHEMA at the end of this file.
 
-    def sign(self, sheet_id: int, number: int, role: str, name: str, comment: str, fingerprint: str) -> dict:
+    def sign(self, sheet_id: int, number: int, role: str, signer: Account, comment: str, fingerprint: str,
+             version: str, identified: str) -> dict:
         """Record one role's signature on a revision; the first signature freezes the revision.
 
-        Roles sign in order (preparer, checker, approver), each once; the checker is not the
-        preparer; a revision's first signature must be on the sheet's latest revision. Raises
+        Roles sign in order (preparer, checker, approver), each once and each by a different
+        account; a revision's first signature must be on the sheet's latest revision. ``signer``
+        is the account whose password was confirmed, ``identified`` says how and when. Raises
         SignOffRefused (with an HTTP-like status) otherwise, SheetNotFound for no such revision.
         """
         _valid_id(sheet_id, number)
@@ -368,17 +372,21 @@ class Store:
                               (sheet_id, number)).fetchone()
             if row is None:
                 raise SheetNotFound(sheet_id, number)
-            have = {r: (n, s) for r, n, s in con.execute(
-                "SELECT role, name, signed FROM signatures WHERE sheet_id = ? AND number = ?", (sheet_id, number))}
+            have = {r: (n, s, a, lg) for r, n, s, a, lg in con.execute(
+                "SELECT role, name, signed, account_id, login FROM signatures WHERE sheet_id = ? AND number = ?",
+                (sheet_id, number))}
             if role in have:
-                who, when = have[role]
+                who, when = have[role][:2]
                 raise SignOffRefused(409, f"Revision {number} was already signed as {role} by {who} on {when[:10]}. "
                                           "A signed revision cannot change: edit the sheet to start the next revision.")
             before = order[order.index(role) - 1] if role != "preparer" else None
             if before is not None and before not in have:
                 raise SignOffRefused(409, f"The {before} signs before the {role}.")
-            if role == "checker" and _same_person(name, have["preparer"][0]):
-                raise SignOffRefused(422, "The checker must be someone other than the preparer.")
+            for other, (who, _, account_id, _) in have.items():
+                same = account_id == signer.id if account_id is not None else _same_person(who, signer.name)
+                if same:
+                    raise SignOffRefused(422, f"{signer.name} already signed this revision as {other}: the preparer, "
+                                              "checker and approver are three different people.")
             if not have:
                 latest = con.execute("SELECT MAX(number) FROM revisions WHERE sheet_id = ?", (sheet_id,)).fetchone()[0]
                 if latest != number:
@@ -386,19 +394,24 @@ class Store:
                                               "sign-off starts on the latest revision.")
                 con.execute("UPDATE revisions SET frozen = 1 WHERE sheet_id = ? AND number = ?", (sheet_id, number))
             signed = _now()
-            con.execute("INSERT INTO signatures (sheet_id, number, role, name, comment, signed, fingerprint) "
-                        "VALUES (?, ?, ?, ?, ?, ?, ?)", (sheet_id, number, role, name, comment, signed, fingerprint))
-        return {"role": role, "name": name, "comment": comment, "signed": signed, "fingerprint": fingerprint}
+            con.execute("INSERT INTO signatures (sheet_id, number, role, name, comment, signed, fingerprint, "
+                        "account_id, login, initials, identified, version, origin) "
+                        "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, '')",
+                        (sheet_id, number, role, signer.name, comment, signed, fingerprint, signer.id, signer.login,
+                         signer.initials, identified, version))
+        return {"role": role, "name": signer.name, "comment": comment, "signed": signed, "fingerprint": fingerprint,
+                "account_id": signer.id, "login": signer.login, "initials": signer.initials,
+                "identified": identified, "version": version, "origin": ""}
 
     def signatures(self, sheet_id: int, number: int) -> list[dict]:
-        """The signatures on one revision, in role order."""
+        """The signatures on one revision, in role order, each with how its signer was identified."""
         _valid_id(sheet_id, number)
         with self._connect() as con:
             rows = con.execute(
-                "SELECT role, name, comment, signed, fingerprint FROM signatures WHERE sheet_id = ? AND number = ? "
+                f"SELECT {_SIGNATURE_COLUMNS} FROM signatures WHERE sheet_id = ? AND number = ? "
                 "ORDER BY CASE role WHEN 'preparer' THEN 0 WHEN 'checker' THEN 1 ELSE 2 END",
                 (sheet_id, number)).fetchall()
-        return [dict(zip(("role", "name", "comment", "signed", "fingerprint"), r)) for r in rows]
+        return [_signature(r) for r in rows]
 
     def frozen_before(self, sheet_id: int, number: int) -> int:
         """How many revisions of the sheet before ``number`` are frozen (signed): the record's revision index."""
@@ -441,33 +454,43 @@ class Store:
             con.execute("INSERT OR IGNORE INTO meta (key, value) VALUES ('secret', ?)", (secrets.token_hex(32),))
             return bytes.fromhex(con.execute("SELECT value FROM meta WHERE key = 'secret'").fetchone()[0])
 
-    def create_view_link(self, sheet_id: int, note: str = "") -> ViewLink:
-        """A new read-only link to a sheet: a random token that opens the sheet to view, print and sign."""
+    def create_view_link(self, sheet_id: int, note: str = "", account_id: int | None = None,
+                         role: str | None = None) -> ViewLink:
+        """A new read-only link to a sheet: a random token that opens the sheet to view and print.
+
+        A link made for a reviewer (``account_id``) and a ``role`` also lets that reviewer sign in
+        that role, with their own password; a link without one is for viewing only.
+        """
         _valid_id(sheet_id)
-        link = ViewLink(secrets.token_urlsafe(18), sheet_id, _now(), note, None)
+        link = ViewLink(secrets.token_urlsafe(18), sheet_id, _now(), note, None, account_id, role)
         with self._write() as con:
             if con.execute("SELECT 1 FROM sheets WHERE id = ?", (sheet_id,)).fetchone() is None:
                 raise SheetNotFound(sheet_id)
-            con.execute("INSERT INTO view_links (token, sheet_id, created, note) VALUES (?, ?, ?, ?)",
-                        (link.token, sheet_id, link.created, note))
+            con.execute("INSERT INTO view_links (token, sheet_id, created, note, account_id, role) "
+                        "VALUES (?, ?, ?, ?, ?, ?)", (link.token, sheet_id, link.created, note, account_id, role))
         return link
 
     def view_links(self, sheet_id: int) -> list[ViewLink]:
         """The sheet's read-only links that still work, newest first."""
         _valid_id(sheet_id)
         with self._connect() as con:
-            rows = con.execute("SELECT token, sheet_id, created, note, revoked FROM view_links "
+            rows = con.execute(f"SELECT {_LINK_COLUMNS} FROM view_links "
                                "WHERE sheet_id = ? AND revoked IS NULL ORDER BY rowid DESC", (sheet_id,)).fetchall()
         return [ViewLink(*r) for r in rows]
 
-    def view_link_sheet(self, token: str) -> int | None:
-        """The sheet a read-only link opens, or None for an unknown or revoked link."""
+    def view_link(self, token: str) -> ViewLink | None:
+        """The working read-only link with this token, or None."""
         if not token or len(token) > 100:
             return None
         with self._connect() as con:
-            row = con.execute("SELECT sheet_id FROM view_links WHERE token = ? AND revoked IS NULL",
+            row = con.execute(f"SELECT {_LINK_COLUMNS} FROM view_links WHERE token = ? AND revoked IS NULL",
                               (token,)).fetchone()
-        return row[0] if row else None
+        return ViewLink(*row) if row else None
+
+    def view_link_sheet(self, token: str) -> int | None:
+        """The sheet a read-only link opens, or None for an unknown or revoked link."""
+        link = self.view_link(token)
+        return link.sheet_id if link else None
 
     def revoke_view_link(self, sheet_id: int, token: str) -> bool:
         """Stop a read-only link from working; returns whether a working link was revoked."""
@@ -487,7 +510,7 @@ class Store:
                 revisions = con.execute(f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? "
                                         "ORDER BY number", (sheet_id,)).fetchall()
                 signatures = con.execute(
-                    "SELECT number, role, name, comment, signed, fingerprint FROM signatures WHERE sheet_id = ? "
+                    f"SELECT number, {_SIGNATURE_COLUMNS} FROM signatures WHERE sheet_id = ? "
                     "ORDER BY number, CASE role WHEN 'preparer' THEN 0 WHEN 'checker' THEN 1 ELSE 2 END",
                     (sheet_id,)).fetchall()
             finally:
@@ -496,8 +519,7 @@ class Store:
             raise SheetNotFound(sheet_id)
         return {"sheet": {"id": sheet[0], "created": sheet[1], "archived": bool(sheet[2])},
                 "revisions": [_revision(r) for r in revisions],
-                "signatures": [dict(zip(("number", "role", "name", "comment", "signed", "fingerprint"), s))
-                               for s in signatures]}
+                "signatures": [{"number": s[0], **_signature(s[1:])} for s in signatures]}
 
     def import_rows(self, created: str, revisions: list[Revision], signatures: list[dict], origin: dict) -> int:
         """A new sheet holding the given revisions and signatures word for word; returns its id.
@@ -511,14 +533,84 @@ class Store:
                 f"INSERT INTO revisions ({_REVISION_COLUMNS}) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
                 [(sheet_id, r.number, r.document_json, r.digest, r.created, r.author, r.note, r.base,
                   1 if r.frozen else 0) for r in revisions])
+            # An imported signature was not made here: it keeps the file's words and says where it came
+            # from (``origin``), and it names no account of this server.
             con.executemany(
-                "INSERT INTO signatures (sheet_id, number, role, name, comment, signed, fingerprint) "
-                "VALUES (?, ?, ?, ?, ?, ?, ?)",
-                [(sheet_id, s["number"], s["role"], s["name"], s["comment"], s["signed"], s["fingerprint"])
-                 for s in signatures])
+                "INSERT INTO signatures (sheet_id, number, role, name, comment, signed, fingerprint, "
+                "account_id, login, initials, identified, version, origin) VALUES (?, ?, ?, ?, ?, ?, ?, NULL, ?, ?, ?, ?, ?)",
+                [(sheet_id, s["number"], s["role"], s["name"], s["comment"], s["signed"], s["fingerprint"],
+                  s.get("login", ""), s.get("initials", ""), s.get("identified", ""), s.get("version", ""),
+                  s["origin"]) for s in signatures])
             con.execute("INSERT INTO meta (key, value) VALUES (?, ?)",
                         (f"imported:{sheet_id}", json.dumps({**origin, "imported": _now()}, ensure_ascii=False)))
         return sheet_id
+
+    # == accounts: who may sign, and the installations whose exports are trusted ==========================
+    # Tables in _ACCOUNTS_SCHEMA at the end of this file; the rules (hashing, roles, admin) in server/accounts.py.
+
+    def add_account(self, login: str, name: str, initials: str, roles: tuple[str, ...], password_hash: str,
+                    admin: bool, created_by: str) -> Account:
+        """A new account; StoreError if the login is taken (logins compare without case)."""
+        created = _now()
+        with self._write() as con:
+            if con.execute("SELECT 1 FROM accounts WHERE login = ?", (login,)).fetchone():
+                raise StoreError(f"There is already an account '{login}'.")
+            account_id = con.execute(
+                "INSERT INTO accounts (login, name, initials, roles, admin, password, created, created_by) "
+                "VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                (login, name, initials, " ".join(roles), 1 if admin else 0, password_hash, created, created_by)
+            ).lastrowid
+        return Account(account_id, login, name, initials, tuple(roles), admin, created, created_by, None)
+
+    def accounts(self) -> list[Account]:
+        """Every account, disabled ones too (accounts are disabled, never deleted), by login."""
+        with self._connect() as con:
+            rows = con.execute(f"SELECT {_ACCOUNT_COLUMNS} FROM accounts ORDER BY login").fetchall()
+        return [_account(r) for r in rows]
+
+    def account_count(self) -> int:
+        with self._connect() as con:
+            return con.execute("SELECT COUNT(*) FROM accounts").fetchone()[0]
+
+    def account(self, login: str) -> tuple[Account, str] | None:
+        """An account by login, with its password hash, or None."""
+        with self._connect() as con:
+            row = con.execute(f"SELECT {_ACCOUNT_COLUMNS}, password FROM accounts WHERE login = ?",
+                              (login,)).fetchone()
+        return (_account(row[:-1]), row[-1]) if row else None
+
+    def account_by_id(self, account_id: int) -> Account | None:
+        with self._connect() as con:
+            row = con.execute(f"SELECT {_ACCOUNT_COLUMNS} FROM accounts WHERE id = ?", (account_id,)).fetchone()
+        return _account(row) if row else None
+
+    def set_password_hash(self, account_id: int, password_hash: str) -> None:
+        with self._write() as con:
+            con.execute("UPDATE accounts SET password = ? WHERE id = ?", (password_hash, account_id))
+
+    def disable_account(self, account_id: int) -> bool:
+        """Disable an account (its signatures stay, it signs no more); returns whether it was enabled."""
+        with self._write() as con:
+            cur = con.execute("UPDATE accounts SET disabled = ? WHERE id = ? AND disabled IS NULL", (_now(), account_id))
+            return cur.rowcount == 1
+
+    def trust_key(self, public_key: str, name: str, added_by: str) -> None:
+        """Trust exports signed with this installation key (hex Ed25519 public key)."""
+        with self._write() as con:
+            con.execute("INSERT INTO trusted_keys (public_key, name, added, added_by) VALUES (?, ?, ?, ?) "
+                        "ON CONFLICT (public_key) DO UPDATE SET name = excluded.name, removed = NULL",
+                        (public_key, name, _now(), added_by))
+
+    def distrust_key(self, public_key: str) -> bool:
+        with self._write() as con:
+            cur = con.execute("UPDATE trusted_keys SET removed = ? WHERE public_key = ? AND removed IS NULL",
+                              (_now(), public_key))
+            return cur.rowcount == 1
+
+    def trusted_keys(self) -> dict[str, str]:
+        """Trusted installation keys (hex) and the names given them."""
+        with self._connect() as con:
+            return dict(con.execute("SELECT public_key, name FROM trusted_keys WHERE removed IS NULL").fetchall())
 
     def backup(self, out: Path) -> dict:
         """A consistent copy of the whole store in ``out`` (a single file), taken while others may be writing.
@@ -561,6 +653,11 @@ class ViewLink:
     created: str
     note: str
     revoked: str | None
+    account_id: int | None = None  # the reviewer it was made for, who may sign through it
+    role: str | None = None  # the role that reviewer signs in
+
+
+_LINK_COLUMNS = "token, sheet_id, created, note, revoked, account_id, role"
 
 
 # Read-only links are revoked, never deleted, so the store keeps who was given access and when.
@@ -585,6 +682,33 @@ class SignOffRefused(StoreError):
     def __init__(self, status: int, message: str):
         self.status = status
         super().__init__(message)
+
+
+_SIGNATURE_COLUMNS = ("role, name, comment, signed, fingerprint, COALESCE(account_id, -1), COALESCE(login, ''), "
+                      "COALESCE(initials, ''), COALESCE(identified, ''), COALESCE(version, ''), COALESCE(origin, '')")
+_SIGNATURE_KEYS = ("role", "name", "comment", "signed", "fingerprint", "account_id", "login", "initials",
+                   "identified", "version", "origin")
+
+
+def _signature(row) -> dict:
+    """A signature row as a dict. ``identified`` is empty for one made before accounts existed (a typed
+    name only), ``origin`` empty for one made on this server, and ``account_id`` None unless made here."""
+    sig = dict(zip(_SIGNATURE_KEYS, row))
+    if sig["account_id"] == -1:
+        sig["account_id"] = None
+    return sig
+
+
+def _add_columns(con: sqlite3.Connection) -> None:
+    """Bring a store made by an earlier version up to this one's columns (added, never rewritten)."""
+    wanted = {"signatures": [("account_id", "INTEGER"), ("login", "TEXT"), ("initials", "TEXT"),
+                             ("identified", "TEXT"), ("version", "TEXT"), ("origin", "TEXT")],
+              "view_links": [("account_id", "INTEGER"), ("role", "TEXT")]}
+    for table, columns in wanted.items():
+        have = {r[1] for r in con.execute(f"PRAGMA table_info({table})")}
+        for name, kind in columns:
+            if name not in have:
+                con.execute(f"ALTER TABLE {table} ADD COLUMN {name} {kind}")
 
 
 def _same_person(a: str, b: str) -> bool:
@@ -623,4 +747,65 @@ CREATE TABLE IF NOT EXISTS fingerprints (
     PRIMARY KEY (fingerprint, sheet_id, number)
 );
 CREATE INDEX IF NOT EXISTS fingerprints_by_revision ON fingerprints (sheet_id, number, version);
+"""
+
+
+@dataclass(frozen=True)
+class Account:
+    """A person who may sign: their login, name and initials, and which roles they may sign in."""
+
+    id: int
+    login: str
+    name: str
+    initials: str
+    roles: tuple[str, ...]
+    admin: bool  # may add and disable accounts
+    created: str
+    created_by: str
+    disabled: str | None
+
+    @property
+    def enabled(self) -> bool:
+        return self.disabled is None
+
+
+_ACCOUNT_COLUMNS = "id, login, name, initials, roles, admin, created, created_by, disabled"
+
+
+def _account(row) -> Account:
+    return Account(row[0], row[1], row[2], row[3], tuple(row[4].split()), bool(row[5]), row[6], row[7], row[8])
+
+
+# Accounts are disabled, never deleted, so every signature keeps the account that made it.
+# Only the password hash and the disabled time ever change. Trusted installation keys likewise
+# are removed by marking them, so an import's trust can be traced later.
+_ACCOUNTS_SCHEMA = """
+CREATE TABLE IF NOT EXISTS accounts (
+    id         INTEGER PRIMARY KEY AUTOINCREMENT,
+    login      TEXT NOT NULL UNIQUE,
+    name       TEXT NOT NULL,
+    initials   TEXT NOT NULL,
+    roles      TEXT NOT NULL,
+    admin      INTEGER NOT NULL DEFAULT 0,
+    password   TEXT NOT NULL,
+    created    TEXT NOT NULL,
+    created_by TEXT NOT NULL DEFAULT '',
+    disabled   TEXT
+);
+CREATE TRIGGER IF NOT EXISTS accounts_never_deleted
+BEFORE DELETE ON accounts
+BEGIN SELECT RAISE(ABORT, 'accounts are disabled, never deleted'); END;
+CREATE TRIGGER IF NOT EXISTS accounts_keep_identity
+BEFORE UPDATE OF id, login, name, initials, admin, created, created_by ON accounts
+BEGIN SELECT RAISE(ABORT, 'an account keeps its identity; make a new one'); END;
+CREATE TRIGGER IF NOT EXISTS accounts_stay_disabled
+BEFORE UPDATE OF disabled ON accounts WHEN OLD.disabled IS NOT NULL
+BEGIN SELECT RAISE(ABORT, 'a disabled account stays disabled'); END;
+CREATE TABLE IF NOT EXISTS trusted_keys (
+    public_key TEXT PRIMARY KEY,
+    name       TEXT NOT NULL,
+    added      TEXT NOT NULL,
+    added_by   TEXT NOT NULL DEFAULT '',
+    removed    TEXT
+);
 """

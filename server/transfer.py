@@ -181,11 +181,19 @@ def check_export(data: dict) -> tuple[str, list[Revision], list[dict], dict]:
         if role not in ROLES or (number, role) in seen:
             raise ImportRefused(f"{where}: the role must be preparer, checker or approver, once per revision.")
         seen.add((number, role))
-        sigs.append({"number": number, "role": role, **{key: _text(s, key, where) for key in
-                                                         ("name", "comment", "signed", "fingerprint")}})
+        sigs.append({"number": number, "role": role,
+                     **{key: _text(s, key, where) for key in ("name", "comment", "signed", "fingerprint")},
+                     **{key: _text(s, key, where, required=False) for key in
+                        ("login", "initials", "identified", "version")}})
     origin = {"sheet_id": sheet.get("id") if isinstance(sheet.get("id"), int) else None,
               "exported": str(data.get("exported", ""))[:40], "program": str(data.get("program", ""))[:40],
               "checksum": data["checksum"]}
+    # The file's checksum shows only that it is whole: anyone can write one. Its signatures are kept
+    # word for word but marked as imported, so the record never shows them as made on this server.
+    source = (f"an export of sheet {origin['sheet_id'] or '?'} made {origin['exported'][:16].replace('T', ' ')} "
+              f"by Headsheet {origin['program']}")
+    for sig in sigs:
+        sig["origin"] = source
     return created, out, sigs, origin
 
 

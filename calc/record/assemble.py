@@ -40,9 +40,7 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
     }
     fprint = fp.fingerprint(analysis, version)
     by_role = {s.get("role"): s for s in meta.signatures}
-    signoff = [Signature(r, ROLE_TITLES[r], as_text(by_role.get(r, {}).get("name")),
-                         as_text(by_role.get(r, {}).get("comment")), as_text(by_role.get(r, {}).get("signed")))
-               for r in ROLES]
+    signoff = [signature(r, by_role.get(r), analysis, fprint, version) for r in ROLES]
     codes = {str(getattr(f, "code", "")) for f in analysis.findings}
     cautions = [text for covered, text in CAUTIONS if not codes.intersection(covered)]
     common = dict(header=header, purpose=as_text(hdr_doc.get("purpose")), disclaimer=DISCLAIMER,
@@ -75,3 +73,39 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
         references=b.refs.items,
         **common,
     )
+
+
+def signature(role: str, stored: dict | None, analysis, current: str, version: str) -> Signature:
+    """A role's line of the sign-off: who signed, how they were identified, and whether it still stands.
+
+    The fingerprint a signature carries is compared with the revision's fingerprint recomputed
+    now, under the program version the signature was made with: a signature that does not match
+    is broken, whatever else it says. One imported from another server is shown as imported
+    unless its export was signed by an installation this server trusts.
+    """
+    if not stored:
+        return Signature(role, ROLE_TITLES[role])
+    sig_version = as_text(stored.get("version")) or version
+    expected = current if sig_version == version else fp.fingerprint(analysis, sig_version)
+    origin = as_text(stored.get("origin"))
+    login = as_text(stored.get("login"))
+    when = as_text(stored.get("signed"))[:16].replace("T", " ")
+    if as_text(stored.get("fingerprint")) != expected:
+        status = "broken"
+        how = (f"Its fingerprint {as_text(stored.get('fingerprint'))[:16]}… is not this revision's "
+               f"({expected[:16]}…, recomputed by version {sig_version}).")
+    elif origin:
+        trusted = origin.startswith("trusted:")
+        status = "trusted" if trusted else "imported"
+        source = origin.split(":", 1)[1] if trusted else origin
+        how = (f"Made on {source} as account '{login}' and imported in an export signed by that installation, "
+               "whose key this server trusts." if trusted else
+               f"Imported from {source}; not made on this server, so the signer's identity was not confirmed here.")
+    elif as_text(stored.get("identified")):
+        status = "valid"
+        how = f"Account '{login}' on this server; {as_text(stored.get('identified'))}, {when} UTC."
+    else:
+        status = "typed"
+        how = "Name typed at signing, before this server had accounts: the signer's identity was not confirmed."
+    return Signature(role, ROLE_TITLES[role], as_text(stored.get("name")), as_text(stored.get("comment")),
+                     as_text(stored.get("signed")), login, as_text(stored.get("initials")), status, how)

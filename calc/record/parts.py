@@ -69,6 +69,16 @@ class Assumption:
     verify: bool = False  # to be confirmed by the designer before the record is relied on
 
 
+#: How a signature stands, as the record shows it. Only "valid" and "trusted" count as sign-off.
+SIGNATURE_STATUS = {
+    "valid": "valid",
+    "trusted": "valid (imported, trusted)",
+    "imported": "imported, not made on this server",
+    "typed": "name typed, identity not confirmed",
+    "broken": "broken: does not match this revision",
+}
+
+
 @dataclass
 class Signature:
     role: str
@@ -76,10 +86,23 @@ class Signature:
     name: str = ""
     comment: str = ""
     signed: str = ""  # ISO date and time, UTC
+    login: str = ""  # the signer's account, on the server where it was made
+    initials: str = ""
+    status: str = ""  # a key of SIGNATURE_STATUS
+    how: str = ""  # how the signer was identified, and where, in words
 
     @property
     def done(self) -> bool:
         return bool(self.name)
+
+    @property
+    def counts(self) -> bool:
+        """A signature that stands as sign-off: identity confirmed, here or by a trusted installation."""
+        return self.status in ("valid", "trusted")
+
+    @property
+    def status_text(self) -> str:
+        return SIGNATURE_STATUS.get(self.status, "")
 
 
 @dataclass
@@ -92,7 +115,8 @@ class Meta:
     created: str = ""
     printed: str = ""
     frozen: bool = False
-    signatures: list[dict] = field(default_factory=list)  # {role, name, comment, signed}
+    # {role, name, comment, signed, fingerprint, login, initials, identified, version, origin}
+    signatures: list[dict] = field(default_factory=list)
     verify_url: str = ""
 
 
@@ -130,8 +154,8 @@ class Record:
 
     @property
     def signed(self) -> bool:
-        """All three roles have signed: the draft stamp comes off."""
-        return all(s.done for s in self.signoff)
+        """All three roles have signed, each signature standing: the draft stamp comes off."""
+        return all(s.counts for s in self.signoff)
 
 
 def revision_label(index: int, scheme: str = "letters") -> str:

@@ -10,6 +10,7 @@ import urllib.request
 import pytest
 from browsertools import LiveServer, shot
 from playwright.sync_api import expect
+from servertools import PASSWORD, account_for
 
 
 def _console(page) -> list:
@@ -66,7 +67,12 @@ def test_a_reviewer_opens_a_read_only_link_prints_and_signs(browser, shared):
     try:
         owner.goto(f"{shared.url}/sheets/2")
         owner.locator("#links summary").click()
+        # The reviewer has an account on the server; the link is made for her, to sign as preparer.
+        account_for(shared.app, "Rita Reviewer", roles=("preparer", "checker"))
+        owner.reload()
+        owner.locator("#links summary").click()
         owner.locator("#link-note").fill("the checker")
+        owner.locator("#link-reviewer").select_option("rita-reviewer preparer")
         owner.get_by_role("button", name="Make a read-only link").click()
         link = owner.locator("code.link-url").first.inner_text()
         assert link.startswith(f"{shared.url}/view/")
@@ -79,9 +85,14 @@ def test_a_reviewer_opens_a_read_only_link_prints_and_signs(browser, shared):
         shot(reviewer, "21-read-only-link")
         reviewer.get_by_role("link", name="Record, print and sign").click()
         expect(reviewer.locator(".sign-form")).to_be_visible()
-        reviewer.locator("#sign-name").fill("Rita Reviewer")
+        expect(reviewer.locator("#sign-login")).to_have_value("rita-reviewer")
+        reviewer.locator("#sign-password").fill("not her password")
+        reviewer.get_by_role("button", name="Sign as preparer").click()
+        expect(reviewer.locator("#sign-message")).to_contain_text("do not match")
+        reviewer.locator("#sign-password").fill(PASSWORD)
         reviewer.get_by_role("button", name="Sign as preparer").click()
         expect(reviewer.locator("table.signatures")).to_contain_text("Rita Reviewer")
+        expect(reviewer.locator("table.signatures")).to_contain_text("password confirmed at signing")
         assert "/view/" in reviewer.url
         signatures = _api(shared, "/api/sheets/2/revisions/1/record", shared.key)["signatures"]
         assert [s["name"] for s in signatures] == ["Rita Reviewer"]

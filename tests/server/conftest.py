@@ -6,7 +6,7 @@ import os
 from pathlib import Path
 
 import pytest
-from servertools import FIGURES, BrowserClient, form_fields
+from servertools import FIGURES, BrowserClient, cheap_hashes, form_fields
 
 # The in-process test client sends Host: testserver; a user adds such a name with --host-name, and
 # the tests do the same through the environment the server reads (see test_hardening for refusals).
@@ -16,6 +16,11 @@ from server.app import create_app
 
 # Not test modules: kept out of --doctest-modules, which would import two files named conftest.
 collect_ignore = ["conftest.py", "servertools.py"]
+
+
+@pytest.fixture(autouse=True)
+def _cheap_hashes(monkeypatch):
+    cheap_hashes(monkeypatch)
 
 
 @pytest.fixture

@@ -148,3 +148,44 @@ class LiveServer:
     def __exit__(self, *exc):
         self.server.should_exit = True
         self.thread.join(timeout=10)
+
+
+# -- accounts for signing ---------------------------------------------------------------------------
+
+PASSWORD = "a long enough pass phrase"
+
+
+def login_for(name: str) -> str:
+    """A login made from a person's name (the tests give each distinct name its own account)."""
+    import hashlib
+    import re
+
+    slug = re.sub(r"[^a-z0-9]+", "-", " ".join(name.split()).casefold()).strip("-")[:30]
+    if len(slug) < 2:
+        slug = "u-" + hashlib.sha256(" ".join(name.split()).casefold().encode()).hexdigest()[:10]
+    return slug
+
+
+def account_for(app, name: str, roles=("preparer", "checker", "approver"), password: str = PASSWORD,
+                admin: bool = False, login: str = "") -> str:
+    """The login of an account for ``name`` on ``app``'s server, made if there is none yet."""
+    from server.accounts import Accounts, NewAccount
+
+    login = login or login_for(name)
+    accounts = Accounts(app.state.store)
+    if app.state.store.account(login) is None:
+        words = [w for w in name.split() if w[:1].isalpha()]
+        initials = "".join(w[0] for w in words)[:3] or "X"
+        accounts.create(NewAccount(login, " ".join(name.split())[:100] or "X", initials, tuple(roles), admin),
+                        password, "test")
+    return login
+
+
+def cheap_hashes(monkeypatch) -> None:
+    """Argon2 at its lowest cost: the tests hash hundreds of passwords, the rules are the same."""
+    from server import accounts
+
+    monkeypatch.setattr(accounts, "HASH_TIME_COST", 1)
+    monkeypatch.setattr(accounts, "HASH_MEMORY_KIB", 8)
+    monkeypatch.setattr(accounts, "HASH_PARALLELISM", 1)
+    accounts._DECOY.clear()

@@ -5,7 +5,7 @@ from __future__ import annotations
 import re
 
 import pytest
-from servertools import FIGURES, HX, fill, form_fields, route_table
+from servertools import FIGURES, HX, account_for, fill, form_fields, route_table
 
 from calc.model import sheet as calc_sheet
 from server.guard import CSP
@@ -43,7 +43,9 @@ def test_every_form_on_the_pages_carries_the_token(browser):
     browser.post("/sheets/1/links", data={"csrf_token": form_fields(browser.get("/").text)["csrf_token"]})
     fields = form_fields(browser.get("/sheets/1").text)
     browser.post("/sheets/1", data={**fields, "header.project": "a second revision"})
-    for url in ("/", "/sheets/1", "/sheets/1/history", "/sheets/1/revisions/1", "/sheets/1/revisions/1/record"):
+    account_for(browser.app, "Form Checker")  # the sign-off form is shown once someone can sign
+    for url in ("/", "/sheets/1", "/sheets/1/history", "/sheets/1/revisions/1", "/sheets/1/revisions/1/record",
+                "/accounts"):
         page = browser.get(url).text
         forms = re.findall(r"<form[^>]*method=\"post\"[^>]*>(.*?)</form>", page, re.S)
         assert forms, url

@@ -7,14 +7,15 @@ import re
 
 import pytest
 from pypdf import PdfReader
-from servertools import FIGURES, BrowserClient, fill, form_fields, route_table
+from servertools import FIGURES, PASSWORD, BrowserClient, account_for, fill, form_fields, route_table
 
 from server.app import create_app
 from server.guard import viewer_may
 
 
-def _make_link(owner, sheet_id: int = 1, note: str = "") -> str:
-    response = owner.post(f"/sheets/{sheet_id}/links", data={"note": note}, follow_redirects=False)
+def _make_link(owner, sheet_id: int = 1, note: str = "", reviewer: str = "") -> str:
+    response = owner.post(f"/sheets/{sheet_id}/links", data={"note": note, "reviewer": reviewer},
+                          follow_redirects=False)
     assert response.status_code == 303 and response.headers["location"].endswith("#links")
     page = owner.get(f"/sheets/{sheet_id}").text
     urls = re.findall(r'<code class="link-url">([^<]+)</code>', page)
@@ -117,15 +118,33 @@ def test_the_reviewer_can_print_and_sign(owner, reviewer):
     assert pdf.status_code == 200 and pdf.headers["content-type"] == "application/pdf"
     text = "".join(page.extract_text() for page in PdfReader(io.BytesIO(pdf.content)).pages)
     assert token not in text and "/view/" not in text
+    # A link made for nobody is for viewing: no form, and a signature posted anyway is refused.
+    assert 'class="sign-form"' not in record.text and "nobody signs through it" in record.text
+    account_for(owner.app, "Carl Checker")
+    refused = reviewer.post(f"{prefix}/api/sheets/1/revisions/1/signatures",
+                            json={"role": "preparer", "login": "carl-checker", "password": PASSWORD})
+    assert refused.status_code == 403 and "for viewing" in refused.json()["message"]
+    # A link made for Rita as preparer signs only as Rita, in that role, with Rita's own password.
+    account_for(owner.app, "Rita Reviewer")
+    token = _make_link(owner, reviewer="rita-reviewer preparer")
+    prefix = f"/view/{token}"
+    record = reviewer.get(f"{prefix}/sheets/1/revisions/1/record")
     fields = form_fields(record.text)
     action = re.search(r'<form class="sign-form" method="post" action="([^"]+)"', record.text).group(1)
     assert action == f"{prefix}/sheets/1/revisions/1/signatures"
-    signed = reviewer.post(action, data={**fields, "name": "Rita Reviewer", "comment": "looked at it"})
+    assert fields["login"] == "rita-reviewer"
+    wrong = reviewer.post(action, data={**fields, "password": "not her password"})
+    assert wrong.status_code == 401 and "do not match" in wrong.text
+    as_carl = reviewer.post(f"{prefix}/api/sheets/1/revisions/1/signatures",
+                            json={"role": "preparer", "login": "carl-checker", "password": PASSWORD})
+    assert as_carl.status_code == 403 and "signs only as that person" in as_carl.json()["message"]
+    signed = reviewer.post(action, data={**fields, "password": PASSWORD, "comment": "looked at it"})
     assert signed.status_code == 303 and signed.headers["location"].startswith(prefix)
     signatures = owner.get("/api/sheets/1/revisions/1/record").json()["signatures"]
-    assert [(s["role"], s["name"]) for s in signatures] == [("preparer", "Rita Reviewer")]
-    api = reviewer.post(f"{prefix}/api/sheets/1/revisions/1/signatures", json={"role": "checker", "name": "Carl"})
-    assert api.status_code == 201
+    assert [(s["role"], s["name"], s["status"]) for s in signatures] == [("preparer", "Rita Reviewer", "valid")]
+    checker = reviewer.post(f"{prefix}/api/sheets/1/revisions/1/signatures",
+                            json={"role": "checker", "login": "rita-reviewer", "password": PASSWORD})
+    assert checker.status_code == 403, "the link's role only"
 
 
 def test_revoking_stops_the_link_at_once(owner, reviewer):

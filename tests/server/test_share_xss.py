@@ -7,7 +7,7 @@ import json
 
 import pytest
 from pypdf import PdfReader
-from servertools import FIGURES, HX, form_fields
+from servertools import FIGURES, HX, PASSWORD, account_for, form_fields
 
 from calc.model import sheet as calc_sheet
 from server import pdf
@@ -97,7 +97,8 @@ def test_payloads_from_the_api_come_back_escaped_in_pages_records_and_messages(c
     assert created.status_code == 201, created.text
     sheet_id = created.json()["id"]
     signed = client.post(f"/api/sheets/{sheet_id}/revisions/1/signatures",
-                         json={"role": "preparer", "name": PAYLOADS[1][:90], "comment": PAYLOADS[0]})
+                         json={"role": "preparer", "login": account_for(client.app, PAYLOADS[1][:90]),
+                               "password": PASSWORD, "comment": PAYLOADS[0]})
     assert signed.status_code == 201
     for url, text in _pages(client, sheet_id).items():
         _clean(text, url)

@@ -7,7 +7,7 @@ import sqlite3
 import threading
 
 import pytest
-from servertools import form_fields
+from servertools import FIGURES, PASSWORD, account_for, form_fields
 
 from calc.model import sheet as calc_sheet
 from server import transfer
@@ -35,8 +35,10 @@ def worked(client) -> int:
     sheet_id = client.post("/api/sheets", json={"document": doc, "author": "Ann", "note": "first"}).json()["id"]
     doc["header"]["project"] = "Second"
     client.put(f"/api/sheets/{sheet_id}", json={"document": doc, "base_revision": 1, "author": "Bob"})
-    client.post(f"/api/sheets/{sheet_id}/revisions/2/signatures", json={"role": "preparer", "name": "Bob"})
-    client.post(f"/api/sheets/{sheet_id}/revisions/2/signatures", json={"role": "checker", "name": "Cy"})
+    for role, name in (("preparer", "Bob"), ("checker", "Cy")):
+        signed = client.post(f"/api/sheets/{sheet_id}/revisions/2/signatures",
+                             json={"role": role, "login": account_for(client.app, name), "password": PASSWORD})
+        assert signed.status_code == 201, signed.text
     doc["elements"][0]["length"] = "321 m"
     client.put(f"/api/sheets/{sheet_id}", json={"document": doc, "base_revision": 2, "author": "Ann"})
     return sheet_id
@@ -54,7 +56,13 @@ def test_export_and_import_keep_every_revision_and_signature(client, app, worked
     assert new_id != worked
     assert len(client.get("/api/sheets").json()["sheets"]) == sheets_before + 1
     assert _history(client, new_id) == _history(client, worked)
-    assert _signatures(client, new_id, 2) == _signatures(client, worked, 2)
+    words = lambda sigs: [{k: s[k] for k in ("role", "name", "initials", "login", "comment", "signed")}  # noqa: E731
+                          for s in sigs]
+    assert words(_signatures(client, new_id, 2)) == words(_signatures(client, worked, 2))
+    # Made here, a signature is valid; imported, the same words are shown as imported, not as made here.
+    assert [s["status"] for s in _signatures(client, worked, 2)] == ["valid", "valid"]
+    assert [s["status"] for s in _signatures(client, new_id, 2)] == ["imported", "imported"]
+    assert all("not made on this server" in s["identified"] for s in _signatures(client, new_id, 2))
     assert [s["role"] for s in _signatures(client, new_id, 2)] == ["preparer", "checker"]
     # The record of the imported revision has the same fingerprint as the original.
     fingerprint = lambda s: client.get(f"/api/sheets/{s}/revisions/2/record").json()["fingerprint"]  # noqa: E731
@@ -257,3 +265,19 @@ def test_a_huge_number_in_an_import_is_refused_with_a_message_not_a_server_error
     response = client.post("/sheets/import", files={"file": ("x.json", body, "application/json")},
                            data={"csrf_token": token})
     assert response.status_code == 422 and "too large to be finite" in response.text
+
+
+def test_forged_signatures_in_an_import_are_never_shown_as_valid(client, app, worked):
+    # The checksum is a plain digest anyone can recompute, so a file can say anything: a signature
+    # typed into it shows as imported, and one whose fingerprint is not its revision's as broken.
+    data = json.loads(client.get(f"/sheets/{worked}/export.json").content)
+    data["signatures"][0].update(name="Chief Engineer", identified="password confirmed at signing")
+    data["signatures"][1]["fingerprint"] = "ab" * 32
+    data["checksum"] = transfer.checksum(data)
+    forged = transfer.import_sheet(app.state.store, json.dumps(data))
+    sigs = _signatures(client, forged, 2)
+    assert [(s["name"], s["status"]) for s in sigs] == [("Chief Engineer", "imported"), ("Cy", "broken")]
+    page = client.get(f"/sheets/{forged}/revisions/2/record").text
+    assert "imported, not made on this server" in page and "broken: does not match this revision" in page
+    assert "Not every signature above stands as sign-off" in page
+    FIGURES["forged imported signatures flagged (imported or broken)"] += len(sigs)

@@ -395,13 +395,37 @@ def test_revision_labels_letters_and_numbers():
 
 
 def test_header_signoff_and_draft(hydro):
+    fprint = record.build(hydro).fingerprint
+    made_here = {"fingerprint": fprint, "login": "ap", "identified": "password confirmed at signing"}
     meta = record.Meta(sheet_id=4, store_revision=7, label_index=1, signatures=[
-        {"role": "preparer", "name": "A. Preparer", "comment": "", "signed": "2026-01-02T03:04:05"}])
+        {"role": "preparer", "name": "A. Preparer", "comment": "", "signed": "2026-01-02T03:04:05", **made_here}])
     rec = record.build(hydro, meta)
     assert rec.header["revision"] == "B" and rec.header["calc_number"] == "CB-HY-003"
     assert [s.done for s in rec.signoff] == [True, False, False] and not rec.signed
-    meta.signatures += [{"role": "checker", "name": "B", "signed": "x"}, {"role": "approver", "name": "C", "signed": "y"}]
+    assert rec.signoff[0].status == "valid" and "Account 'ap' on this server" in rec.signoff[0].how
+    meta.signatures += [{"role": "checker", "name": "B", "signed": "x", **made_here},
+                        {"role": "approver", "name": "C", "signed": "y", **made_here}]
     assert record.build(hydro, meta).signed
+
+
+@pytest.mark.parametrize("change,status", [
+    ({"fingerprint": "0" * 64}, "broken"),  # not this revision's: never valid, whatever else it says
+    ({"identified": ""}, "typed"),  # a name typed before accounts existed
+    ({"origin": "an export of sheet 3"}, "imported"),
+])
+def test_a_signature_that_does_not_stand_keeps_the_draft_stamp(hydro, change, status):
+    fprint = record.build(hydro).fingerprint
+    good = {"fingerprint": fprint, "login": "x", "identified": "password confirmed at signing", "signed": "t"}
+    sigs = [{"role": r, "name": r.title(), **good} for r in ("preparer", "checker", "approver")]
+    sigs[1].update(change)
+    rec = record.build(hydro, record.Meta(signatures=sigs))
+    assert [s.status for s in rec.signoff] == ["valid", status, "valid"] and not rec.signed
+    # A signature made under another program version is checked against that version's fingerprint.
+    from calc.record import fingerprint as fp
+
+    old = {**good, "version": "0.0.1", "fingerprint": fp.fingerprint(hydro, "0.0.1")}
+    rec = record.build(hydro, record.Meta(signatures=[{"role": "preparer", "name": "P", **old}]))
+    assert rec.signoff[0].status == "valid"
 
 
 def test_findings_are_grouped_worst_first(hydro):
