@@ -151,6 +151,14 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
     s.add_argument("--password-stdin", action="store_true", help="read the password from standard input")
     s.set_defaults(func=cmd_accounts)
 
+    s = sub.add_parser("trust", help="the installations whose signed exports count as sign-off here: show this "
+                                     "one's key, list, add or remove")
+    s.add_argument("--data", default=DEFAULT_DATA, help=data_help)
+    s.add_argument("action", choices=["show", "list", "add", "remove"])
+    s.add_argument("key", nargs="?", default="", metavar="KEY", help="an installation key, 64 hex digits")
+    s.add_argument("--name", default="", help="a name for the installation (add)")
+    s.set_defaults(func=cmd_trust)
+
 
 def _password(args, prompt: str) -> str:
     """A password from standard input (--password-stdin, for scripts) or typed without echo."""
@@ -193,6 +201,33 @@ def cmd_accounts(args) -> int:
             print(f"Account '{gone.login}' disabled: its signatures stay, it signs no more.")
     except AccountRefused as refused:
         sys.exit(f"headsheet: {refused}")
+    return 0
+
+
+def cmd_trust(args) -> int:
+    from server import transfer
+
+    store = _store(args.data, must_exist=args.action != "show")
+    if args.action == "show":
+        print(transfer.public_hex(transfer.installation_key(store.data_dir)))
+        print("(this installation's key: give it to a server that should trust this one's exports)",
+              file=sys.stderr)
+    elif args.action == "list":
+        for key, name in sorted(store.trusted_keys().items(), key=lambda kv: kv[1]):
+            print(f"{key}  {name}")
+    else:
+        key = (args.key or "").strip().lower()
+        if len(key) != 64 or any(c not in "0123456789abcdef" for c in key):
+            sys.exit("headsheet: an installation key is 64 hex digits (`headsheet trust show` on that server)")
+        if args.action == "add":
+            if not args.name.strip():
+                sys.exit("headsheet: give the installation a --name (e.g. the office it is in)")
+            store.trust_key(key, args.name.strip()[:60], "command line")
+            print(f"Exports signed by {key[:16]}… ({args.name.strip()}) are trusted from now on.")
+        elif not store.distrust_key(key):
+            sys.exit(f"headsheet: {key[:16]}… is not a trusted key")
+        else:
+            print(f"Exports signed by {key[:16]}… are no longer trusted (sheets imported before keep their mark).")
     return 0
 
 

@@ -13,6 +13,12 @@ The file is our own format (``headsheet-sheet-export``, version 1)::
 ``checksum`` is the SHA-256 of the rest of the object written as canonical JSON (keys sorted,
 no spaces, UTF-8), so a file altered by hand or cut short is refused. Each revision's
 ``digest`` is checked against its document too. Importing always makes a new sheet.
+
+A checksum shows only that a file is whole: anyone can recompute one. So each installation also
+signs its exports with its own Ed25519 key (``installation`` holds the public key, ``signature``
+the signature over the canonical object without ``checksum`` and ``signature``; RFC 8032). The
+signatures of an import count as sign-off only when the export is signed by a key the importing
+server trusts (``headsheet trust add``); otherwise they are shown as imported, not made here.
 """
 
 from __future__ import annotations
@@ -20,8 +26,15 @@ from __future__ import annotations
 import hashlib
 import json
 import math
+import os
+import socket
 from datetime import datetime, timezone
+from pathlib import Path
 from typing import Any
+
+from cryptography.exceptions import InvalidSignature
+from cryptography.hazmat.primitives import serialization
+from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey, Ed25519PublicKey
 
 from calc.model import sheet as calc_sheet
 from server.editing import json_problem
@@ -41,6 +54,43 @@ class ImportRefused(ValueError):
 
 def _canonical(obj: Any) -> bytes:
     return json.dumps(obj, ensure_ascii=False, sort_keys=True, separators=(",", ":"), allow_nan=False).encode("utf-8")
+
+
+KEY_FILE = "installation-key.pem"
+
+
+def installation_key(data_dir: Path) -> Ed25519PrivateKey:
+    """This installation's signing key, made once in the data folder (readable by its owner only)."""
+    path = Path(data_dir) / KEY_FILE
+    if not path.exists():
+        key = Ed25519PrivateKey.generate()
+        pem = key.private_bytes(serialization.Encoding.PEM, serialization.PrivateFormat.PKCS8,
+                                serialization.NoEncryption())
+        fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+        with os.fdopen(fd, "wb") as f:
+            f.write(pem)
+    return serialization.load_pem_private_key(path.read_bytes(), password=None)
+
+
+def public_hex(key: Ed25519PrivateKey) -> str:
+    return key.public_key().public_bytes(serialization.Encoding.Raw, serialization.PublicFormat.Raw).hex()
+
+
+def _signed_part(payload: dict) -> bytes:
+    return _canonical({k: v for k, v in payload.items() if k not in ("checksum", "signature")})
+
+
+def signed_by(payload: dict) -> str | None:
+    """The public key (hex) whose valid signature the export carries, or None."""
+    inst, sig = payload.get("installation"), payload.get("signature")
+    if not isinstance(inst, dict) or not isinstance(sig, str) or not sig.startswith("ed25519:"):
+        return None
+    try:
+        public = Ed25519PublicKey.from_public_bytes(bytes.fromhex(str(inst.get("public_key", ""))))
+        public.verify(bytes.fromhex(sig[len("ed25519:"):]), _signed_part(payload))
+    except (ValueError, InvalidSignature):
+        return None
+    return inst["public_key"]
 
 
 def checksum(payload: dict) -> str:
@@ -71,6 +121,9 @@ def export_sheet(store: Store, sheet_id: int) -> dict:
                       for r in rows["revisions"]],
         "signatures": rows["signatures"],
     }
+    key = installation_key(store.data_dir)
+    payload["installation"] = {"public_key": public_hex(key), "name": socket.gethostname()[:60]}
+    payload["signature"] = "ed25519:" + key.sign(_signed_part(payload)).hex()
     payload["checksum"] = checksum(payload)
     return payload
 
@@ -192,12 +245,25 @@ def check_export(data: dict) -> tuple[str, list[Revision], list[dict], dict]:
     # word for word but marked as imported, so the record never shows them as made on this server.
     source = (f"an export of sheet {origin['sheet_id'] or '?'} made {origin['exported'][:16].replace('T', ' ')} "
               f"by Headsheet {origin['program']}")
+    origin["signed_by"] = signed_by(data)
+    if origin["signed_by"]:
+        source += f", signed by installation key {origin['signed_by'][:16]}…"
     for sig in sigs:
         sig["origin"] = source
     return created, out, sigs, origin
 
 
+def trust_origins(store: Store, sigs: list[dict], origin: dict) -> None:
+    """Mark the signatures trusted when the export is signed by an installation this server trusts."""
+    key = origin.get("signed_by")
+    name = store.trusted_keys().get(key) if key else None
+    if name is not None:
+        for sig in sigs:
+            sig["origin"] = f"trusted:installation '{name}' (key {key[:16]}…)"
+
+
 def import_sheet(store: Store, raw: bytes | str) -> int:
     """Import an export file as a new sheet; returns the new sheet's id. Never overwrites anything."""
     created, revisions, signatures, origin = check_export(read_export(raw))
+    trust_origins(store, signatures, origin)
     return store.import_rows(created, revisions, signatures, origin)

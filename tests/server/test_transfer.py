@@ -7,7 +7,7 @@ import sqlite3
 import threading
 
 import pytest
-from servertools import FIGURES, PASSWORD, account_for, form_fields
+from servertools import FIGURES, PASSWORD, BrowserClient, account_for, form_fields
 
 from calc.model import sheet as calc_sheet
 from server import transfer
@@ -281,3 +281,37 @@ def test_forged_signatures_in_an_import_are_never_shown_as_valid(client, app, wo
     assert "imported, not made on this server" in page and "broken: does not match this revision" in page
     assert "Not every signature above stands as sign-off" in page
     FIGURES["forged imported signatures flagged (imported or broken)"] += len(sigs)
+
+
+def test_an_export_signed_by_a_trusted_installation_keeps_its_sign_off(tmp_path, capsys):
+    # Two servers: A signs a revision fully and exports it; B imports it before and after trusting A.
+    from server import cli
+    from server.app import create_app
+
+    a, b = create_app(tmp_path / "a"), create_app(tmp_path / "b")
+    with BrowserClient(a) as ca, BrowserClient(b) as cb:
+        sid = ca.post("/api/sheets", json={"document": calc_sheet.blank_sheet()}).json()["id"]
+        for role, name in (("preparer", "Pia"), ("checker", "Chen"), ("approver", "Abe")):
+            assert ca.post(f"/api/sheets/{sid}/revisions/1/signatures",
+                           json={"role": role, "login": account_for(a, name), "password": PASSWORD}).status_code == 201
+        raw = ca.get(f"/sheets/{sid}/export.json").content
+        data = json.loads(raw)
+        assert data["signature"].startswith("ed25519:") and transfer.signed_by(data) == data["installation"]["public_key"]
+        first = transfer.import_sheet(b.state.store, raw)
+        assert {s["status"] for s in _signatures(cb, first, 1)} == {"imported"}
+        assert "signed by installation key" in _signatures(cb, first, 1)[0]["identified"]
+        assert cli.main(["trust", "show", "--data", str(tmp_path / "a")]) == 0
+        key = capsys.readouterr().out.split()[0]
+        assert cli.main(["trust", "add", key, "--name", "Hill office", "--data", str(tmp_path / "b")]) == 0
+        trusted = transfer.import_sheet(b.state.store, raw)
+        sigs = _signatures(cb, trusted, 1)
+        assert {s["status"] for s in sigs} == {"trusted"} and "Hill office" in sigs[0]["identified"]
+        assert cb.get(f"/api/sheets/{trusted}/revisions/1/record").json()["signed"] is True
+        # Changed after signing (a name, then the checksum recomputed): the installation's signature
+        # no longer holds, so the file's signatures are shown as imported again.
+        data["signatures"][0]["name"] = "Someone Grander"
+        data["checksum"] = transfer.checksum(data)
+        forged = transfer.import_sheet(b.state.store, json.dumps(data))
+        assert {s["status"] for s in _signatures(cb, forged, 1)} == {"imported"}
+        assert cb.get(f"/api/sheets/{forged}/revisions/1/record").json()["signed"] is False
+    assert oct((tmp_path / "a" / transfer.KEY_FILE).stat().st_mode & 0o777) == "0o600"
