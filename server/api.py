@@ -2,19 +2,22 @@
 
 from __future__ import annotations
 
+import base64
+import hashlib
 import json
 from typing import Any
 
 from fastapi import Request
-from fastapi.responses import JSONResponse, Response
+from fastapi.responses import HTMLResponse, JSONResponse, Response
+from markupsafe import escape
 from pydantic import BaseModel, Field
-from starlette.concurrency import run_in_threadpool
 
 from calc.model import sheet as calc_sheet
 from calc.model.schema import SCHEMA
 from server.editing import json_problem
 from server.results import solve_parsed
 from server.store import Revision, SheetSummary, StaleRevision, Store
+from server.web import content_security_policy
 
 MAX_NOTE = 500
 
@@ -156,6 +159,8 @@ def _with_document(head: dict, document_json: str) -> Response:
 
 
 # -- endpoints ------------------------------------------------------------------------------------
+# Plain functions, which FastAPI runs in its threadpool: the store's reads and writes (and the
+# solver) never hold up the event loop, however long a write waits for the lock.
 
 def list_sheets(request: Request, archived: bool = False) -> dict:
     return {"sheets": [_summary(s) for s in _store(request).list_sheets(archived=archived)]}
@@ -200,16 +205,17 @@ def read_revision(request: Request, sheet_id: int, number: int) -> Response:
     return _with_document({"sheet_id": sheet_id, **_revision_summary(rev)}, rev.document_json)
 
 
-async def solve(request: Request, body: SolveIn) -> Response:
+def solve(request: Request, body: SolveIn) -> Response:
+    # A plain function, run in the threadpool: checking, parsing and solving all stay off the event loop.
     problem = json_problem(body.document)
     if problem:
         return _error(422, "Invalid sheet", f"The document {problem}.", [{"path": "", "message": problem}])
-    parsed = await run_in_threadpool(calc_sheet.parse, body.document)
+    parsed = calc_sheet.parse(body.document)
     if not parsed.ok:
         # The API's one error shape, plus the solve answer's own keys, so either reading works.
         return _error(422, "Invalid sheet", f"The sheet has {len(parsed.errors)} error(s); it was not solved.",
                       field_errors(parsed.errors), solution=None)
-    outcome = await run_in_threadpool(solve_parsed, parsed)
+    outcome = solve_parsed(parsed)
     if outcome.failure:
         return _error(422, "Not solved", outcome.failure)
     return JSONResponse({"ok": True, "errors": [], "solution": outcome.solution})
@@ -222,17 +228,82 @@ def schema() -> dict:
 #: The OpenAPI page's script and styles, served from static/ so the page works with no network.
 SWAGGER = "vendor/swagger-ui-5.35.0"
 
+# The page's one inline script: the same text on every page, so the page's policy names it by its
+# hash and needs neither 'unsafe-inline' nor 'unsafe-eval'. It reads the schema's address from the page.
+DOCS_SCRIPT = ('SwaggerUIBundle({url: document.getElementById("swagger-ui").dataset.openapi, '
+               'dom_id: "#swagger-ui", layout: "BaseLayout", deepLinking: true, validatorUrl: null, '
+               'presets: [SwaggerUIBundle.presets.apis]});')
+DOCS_CSP = content_security_policy(base64.b64encode(hashlib.sha256(DOCS_SCRIPT.encode()).digest()).decode())
+
+
+def _schema_name(schema: dict | None) -> str:
+    """The name of a request or response body's schema (``ReplaceIn``), or its type when it has none."""
+    if not isinstance(schema, dict):
+        return ""
+    ref = schema.get("$ref")
+    if isinstance(ref, str):
+        return ref.rsplit("/", 1)[-1]
+    return str(schema.get("type", ""))
+
+
+def operations(spec: dict) -> list[dict]:
+    """The operations of an OpenAPI document, in its order: method, path, summary, body and answers."""
+    out = []
+    for path, item in spec.get("paths", {}).items():
+        for method, op in item.items():
+            if method not in ("get", "put", "post", "patch", "delete") or not isinstance(op, dict):
+                continue
+            content = ((op.get("requestBody") or {}).get("content") or {}).get("application/json") or {}
+            answers = []
+            for code, answer in (op.get("responses") or {}).items():
+                body = ((answer.get("content") or {}).get("application/json") or {}).get("schema")
+                answers.append({"status": code, "description": answer.get("description", ""),
+                                "schema": _schema_name(body)})
+            out.append({"method": method.upper(), "path": path, "summary": op.get("summary", ""),
+                        "body": _schema_name(content.get("schema")), "responses": answers})
+    return out
+
 
 def docs_page(request: Request) -> Response:
-    """The API's OpenAPI page, drawn by the vendored Swagger UI."""
-    from fastapi.openapi.docs import get_swagger_ui_html
-
+    """The API's page: the vendored Swagger UI, and a plain list of the operations under it for a
+    browser with scripts off. Sent with every page's policy plus the hash of its one inline script."""
     static = request.app.url_path_for("static", path="")
-    return get_swagger_ui_html(openapi_url=str(request.app.url_path_for("openapi")),
-                               title="Headsheet API",
-                               swagger_js_url=f"{static}{SWAGGER}/swagger-ui-bundle.js",
-                               swagger_css_url=f"{static}{SWAGGER}/swagger-ui.css",
-                               swagger_favicon_url=f"{static}favicon.svg")
+    root = request.scope.get("root_path", "")
+    openapi = root + str(request.app.url_path_for("openapi"))
+    rows = []
+    for op in operations(request.app.openapi()):
+        answers = "; ".join(f"{a['status']} {a['description']}" + (f" ({a['schema']})" if a["schema"] else "")
+                            for a in op["responses"])
+        rows.append(f"<tr><td><code>{escape(op['method'])}</code></td><td><code>{escape(op['path'])}</code></td>"
+                    f"<td>{escape(op['summary'])}</td><td>{escape(op['body'])}</td><td>{escape(answers)}</td></tr>")
+    page = f"""<!doctype html>
+<html lang="en">
+<head>
+<meta charset="utf-8">
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<title>Headsheet API</title>
+<link rel="stylesheet" href="{escape(root + static + SWAGGER)}/swagger-ui.css">
+<link rel="icon" href="{escape(root + static)}favicon.svg">
+</head>
+<body>
+<noscript>
+<style>th, td {{ text-align: left; vertical-align: top; padding: 0.2em 0.6em; }}</style>
+<h1>Headsheet API</h1>
+<p>The OpenAPI document is at <code>{escape(openapi)}</code>. Its operations:</p>
+<table>
+<thead><tr><th>Method</th><th>Path</th><th>What it does</th><th>Request body</th><th>Answers</th></tr></thead>
+<tbody>
+{chr(10).join(rows)}
+</tbody>
+</table>
+</noscript>
+<div id="swagger-ui" data-openapi="{escape(openapi)}"></div>
+<script src="{escape(root + static + SWAGGER)}/swagger-ui-bundle.js"></script>
+<script>{DOCS_SCRIPT}</script>
+</body>
+</html>
+"""
+    return HTMLResponse(page, headers={"Content-Security-Policy": DOCS_CSP})
 
 
 _ERRORS = {404: {"model": ErrorOut, "description": "no such sheet or revision"},

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import logging
+import sqlite3
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -29,7 +30,7 @@ from server.form import message_id
 from server.guard import Guard
 from server.results import SolveCache, lowest_pressure, number, quantity
 from server.store import SheetNotFound, Store
-from server.web import CSRF_FIELD, allowed_host_names, error_response
+from server.web import CSRF_FIELD, allowed_host_names, busy_response, error_response, store_busy
 
 log = logging.getLogger("headsheet.server")
 
@@ -176,7 +177,23 @@ async def _not_found(request: Request, exc: SheetNotFound):
     return error_response(request.url.path, 404, "Not found", str(exc), request=request)
 
 
+def _route_path(request: Request) -> str:
+    """The path the routes saw (under a read-only link, the part after its prefix)."""
+    return (request.scope.get("headsheet") or {}).get("route_path", request.url.path)
+
+
+async def _database_error(request: Request, exc: sqlite3.OperationalError):
+    if store_busy(exc):
+        # Another connection held the write lock past the busy timeout: this request stored
+        # nothing, and the same request will go through once that write is done.
+        log.warning("store busy on %s: %s", request.url.path, exc)
+        return busy_response(_route_path(request), request=request)
+    return await _unexpected(request, exc)
+
+
 async def _unexpected(request: Request, exc: Exception):
+    if store_busy(exc):  # raised outside the routes (a middleware): the same answer as from a route
+        return await _database_error(request, exc)
     log.exception("unhandled error on %s", request.url.path)
     return error_response(request.url.path, 500, "Internal error",
                           "Something went wrong in the program; nothing was saved by this request.",
@@ -268,6 +285,7 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = Fa
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _validation_error)
     app.add_exception_handler(SheetNotFound, _not_found)
+    app.add_exception_handler(sqlite3.OperationalError, _database_error)
     app.add_exception_handler(Exception, _unexpected)
     app.add_middleware(BodyLimit, limit=MAX_BODY, limit_for=body_limit)
     # Added last, so it runs first: nothing is read or parsed for a request that may not be served.

@@ -21,13 +21,16 @@ def _store(data: str, must_exist: bool = True):
 
 def cmd_serve(args) -> int:
     from server.access import BadKey
-    from server.main import serve
+    from server.main import ServeRefused, serve
 
     try:
         serve(Path(args.data), host=args.host, port=args.port, share=args.share, key=args.key,
-              host_names=args.host_name, behind_proxy=args.behind_proxy)
+              host_names=args.host_name, behind_proxy=args.behind_proxy,
+              certfile=args.certfile, keyfile=args.keyfile)
     except BadKey as e:
         sys.exit(f"headsheet: --key: {e}")
+    except ServeRefused as e:
+        sys.exit(f"headsheet: {e}")
     return 0
 
 
@@ -115,6 +118,10 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
                         "only to this computer's own names, its addresses and these")
     s.add_argument("--behind-proxy", action="store_true",
                    help="a reverse proxy is in front: believe its forwarded-for headers for client addresses")
+    s.add_argument("--certfile", default=None, metavar="PATH",
+                   help="serve HTTPS with this PEM certificate (give --keyfile too); cookies are then Secure")
+    s.add_argument("--keyfile", default=None, metavar="PATH",
+                   help="the PEM private key of --certfile (without a passphrase)")
     s.set_defaults(func=cmd_serve)
 
     s = sub.add_parser("key", help="print the access key of a shared store, or change it")

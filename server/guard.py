@@ -15,21 +15,39 @@ records, PDFs, static files) without any route having to remember it.
   ``csrf_token``, or header ``X-CSRF-Token`` as htmx sends it), equal to the signed cookie the
   server set; the JSON API instead requires ``Content-Type: application/json``, which a
   cross-site form cannot send without the browser asking first (and the server never agrees).
+- **Page headers**: every HTML page gets the one content policy (no evaluated script), and over
+  HTTPS every cookie, whichever route set it, is marked ``Secure``.
 """
 
 from __future__ import annotations
 
 import hmac
 import re
+import sqlite3
 from typing import Awaitable, Callable
 from urllib.parse import quote, unquote_plus, urlsplit
 
+from starlette.concurrency import run_in_threadpool
 from starlette.datastructures import Headers, MutableHeaders
 from starlette.requests import Request, cookie_parser
 from starlette.responses import JSONResponse, RedirectResponse, Response
 
 from server.access import Sharing, normalise_key, same_key
-from server.web import ACCESS_DAYS, CSRF_FIELD, KEY_PATH, VIEW_PREFIX, cookie_name, error_response, host_name, is_api
+from server.web import (
+    ACCESS_DAYS,
+    BUSY_MESSAGE,
+    BUSY_RETRY_S,
+    BUSY_TITLE,
+    CSRF_FIELD,
+    KEY_PATH,
+    VIEW_PREFIX,
+    content_security_policy,
+    cookie_name,
+    error_response,
+    host_name,
+    is_api,
+    store_busy,
+)
 
 UNSAFE = {"POST", "PUT", "PATCH", "DELETE"}
 #: What a visitor without the key may load: the key page and what it needs to look right.
@@ -53,10 +71,24 @@ _FORM_TOKEN = re.compile(rb"(?:^|&)csrf_token=([^&]*)")
 #: GET routes that cost real work (a PDF render, a scan of every revision): never for other sites.
 EXPENSIVE_GET = re.compile(r"^/sheets/\d+/(revisions/\d+/)?record\.pdf$|^/verify(/.*)?$|^/api/verify(/.*)?$")
 
-# Scripts only from this server, never evaluated text (htmx runs with allowEval off), no
-# framing (a sign-off button must not be clickable through someone else's page), forms post home.
-CSP = ("default-src 'self'; script-src 'self'; style-src 'self' 'unsafe-inline'; "
-       "img-src 'self' data:; object-src 'none'; base-uri 'none'; form-action 'self'; frame-ancestors 'none'")
+#: Every HTML page's policy (see server.web.content_security_policy): scripts only from this server,
+#: never evaluated text. A page with an inline script of its own (the API page) sends the same
+#: policy with that script's hash added, and the gate keeps it.
+CSP = content_security_policy()
+
+
+def secure_cookies(raw: list[tuple[bytes, bytes]]) -> None:
+    """Mark every cookie in response headers ``raw`` Secure (in place), so a browser sends it over HTTPS only.
+
+    Only for a server answering over HTTPS: a browser drops a Secure cookie that comes over plain
+    HTTP, and the form token with it. Every cookie passes here, whichever route set it.
+    """
+    for i, (name, value) in enumerate(raw):
+        if name.lower() != b"set-cookie":
+            continue
+        attributes = {part.split(b"=", 1)[0].strip().lower() for part in value.split(b";")[1:]}
+        if b"secure" not in attributes:
+            raw[i] = (name, value + b"; Secure")
 
 
 def viewer_may(method: str, path: str, sheet_id: int) -> str:
@@ -173,7 +205,15 @@ class Guard:
 
         if path.startswith(VIEW_PREFIX) or path == VIEW_PREFIX.rstrip("/"):
             token, _, rest = path[len(VIEW_PREFIX):].partition("/")
-            sheet_id = self.state.store.view_link_sheet(token)
+            try:
+                # A store call waits for SQLite: in the threadpool, never on the event loop.
+                sheet_id = await run_in_threadpool(self.state.store.view_link_sheet, token)
+            except sqlite3.OperationalError as exc:
+                if not store_busy(exc):
+                    raise
+                await self._refuse(scope, receive, send, 503, BUSY_TITLE, BUSY_MESSAGE,
+                                   path="/" + rest, headers={"Retry-After": str(BUSY_RETRY_S)})
+                return
             if sheet_id is None:
                 await self._refuse(scope, receive, send, 404, "Link not working",
                                    "This read-only link does not work: it was revoked, or only part of it was "
@@ -321,7 +361,7 @@ class Guard:
         # A new form token goes out with pages (which show it in their forms), not with API answers.
         set_csrf = info["fresh"] and not is_api(info["route_path"])
         csrf_name = cookie_name("csrf", scope)
-        docs = scope["path"].startswith("/api/docs")
+        https = scope.get("scheme") == "https"
 
         async def wrapped(message):
             if message["type"] == "http.response.start":
@@ -333,10 +373,12 @@ class Guard:
                     # Sheets, records, PDFs, exports and API answers are not to be kept by browsers
                     # or proxies (a shared office computer, a read-only link's pages).
                     h["Cache-Control"] = "no-store"
-                if h.get("content-type", "").startswith("text/html") and not docs:
+                if h.get("content-type", "").startswith("text/html"):
                     h.setdefault("Content-Security-Policy", CSP)
                 if set_csrf:
                     h.append("Set-Cookie", f"{csrf_name}={info['csrf']}; Path=/; HttpOnly; SameSite=Strict")
+                if https:
+                    secure_cookies(h.raw)
             await send(message)
 
         return wrapped

@@ -1,4 +1,5 @@
-"""Starting the server: `headsheet serve` calls serve() here; local_addresses() lists where colleagues can reach it."""
+"""Starting the server: `headsheet serve` calls serve() here; local_addresses() lists where colleagues can reach it,
+check_certificate() the files it serves HTTPS with."""
 
 from __future__ import annotations
 
@@ -7,8 +8,11 @@ import logging
 import re
 import shutil
 import socket
+import ssl
 import subprocess
+from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 LOOPBACK = ("127.0.0.1", "localhost", "::1")
 
@@ -44,21 +48,68 @@ def local_addresses() -> list[str]:
     return out
 
 
-def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool = False,
-          key: str | None = None, host_names: list[str] | None = None, behind_proxy: bool = False) -> None:
-    """Open (or create) the store in ``data_dir``, seed the demo sheets on first start, and serve until stopped.
+class ServeRefused(Exception):
+    """A reason not to start, in words for the command line (a certificate that cannot be used)."""
 
-    ``share`` listens on every network interface and requires the access key; so does any
-    ``host`` other than this computer's own (loopback), since a server others can reach must
-    never be open to them. ``key`` replaces the stored access key first.
+
+def check_certificate(certfile: str | Path | None, keyfile: str | Path | None) -> tuple[str, str] | None:
+    """The certificate and key files to serve HTTPS with (absolute paths), or None for plain HTTP.
+
+    Refuses (ServeRefused) one without the other, a file that cannot be read, and a pair a TLS
+    server cannot use: not PEM, a key that is not the certificate's own, a key behind a passphrase.
     """
-    import uvicorn
+    if certfile is None and keyfile is None:
+        return None
+    if certfile is None or keyfile is None:
+        given, missing = ("--certfile", "--keyfile") if certfile is not None else ("--keyfile", "--certfile")
+        raise ServeRefused(f"{given} was given without {missing}: HTTPS needs both the certificate and its "
+                           "private key")
+    for what, path in (("certificate", certfile), ("private key", keyfile)):
+        try:
+            Path(path).read_bytes()
+        except OSError as exc:
+            raise ServeRefused(f"cannot read the {what} file {path}: {exc.strerror or exc}") from None
+    context = ssl.SSLContext(ssl.PROTOCOL_TLS_SERVER)
+    asked: list[bool] = []
 
+    def no_passphrase() -> bytes:  # never a prompt on the server's terminal
+        asked.append(True)
+        return b""
+
+    try:
+        context.load_cert_chain(str(certfile), str(keyfile), password=no_passphrase)
+    except (ssl.SSLError, OSError, ValueError) as exc:
+        if asked:
+            raise ServeRefused(f"the private key {keyfile} is protected by a passphrase; give the key without one "
+                               "(readable by this user only)") from None
+        reason = getattr(exc, "reason", None) or str(exc)
+        if reason == "KEY_VALUES_MISMATCH":
+            raise ServeRefused(f"the private key {keyfile} is not the key of the certificate {certfile}") from None
+        raise ServeRefused(f"{certfile} and {keyfile} are not a PEM certificate and its PEM private key "
+                           f"({reason})") from None
+    return str(Path(certfile).resolve()), str(Path(keyfile).resolve())
+
+
+@dataclass
+class Plan:
+    """What serve() starts: the app, where it listens, what it prints, and uvicorn's other options."""
+
+    app: Any
+    host: str
+    port: int
+    lines: list[str]
+    options: dict = field(default_factory=dict)
+
+
+def plan(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool = False,
+         key: str | None = None, host_names: list[str] | None = None, behind_proxy: bool = False,
+         certfile: str | Path | None = None, keyfile: str | Path | None = None) -> Plan:
+    """Everything serve() does before it listens (see serve): ServeRefused if the certificate cannot be used."""
     from server.access import KeyFile
     from server.app import create_app
 
+    tls = check_certificate(certfile, keyfile)  # first: a refusal changes nothing
     data_dir = Path(data_dir).resolve()
-    logging.basicConfig(level=logging.INFO, format="%(levelname)s %(name)s: %(message)s")
     if share and host in LOOPBACK:
         host = "0.0.0.0"
     guarded = share or host not in LOOPBACK
@@ -68,27 +119,53 @@ def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool
     addresses = local_addresses() if host in ("0.0.0.0", "::") else []
     names = list(host_names or []) + ([host] if host not in ("0.0.0.0", "::") else [])
     app = create_app(data_dir, share=guarded, addresses=addresses, host_names=names)
-    print(f"Headsheet: sheets stored in {data_dir / 'headsheet.sqlite'}", flush=True)
+    scheme = "https" if tls else "http"
+    shown_host = f"[{host}]" if ":" in host else host
+    lines = [f"sheets stored in {data_dir / 'headsheet.sqlite'}"]
     if not guarded:
-        shown_host = f"[{host}]" if ":" in host else host
-        print(f"Headsheet: open http://{shown_host}:{port}/ in a browser (Ctrl+C stops the server)", flush=True)
+        lines.append(f"open {scheme}://{shown_host}:{port}/ in a browser (Ctrl+C stops the server)")
     elif host in ("0.0.0.0", "::"):
-        print(f"Headsheet: shared on the network; open http://127.0.0.1:{port}/ on this computer, or on another:",
-              flush=True)
-        for a in addresses:
-            print(f"Headsheet:   http://{a}:{port}/", flush=True)
+        lines.append(f"shared on the network; open {scheme}://127.0.0.1:{port}/ on this computer, or on another:")
+        lines += [f"  {scheme}://{a}:{port}/" for a in addresses]
         if not addresses:
-            print("Headsheet:   (no network address found: other computers cannot reach this one yet)", flush=True)
+            lines.append("  (no network address found: other computers cannot reach this one yet)")
     else:
-        shown_host = f"[{host}]" if ":" in host else host
-        print(f"Headsheet: shared at http://{shown_host}:{port}/ (Ctrl+C stops the server)", flush=True)
+        lines.append(f"shared at {scheme}://{shown_host}:{port}/ (Ctrl+C stops the server)")
+    if tls:
+        lines.append(f"HTTPS with the certificate {tls[0]}")
     if guarded:
-        print(f"Headsheet: access key: {keys.read()}", flush=True)
-        print(f"Headsheet: (kept in {keys.path}; `headsheet key --new` makes a new one, which takes effect "
-              "at once and signs everyone out)", flush=True)
-        print("Headsheet: a sheet's read-only links (on its page) let a reviewer view, print and sign it "
-              "without the key.", flush=True)
+        lines.append(f"access key: {keys.read()}")
+        lines.append(f"(kept in {keys.path}; `headsheet key --new` makes a new one, which takes effect "
+                     "at once and signs everyone out)")
+        lines.append("a sheet's read-only links (on its page) let a reviewer view, print and sign it "
+                     "without the key.")
+        if not tls and not behind_proxy:
+            lines.append("the key and the sign-in cookies cross the network in clear: serve HTTPS with "
+                         "--certfile and --keyfile to protect them")
     # Client addresses come from the connection: a forwarded-for header is anybody's to write, so it
     # is believed only when the user says a proxy is in front (behind_proxy).
-    uvicorn.run(app, host=host, port=port, log_level="warning", proxy_headers=behind_proxy,
-                forwarded_allow_ips="*" if behind_proxy else None)
+    options: dict = {"log_level": "warning", "proxy_headers": behind_proxy,
+                     "forwarded_allow_ips": "*" if behind_proxy else None}
+    if tls:
+        options.update(ssl_certfile=tls[0], ssl_keyfile=tls[1])
+    return Plan(app, host, port, lines, options)
+
+
+def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool = False,
+          key: str | None = None, host_names: list[str] | None = None, behind_proxy: bool = False,
+          certfile: str | Path | None = None, keyfile: str | Path | None = None) -> None:
+    """Open (or create) the store in ``data_dir``, seed the demo sheets on first start, and serve until stopped.
+
+    ``share`` listens on every network interface and requires the access key; so does any
+    ``host`` other than this computer's own (loopback), since a server others can reach must
+    never be open to them. ``key`` replaces the stored access key first. With ``certfile`` and
+    ``keyfile`` (PEM, both or neither) it serves HTTPS, and its cookies are marked Secure;
+    ServeRefused says why a certificate cannot be used, before anything is started or changed.
+    """
+    import uvicorn
+
+    logging.basicConfig(level=logging.INFO, format="%(levelname)s %(name)s: %(message)s")
+    started = plan(data_dir, host, port, share, key, host_names, behind_proxy, certfile, keyfile)
+    for line in started.lines:
+        print(f"Headsheet: {line}", flush=True)
+    uvicorn.run(started.app, host=started.host, port=started.port, **started.options)

@@ -37,6 +37,9 @@ def when(iso: str | None) -> str:
         return iso
 
 
+# Routes that touch the store are plain functions (FastAPI runs them in its threadpool), or hand
+# their store work to run_in_threadpool: a write waiting for the lock must never hold up the event
+# loop, and with it every other request.
 def _store(request: Request) -> Store:
     return request.app.state.store
 
@@ -100,7 +103,7 @@ async def create_sheet(request: Request) -> Response:
     return _redirect(request, "sheet", sheet_id=rev.sheet_id)
 
 
-async def duplicate_sheet(request: Request, sheet_id: int) -> Response:
+def duplicate_sheet(request: Request, sheet_id: int) -> Response:
     store = _store(request)
     latest = store.latest(sheet_id)
     document = latest.document
@@ -113,12 +116,12 @@ async def duplicate_sheet(request: Request, sheet_id: int) -> Response:
     return _redirect(request, "sheet", sheet_id=rev.sheet_id)
 
 
-async def archive_sheet(request: Request, sheet_id: int) -> Response:
+def archive_sheet(request: Request, sheet_id: int) -> Response:
     _store(request).set_archived(sheet_id, True)
     return _redirect(request, "home")
 
 
-async def unarchive_sheet(request: Request, sheet_id: int) -> Response:
+def unarchive_sheet(request: Request, sheet_id: int) -> Response:
     _store(request).set_archived(sheet_id, False)
     return _redirect(request, "home")
 
@@ -253,7 +256,8 @@ def view_urls(request: Request, token: str) -> list[str]:
     addresses = getattr(request.app.state, "addresses", [])
     if addresses and (host in ("127.0.0.1", "localhost", "::1") or host.startswith("127.")):
         port = request.url.port
-        return [f"http://{a}{f':{port}' if port else ''}{path}" for a in addresses]
+        scheme = request.url.scheme  # https when the server has a certificate: the link must keep it
+        return [f"{scheme}://{a}{f':{port}' if port else ''}{path}" for a in addresses]
     return [str(request.base_url).rstrip("/") + path]
 
 
@@ -352,15 +356,25 @@ async def sheet_edit(request: Request, sheet_id: int) -> Response:
             response = _redirect(request, "sheet", sheet_id=sheet_id,
                                  fragment=("f-" + state.focus.replace(".", "-")) if state.focus else "")
         else:
-            context = await run_in_threadpool(sheet_context, request, state)
-            context["author"] = author
-            context.update(await run_in_threadpool(page_extras, request, sheet_id))
-            response = _render(request, "sheet.html", context, status=status, vary=True)
+            response = await run_in_threadpool(_edit_page, request, sheet_id, state, author, status)
     else:
-        context = await run_in_threadpool(sheet_context, request, state, shown_before)
-        response = _render(request, "fragments/edit_response.html", context, status=status, vary=True)
+        response = await run_in_threadpool(_edit_fragment, request, state, shown_before, status)
     remember_author(request, response, author)
     return response
+
+
+def _edit_page(request: Request, sheet_id: int, state: SheetState, author: str, status: int) -> Response:
+    """The whole sheet page after an edit that has something to say (for a browser without htmx)."""
+    context = sheet_context(request, state)
+    context["author"] = author
+    context.update(page_extras(request, sheet_id))
+    return _render(request, "sheet.html", context, status=status, vary=True)
+
+
+def _edit_fragment(request: Request, state: SheetState, shown_before: set[str], status: int) -> Response:
+    """The htmx answer to an edit: the parts of the page it changed."""
+    context = sheet_context(request, state, shown_before)
+    return _render(request, "fragments/edit_response.html", context, status=status, vary=True)
 
 
 # -- history --------------------------------------------------------------------------------------
@@ -388,12 +402,16 @@ def revision_page(request: Request, sheet_id: int, number: int) -> Response:
 
 async def restore_revision(request: Request, sheet_id: int, number: int) -> Response:
     form = await _form(request)
-    store = _store(request)
-    old = store.revision(sheet_id, number)
     try:
         base = int(form.get("base", ""))
     except ValueError:
         base = None
+    return await run_in_threadpool(_restore, request, sheet_id, number, base)
+
+
+def _restore(request: Request, sheet_id: int, number: int, base: int | None) -> Response:
+    store = _store(request)
+    old = store.revision(sheet_id, number)
     try:
         store.add_revision(sheet_id, old.document, base, author_of(request), f"restored revision {number}")
     except StaleRevision as conflict:

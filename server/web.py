@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import sqlite3
+
 from fastapi.responses import HTMLResponse, JSONResponse
 from fastapi.templating import Jinja2Templates
 from starlette.requests import Request
@@ -17,6 +19,23 @@ MAX_AUTHOR = 100
 LOOPBACK_NAMES = ("localhost", "127.0.0.1", "::1")
 #: More host names to answer to, comma-separated (as `headsheet serve --host-name`).
 HOST_NAMES_ENV = "HEADSHEET_HOST_NAMES"
+#: Seconds a client is asked to wait (Retry-After) when the store is busy with another write.
+BUSY_RETRY_S = 3
+BUSY_TITLE = "Store busy"
+BUSY_MESSAGE = "The store is busy with another write; nothing was lost — try again in a few seconds."
+
+
+def content_security_policy(*script_hashes: str) -> str:
+    """The one Content-Security-Policy of every HTML page; ``script_hashes`` (base64 SHA-256) let
+    the page's own inline scripts with exactly that text run, and nothing else inline.
+
+    Scripts come only from this server and no text is ever evaluated ('unsafe-eval' is never
+    given: htmx runs with allowEval off). No framing (a sign-off button must not be clickable
+    through someone else's page), and forms post only to this server.
+    """
+    scripts = " ".join(["'self'", *(f"'sha256-{h}'" for h in script_hashes)])
+    return (f"default-src 'self'; script-src {scripts}; style-src 'self' 'unsafe-inline'; "
+            "img-src 'self' data:; object-src 'none'; base-uri 'none'; form-action 'self'; frame-ancestors 'none'")
 
 
 def host_name(header: str) -> str:
@@ -63,6 +82,19 @@ def safe_next(text: str | None) -> str:
 def clean_author(text: str) -> str:
     """A name typed for the history: one line, no control characters, at most MAX_AUTHOR characters."""
     return " ".join("".join(c for c in text if c.isprintable()).split())[:MAX_AUTHOR]
+
+
+def store_busy(exc: BaseException) -> bool:
+    """Whether ``exc`` is SQLite giving up on a lock another connection holds (past its busy timeout)."""
+    text = str(exc).lower()
+    return isinstance(exc, sqlite3.OperationalError) and ("locked" in text or "busy" in text)
+
+
+def busy_response(path: str, scope: dict | None = None, request: Request | None = None):
+    """503 with Retry-After: the store was busy, nothing was stored, the same request will do later."""
+    response = error_response(path, 503, BUSY_TITLE, BUSY_MESSAGE, scope=scope, request=request)
+    response.headers["Retry-After"] = str(BUSY_RETRY_S)
+    return response
 
 
 def error_response(path: str, status: int, title: str, message: str, errors: list | None = None,
