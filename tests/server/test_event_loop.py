@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import asyncio
+import concurrent.futures
 import sqlite3
 import threading
 from contextlib import contextmanager
@@ -166,7 +167,10 @@ def test_a_request_held_in_a_blocking_call_holds_up_no_other_request(app, monkey
             release.set()
             return other, slow_still_held, await slow
 
-    other, slow_still_held, slow = asyncio.run(run())
+    # A fresh thread owns its own event loop: a browser test earlier in the run may leave one
+    # running on the main thread, where asyncio.run() refuses to start.
+    with concurrent.futures.ThreadPoolExecutor(1) as pool:
+        other, slow_still_held, slow = pool.submit(asyncio.run, run()).result()
     assert other.status_code == 200
     # The other request was answered while the first still waited: the wait was not on the event loop.
     assert slow_still_held
