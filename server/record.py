@@ -10,7 +10,7 @@ from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
-from fastapi import APIRouter, Request
+from fastapi import Request
 from fastapi.responses import JSONResponse, RedirectResponse, Response
 from pydantic import BaseModel, Field
 from starlette.concurrency import run_in_threadpool
@@ -18,7 +18,7 @@ from starlette.concurrency import run_in_threadpool
 from calc import record as calc_record
 from calc.analysis import Analysis, analyse
 from calc.record import fingerprint as fp
-from server import accounts, pdf
+from server import accounts, pdf, web
 from server.accounts import AccountRefused, Accounts
 from server.store import Revision, SheetNotFound, SignOffRefused, Store
 
@@ -194,14 +194,20 @@ def render_record_pdf(request: Request, sheet_id: int, number: int, paper: str,
     return pdf.render_pdf(html, STATIC, fetcher), context
 
 
+def _has_record(request: Request, sheet_id: int, number: int) -> bool:
+    return _analysis(_store(request).revision(sheet_id, number).document_json).ok
+
+
 async def record_pdf(request: Request, sheet_id: int, number: int, paper: str = "a4") -> Response:
     if paper not in pdf.PAPERS:
         return _error_page(request, 422, "Invalid input", "Paper must be a4 or letter.")
-    rev = _store(request).revision(sheet_id, number)
-    if not _analysis(rev.document_json).ok:
+    if not await run_in_threadpool(_has_record, request, sheet_id, number):
         return _error_page(request, 422, "No record",
                            "This revision has input errors, so it has no record. Fix the sheet first.")
-    body, context = await run_in_threadpool(render_record_pdf, request, sheet_id, number, paper)
+    try:
+        body, context = await run_in_threadpool(render_record_pdf, request, sheet_id, number, paper)
+    except pdf.PdfRefused as refused:
+        return _error_page(request, refused.status, "No PDF", str(refused))
     r = context["r"]
     name = safe_filename(f"{r.header['calc_number']}-rev-{r.header['revision']}", f"sheet-{sheet_id}-rev-{number}")
     return Response(body, media_type="application/pdf",
@@ -323,9 +329,12 @@ def _record_json(request: Request, rev: Revision) -> dict:
                            for s in rec.signoff if s.done]}
 
 
+def _record_of(request: Request, sheet_id: int, number: int) -> dict:
+    return _record_json(request, _store(request).revision(sheet_id, number))
+
+
 async def api_record(request: Request, sheet_id: int, number: int) -> Response:
-    rev = _store(request).revision(sheet_id, number)
-    return JSONResponse(await run_in_threadpool(_record_json, request, rev))
+    return JSONResponse(await run_in_threadpool(_record_of, request, sheet_id, number))
 
 
 async def api_sign(request: Request, sheet_id: int, number: int, body: SignIn) -> Response:
@@ -338,8 +347,7 @@ async def api_sign(request: Request, sheet_id: int, number: int, body: SignIn) -
         field = getattr(refused, "field", "")
         return _json_error(refused.status, title, str(refused),
                            [{"path": field, "message": str(refused)}] if field else [])
-    rev = _store(request).revision(sheet_id, number)
-    return JSONResponse(await run_in_threadpool(_record_json, request, rev), status_code=201)
+    return JSONResponse(await run_in_threadpool(_record_of, request, sheet_id, number), status_code=201)
 
 
 # -- verify ---------------------------------------------------------------------------------------
@@ -463,7 +471,4 @@ ROUTES: list[tuple[str, str, list[str], Any, bool]] = [
     ("/api/sheets/{sheet_id}/revisions/{number}/signatures", "api_sign", ["POST"], api_sign, True),
 ]
 
-router = APIRouter()
-for _path, _name, _methods, _endpoint, _in_schema in ROUTES:
-    router.add_api_route(_path, _endpoint, name=_name, methods=_methods, include_in_schema=_in_schema,
-                         **(_API_DOCS.get(_name, {}) if _in_schema else {}))
+router = web.router_of(ROUTES, _API_DOCS)

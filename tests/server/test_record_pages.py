@@ -453,8 +453,8 @@ def test_a_repeated_pdf_download_is_served_from_the_cache(client, sheet_id, monk
     # The printed time is on the page; hold it still so a minute boundary cannot split the two.
     monkeypatch.setattr(server_record, "_now", lambda: "2026-12-02T10:00+00:00")
     calls = []
-    real = pdf.HTML
-    monkeypatch.setattr(pdf, "HTML", lambda *a, **k: calls.append(1) or real(*a, **k))
+    real = pdf._render_in_worker
+    monkeypatch.setattr(pdf, "_render_in_worker", lambda *a, **k: calls.append(1) or real(*a, **k))
     first = client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf")
     second = client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf")
     assert first.status_code == second.status_code == 200
