@@ -9,11 +9,12 @@ from __future__ import annotations
 
 from typing import Any
 
-from fastapi import APIRouter, Request
+from fastapi import Request
 from fastapi.responses import JSONResponse, Response
 from pydantic import BaseModel, Field
 from starlette.concurrency import run_in_threadpool
 
+from server import web
 from server.accounts import ROLES, AccountRefused, NewAccount
 from server.record import accounts_of, client_of
 from server.store import Account
@@ -160,7 +161,4 @@ ROUTES: list[tuple[str, str, list[str], Any, bool]] = [
     ("/api/accounts", "api_add_account", ["POST"], api_add_account, True),
 ]
 
-router = APIRouter()
-for _path, _name, _methods, _endpoint, _in_schema in ROUTES:
-    router.add_api_route(_path, _endpoint, name=_name, methods=_methods, include_in_schema=_in_schema,
-                         **(_API_DOCS.get(_name, {}) if _in_schema else {}))
+router = web.router_of(ROUTES, _API_DOCS)

@@ -112,7 +112,7 @@ async def link_create(request: Request, sheet_id: int) -> Response:
 async def link_revoke(request: Request, sheet_id: int) -> Response:
     form = await _fields(request, "token")
     store = _store(request)
-    store.latest(sheet_id)  # 404 for a sheet that does not exist
+    await run_in_threadpool(store.latest, sheet_id)  # 404 for a sheet that does not exist
     if not await run_in_threadpool(store.revoke_view_link, sheet_id, form["token"]):
         return _error(request, 404, "Not found", "There is no working read-only link like that on this sheet.")
     return RedirectResponse(_url(request, "sheet", sheet_id=sheet_id) + "#links", status_code=303)

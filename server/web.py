@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import sqlite3
 
+from fastapi import APIRouter
 from fastapi.responses import HTMLResponse, JSONResponse
 from fastapi.templating import Jinja2Templates
 from starlette.requests import Request
@@ -114,3 +115,13 @@ def error_response(path: str, status: int, title: str, message: str, errors: lis
     return templates.TemplateResponse(request, "error.html", {"status": status, "title": title,
                                                               "message": message, "errors": errors or []},
                                       status_code=status)
+
+
+def router_of(routes, docs: dict) -> APIRouter:
+    """A router from a module's route table: (path, name, methods, endpoint, in the API schema); the
+    API routes take their responses and summaries from ``docs`` by route name."""
+    router = APIRouter()
+    for path, name, methods, endpoint, in_schema in routes:
+        router.add_api_route(path, endpoint, name=name, methods=methods, include_in_schema=in_schema,
+                             **(docs.get(name, {}) if in_schema else {}))
+    return router
