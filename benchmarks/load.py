@@ -110,10 +110,10 @@ def hostile(base: str, lane: int, sheet_id: int, doc: dict, stop_at: float, tall
     bomb["elements"][0]["length"] = BOMB
     junk = {**doc, **{f"junk{k}": k for k in range(5_000)}}
     not_an_export = b'{"format": "no", "pad": "' + b"x" * (MAX_IMPORT - 40) + b'"}'
-    pdf = f"/sheets/{sheet_id}/record.pdf"
+    pdf = f"/sheets/{sheet_id}/revisions/1/record.pdf"
     with httpx.Client(base_url=base, timeout=300) as client:
         page = client.get("/")
-        csrf = next((v for k, v in client.cookies.items() if k.startswith("hs_csrf_")), "")
+        csrf = form_fields(page.text).get("csrf_token", "")
         requests = {
             0: [("pdf", lambda: client.get(pdf, follow_redirects=True)),
                 ("record", lambda: client.get(f"/sheets/{sheet_id}/record", follow_redirects=True)),

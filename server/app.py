@@ -21,6 +21,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 from server import (
     account_pages,  # who may sign: accounts page and API
     api,
+    lanes,  # the work lane: costly requests answered by a second process
     pages,
     record,  # the calculation record: record, PDF, sign-off, verify, compare
     sharing,
@@ -242,13 +243,17 @@ def _templates() -> Jinja2Templates:
 
 
 def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = False,
-               addresses: list[str] | None = None, host_names: list[str] | None = None) -> FastAPI:
+               addresses: list[str] | None = None, host_names: list[str] | None = None,
+               work_lane: str | None = None, lane: bool = False) -> FastAPI:
     """The application over the store in ``data_dir``; demo sheets are seeded when the store is new.
 
     With ``share``, every request needs the access key kept in the data folder (made now if there
     is none); ``addresses`` are the network addresses the server is reachable at, for the links it shows.
     The server answers only to loopback names, those addresses and ``host_names`` (and the names in
     HEADSHEET_HOST_NAMES), so a web page whose name is made to resolve to this computer gets nothing.
+
+    ``work_lane`` is the socket of a work lane (server/lanes.py) this app passes its costly requests
+    to; ``lane`` makes this app that lane.
     """
     app = FastAPI(
         title="Headsheet",
@@ -287,7 +292,11 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = Fa
     app.add_exception_handler(SheetNotFound, _not_found)
     app.add_exception_handler(sqlite3.OperationalError, _database_error)
     app.add_exception_handler(Exception, _unexpected)
+    if work_lane:  # inside the body limit and the gate: only what the front would serve is passed on
+        app.add_middleware(lanes.WorkLane, socket_path=work_lane, store=app.state.store)
     app.add_middleware(BodyLimit, limit=MAX_BODY, limit_for=body_limit)
     # Added last, so it runs first: nothing is read or parsed for a request that may not be served.
     app.add_middleware(Guard, sharing=app.state.sharing, state=app.state, limit_for=body_limit)
+    if lane:
+        app.add_middleware(lanes.LaneMark)
     return app

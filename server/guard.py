@@ -189,8 +189,13 @@ class Guard:
         signer = self.sharing.signer
         csrf_cookie = cookies.get(cookie_name("csrf", scope))
         fresh = not signer.valid("csrf", csrf_cookie)
+        # In the work lane (server/lanes.py) a fresh browser's form token is the one the front made
+        # and sets: the page drawn here must carry the same token as the cookie the front sends.
+        told = scope.get("lane_csrf")
+        made_in_front = fresh and told is not None and signer.valid("csrf", told)
         info = {"share": self.sharing.share, "viewer": None, "view_prefix": "", "fresh": fresh,
-                "csrf": signer.token("csrf") if fresh else csrf_cookie, "route_path": path}
+                "csrf": told if made_in_front else signer.token("csrf") if fresh else csrf_cookie,
+                "route_path": path, "cookie_set_in_front": made_in_front}
         scope["headsheet"] = info
         route_path = path
 
@@ -359,7 +364,7 @@ class Guard:
     def _sender(self, send, scope: dict):
         info = scope["headsheet"]
         # A new form token goes out with pages (which show it in their forms), not with API answers.
-        set_csrf = info["fresh"] and not is_api(info["route_path"])
+        set_csrf = info["fresh"] and not is_api(info["route_path"]) and not info.get("cookie_set_in_front")
         csrf_name = cookie_name("csrf", scope)
         https = scope.get("scheme") == "https"
 

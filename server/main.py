@@ -5,14 +5,20 @@ from __future__ import annotations
 
 import ipaddress
 import logging
+import multiprocessing
+import os
 import re
 import shutil
 import socket
 import ssl
 import subprocess
+import tempfile
+import time
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
+
+from server import lanes
 
 LOOPBACK = ("127.0.0.1", "localhost", "::1")
 
@@ -99,12 +105,15 @@ class Plan:
     port: int
     lines: list[str]
     options: dict = field(default_factory=dict)
+    lane: Any = None  # Lane: the process for the costly requests, when there is one
 
 
 def plan(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool = False,
          key: str | None = None, host_names: list[str] | None = None, behind_proxy: bool = False,
-         certfile: str | Path | None = None, keyfile: str | Path | None = None) -> Plan:
-    """Everything serve() does before it listens (see serve): ServeRefused if the certificate cannot be used."""
+         certfile: str | Path | None = None, keyfile: str | Path | None = None, work_lane: bool = False) -> Plan:
+    """Everything serve() does before it listens (see serve): ServeRefused if the certificate cannot be used.
+
+    With ``work_lane`` the plan carries a work lane (server/lanes.py), not started yet."""
     from server.access import KeyFile
     from server.app import create_app
 
@@ -118,7 +127,9 @@ def plan(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool 
         keys.write(key)
     addresses = local_addresses() if host in ("0.0.0.0", "::") else []
     names = list(host_names or []) + ([host] if host not in ("0.0.0.0", "::") else [])
-    app = create_app(data_dir, share=guarded, addresses=addresses, host_names=names)
+    lane = Lane(data_dir, guarded, addresses, names) if work_lane else None
+    app = create_app(data_dir, share=guarded, addresses=addresses, host_names=names,
+                     work_lane=lane.socket_path if lane else None)
     scheme = "https" if tls else "http"
     shown_host = f"[{host}]" if ":" in host else host
     lines = [f"sheets stored in {data_dir / 'headsheet.sqlite'}"]
@@ -148,7 +159,7 @@ def plan(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool 
                      "forwarded_allow_ips": "*" if behind_proxy else None}
     if tls:
         options.update(ssl_certfile=tls[0], ssl_keyfile=tls[1])
-    return Plan(app, host, port, lines, options)
+    return Plan(app, host, port, lines, options, lane)
 
 
 def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool = False,
@@ -161,11 +172,75 @@ def serve(data_dir: Path, host: str = "127.0.0.1", port: int = 8000, share: bool
     never be open to them. ``key`` replaces the stored access key first. With ``certfile`` and
     ``keyfile`` (PEM, both or neither) it serves HTTPS, and its cookies are marked Secure;
     ServeRefused says why a certificate cannot be used, before anything is started or changed.
+    The costly requests are answered by a work lane, a second process over the same store
+    (server/lanes.py), so that no one request for a very large sheet holds up everyone else.
     """
     import uvicorn
 
     logging.basicConfig(level=logging.INFO, format="%(levelname)s %(name)s: %(message)s")
-    started = plan(data_dir, host, port, share, key, host_names, behind_proxy, certfile, keyfile)
+    for noisy in ("weasyprint", "httpx"):  # their progress lines say nothing to a user
+        logging.getLogger(noisy).setLevel(logging.WARNING)
+    started = plan(data_dir, host, port, share, key, host_names, behind_proxy, certfile, keyfile, work_lane=True)
     for line in started.lines:
         print(f"Headsheet: {line}", flush=True)
-    uvicorn.run(started.app, host=started.host, port=started.port, **started.options)
+    started.lane.start()
+    try:
+        uvicorn.run(started.app, host=started.host, port=started.port, **started.options)
+    finally:
+        started.lane.stop()
+
+
+# -- the work lane's process (server/lanes.py says what it answers) --------------------------------
+
+def _end_with(parent: int) -> None:
+    """Stop this process when the front is gone (even killed outright), so no lane is left behind."""
+    while os.getppid() == parent:
+        time.sleep(1.0)
+    os._exit(0)
+
+
+def _lane_main(socket_path: str, data_dir: str, share: bool, addresses: list[str], host_names: list[str],
+               parent: int) -> None:
+    """The lane process: the same application on the same store, on the Unix socket, niced."""
+    import threading
+
+    import uvicorn
+
+    from server.app import create_app
+
+    threading.Thread(target=_end_with, args=(parent,), daemon=True).start()
+    os.nice(lanes.LANE_NICE)
+    logging.basicConfig(level=logging.WARNING, format="%(levelname)s %(name)s (work lane): %(message)s")
+    app = create_app(Path(data_dir), share=share, addresses=addresses, host_names=host_names, lane=True)
+    uvicorn.run(app, uds=socket_path, log_level="warning")
+
+
+class Lane:
+    """The lane process as the front sees it: start, wait until it answers, stop."""
+
+    def __init__(self, data_dir: Path, share: bool, addresses: list[str], host_names: list[str]):
+        self.folder = tempfile.mkdtemp(prefix="headsheet-lane-")  # 0700: only this user reaches the socket
+        self.socket_path = os.path.join(self.folder, "lane.sock")
+        context = multiprocessing.get_context("spawn")  # a fresh interpreter, not a copy of this one
+        # Not a daemon: the lane starts PDF workers of its own, which a daemon may not. It ends with
+        # stop(), or by itself when the front is gone (_end_with).
+        self.process = context.Process(target=_lane_main, name="headsheet-work-lane",
+                                       args=(self.socket_path, str(data_dir), share, list(addresses),
+                                             list(host_names), os.getpid()))
+
+    def start(self) -> Lane:
+        self.process.start()
+        deadline = time.monotonic() + lanes.LANE_START_S
+        while not os.path.exists(self.socket_path):
+            if not self.process.is_alive() or time.monotonic() > deadline:
+                raise RuntimeError("the work lane did not start")
+            time.sleep(0.05)
+        return self
+
+    def stop(self) -> None:
+        if self.process.is_alive():
+            self.process.terminate()
+            self.process.join(10)
+            if self.process.is_alive():
+                self.process.kill()
+        shutil.rmtree(self.folder, ignore_errors=True)

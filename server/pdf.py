@@ -251,7 +251,11 @@ def _render_in_worker(html: str, fetcher: StaticFetcher) -> bytes:
 def _run_worker(html: str, fetcher: StaticFetcher) -> bytes:
     """Hand the page to a worker and answer it until it gives a PDF or a reason, or runs out of time."""
     max_pages, seconds, memory_mb = PDF_MAX_PAGES, PDF_SECONDS, PDF_MEMORY_MB
-    worker, ours = _take_worker()
+    try:
+        worker, ours = _take_worker()
+    except Exception as exc:  # no process could be started (limits of the system): say so, not a 500
+        log.exception("no PDF worker could be started")
+        raise refused_failed(f"no worker process could be started ({type(exc).__name__})") from None
     taken = time.monotonic()
     deadline, starting = taken + PDF_START_SECONDS, True
     LAST_WORKER.clear()
@@ -435,6 +439,7 @@ def _worker_main(conn) -> None:
     """Make one PDF: say ready, take the job, cap the memory, lay out, count pages, write, answer."""
     import resource
 
+    logging.getLogger("weasyprint").setLevel(logging.WARNING)  # its progress lines say nothing to a user
     conn.send(("ready", os.getpid()))
     try:
         _, html, max_pages, memory_mb, seconds, nice = conn.recv()

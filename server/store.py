@@ -243,6 +243,19 @@ class Store(AccountRows):
             raise SheetNotFound(sheet_id)
         return found[0]
 
+    def document_size(self, sheet_id: int, number: int | None = None) -> int:
+        """The stored document's size in bytes: revision ``number``, or the latest; 0 when there is none."""
+        if sheet_id < 1 or sheet_id > 2**62 or (number is not None and (number < 1 or number > 2**62)):
+            return 0
+        with self._connect() as con:
+            if number is None:
+                row = con.execute("SELECT length(CAST(document AS BLOB)) FROM revisions WHERE sheet_id = ? "
+                                  "ORDER BY number DESC LIMIT 1", (sheet_id,)).fetchone()
+            else:
+                row = con.execute("SELECT length(CAST(document AS BLOB)) FROM revisions WHERE sheet_id = ? AND number = ?",
+                                  (sheet_id, number)).fetchone()
+        return int(row[0] or 0) if row else 0
+
     def latest(self, sheet_id: int) -> Revision:
         _valid_id(sheet_id)
         with self._connect() as con:
