@@ -31,7 +31,14 @@ from server.form import message_id
 from server.guard import Guard
 from server.results import SolveCache, lowest_pressure, number, quantity
 from server.store import SheetNotFound, Store
-from server.web import CSRF_FIELD, allowed_host_names, busy_response, error_response, store_busy
+from server.web import (
+    CSRF_FIELD,
+    allowed_host_names,
+    busy_response,
+    error_response,
+    replay_body,
+    store_busy,
+)
 
 log = logging.getLogger("headsheet.server")
 
@@ -138,16 +145,7 @@ class BodyLimit:
             await response(scope, receive, send)
             return
         body = b"".join(chunks)
-        sent = False
-
-        async def replay():
-            nonlocal sent
-            if not sent:
-                sent = True
-                return {"type": "http.request", "body": body, "more_body": False}
-            return await receive()
-
-        await self.app(scope, replay, send)
+        await self.app(scope, replay_body(body, receive), send)
 
 
 _TITLES = {400: "Bad request", 401: "Access key needed", 403: "Refused", 404: "Not found",

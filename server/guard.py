@@ -46,6 +46,7 @@ from server.web import (
     error_response,
     host_name,
     is_api,
+    replay_body,
     store_busy,
 )
 
@@ -136,19 +137,6 @@ async def read_body(receive: Callable[[], Awaitable[dict]], limit: int) -> bytes
             return b"".join(chunks)
 
 
-def _replay(body: bytes, receive):
-    sent = False
-
-    async def replay():
-        nonlocal sent
-        if not sent:
-            sent = True
-            return {"type": "http.request", "body": body, "more_body": False}
-        return await receive()
-
-    return replay
-
-
 async def form_token(scope: dict, headers: Headers, body: bytes, receive) -> str | None:
     """The form token in a posted body (url-encoded or multipart), or None."""
     kind = headers.get("content-type", "").split(";")[0].strip().lower()
@@ -156,7 +144,7 @@ async def form_token(scope: dict, headers: Headers, body: bytes, receive) -> str
         m = _FORM_TOKEN.search(body)
         return unquote_plus(m.group(1).decode("latin-1")) if m else None
     if kind == "multipart/form-data":
-        request = Request(scope, _replay(body, receive))
+        request = Request(scope, replay_body(body, receive))
         try:
             form = await request.form(max_files=4, max_fields=100)
         except Exception:  # the multipart parser raises its own assorted errors on garbage
@@ -288,7 +276,7 @@ class Guard:
                                            f"A request may carry at most {limit // 1000} kB.", path=route_path)
                         return
                     token = await form_token(scope, headers, body, receive)
-                    receive = _replay(body, receive)
+                    receive = replay_body(body, receive)
                 if fresh or not token or not hmac.compare_digest(token.encode(), info["csrf"].encode()):
                     await self._refuse(scope, receive, send, 403, "Form refused",
                                        "This form was refused because it did not carry this server's form token "

@@ -32,6 +32,8 @@ import time
 import httpx
 from starlette.concurrency import run_in_threadpool
 
+from server.web import replay_body
+
 log = logging.getLogger("headsheet.lanes")
 
 #: A document (stored or posted) larger than this is solved and drawn in the work lane [bytes].
@@ -120,16 +122,7 @@ class WorkLane:
             heavy = False
         if heavy and await self._forward(scope, body, send):
             return
-        sent = False
-
-        async def replay():
-            nonlocal sent
-            if not sent:
-                sent = True
-                return {"type": "http.request", "body": body, "more_body": False}
-            return await receive()
-
-        await self.app(scope, replay, send)
+        await self.app(scope, replay_body(body, receive), send)
 
     async def _forward(self, scope: dict, body: bytes, send) -> bool:
         """Answer from the lane; False (nothing sent) when the lane cannot be reached."""

@@ -125,3 +125,17 @@ def router_of(routes, docs: dict) -> APIRouter:
         router.add_api_route(path, endpoint, name=name, methods=methods, include_in_schema=in_schema,
                              **(docs.get(name, {}) if in_schema else {}))
     return router
+
+
+def replay_body(body: bytes, receive):
+    """An ASGI ``receive`` that gives ``body`` (already read in full) first, then what ``receive`` gives."""
+    sent = False
+
+    async def replay():
+        nonlocal sent
+        if not sent:
+            sent = True
+            return {"type": "http.request", "body": body, "more_body": False}
+        return await receive()
+
+    return replay
