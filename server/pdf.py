@@ -440,7 +440,10 @@ def _worker_main(conn) -> None:
     import resource
 
     logging.getLogger("weasyprint").setLevel(logging.WARNING)  # its progress lines say nothing to a user
-    conn.send(("ready", os.getpid()))
+    try:
+        conn.send(("ready", os.getpid()))
+    except OSError:  # a spare whose server ended before it was ready: nothing to do
+        return
     try:
         _, html, max_pages, memory_mb, seconds, nice = conn.recv()
     except EOFError:  # a spare whose server has gone: nothing to do
