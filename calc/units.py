@@ -28,36 +28,38 @@ class InputError(ValueError):
 
 @dataclass(frozen=True)
 class Kind:
-    """A kind of quantity a field holds: its name in messages, SI unit, and a typed example."""
+    """A kind of quantity a field holds: its name in messages, SI unit, a typed example, and the units a
+    message suggests for a number typed without one."""
 
     name: str
     si: str
     example: str
     dimensionality: object = None
+    suggested: tuple[str, ...] = ()
 
 
-def _kind(name: str, si: str, example: str) -> Kind:
-    return Kind(name, si, example, Q_(1, si).dimensionality)
+def _kind(name: str, si: str, example: str, suggested: tuple[str, ...] = ()) -> Kind:
+    return Kind(name, si, example, Q_(1, si).dimensionality, suggested)
 
 
-LENGTH = _kind("a length", "m", "150 mm")
-FLOW = _kind("a flow rate", "m^3/s", "40 L/s")
-PRESSURE = _kind("a pressure", "Pa", "3 bar")
-POWER = _kind("a power", "W", "40 kW")
-DENSITY = _kind("a density", "kg/m^3", "998 kg/m^3")
-VISCOSITY = _kind("a dynamic viscosity", "Pa*s", "1.0 mPa*s")
-MODULUS = _kind("an elastic modulus", "Pa", "2.19 GPa")
-TEMPERATURE = _kind("a temperature", "K", "12 degC")
-SPEED = _kind("a velocity", "m/s", "2 m/s")
-TIME = _kind("a time", "s", "5 s")
+LENGTH = _kind("a length", "m", "150 mm", ("m", "mm", "ft"))
+FLOW = _kind("a flow rate", "m^3/s", "40 L/s", ("L/s", "m3/h", "gpm"))
+PRESSURE = _kind("a pressure", "Pa", "3 bar", ("kPa", "bar", "psi"))
+POWER = _kind("a power", "W", "40 kW", ("kW", "hp"))
+DENSITY = _kind("a density", "kg/m^3", "998 kg/m^3", ("kg/m3",))
+VISCOSITY = _kind("a dynamic viscosity", "Pa*s", "1.0 mPa*s", ("mPa*s",))
+MODULUS = _kind("an elastic modulus", "Pa", "2.19 GPa", ("GPa",))
+TEMPERATURE = _kind("a temperature", "K", "12 degC", ("degC", "degF"))
+SPEED = _kind("a velocity", "m/s", "2 m/s", ("m/s", "ft/s"))
+TIME = _kind("a time", "s", "5 s", ("s",))
 RATIO = _kind("a plain number or percentage", "", "0.85 or 85 %")
 
 _NUMBER = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*?)\s*$")
 #: A power written as a bare digit after a unit, as engineers type it: m3/s, m3/h, kg/m3, ft3/s, mm2.
 _BARE_POWER = re.compile(r"(?<=[A-Za-z])([23])(?![\d.])")
-#: A comma inside the number: thousands separator (1,200) or decimal comma (0,2).
-_COMMA_NUMBER = re.compile(r"^\s*[+-]?\d+(?:,\d+)+(?:\.\d*)?\s*[^\d,]")
-_THOUSANDS = re.compile(r"^\s*[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?(?=\s*[^\d,.])")
+#: A number holding a comma, and what follows it: a thousands separator (1,200) or a decimal comma (0,2).
+_COMMA_NUMBER = re.compile(r"^\s*([+-]?\d*,[\d,]*(?:\.\d*)?)\s*(.*?)\s*$")
+_THOUSANDS = re.compile(r"^[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?$")
 
 
 # What a unit may be before the unit library sees it: unit names (letters, µ, Ω, °, or %) joined by
@@ -89,14 +91,48 @@ def unit_text(unit: str) -> str:
     return _BARE_POWER.sub(r"^\1", unit)
 
 
-def _comma_message(text: str, kind: Kind) -> str:
-    """Why a number with a comma is refused: the decimal mark is a point; no thousands separator."""
-    m = re.match(r"^\s*([+-]?[\d,]+(?:\.\d*)?)", text)
-    typed = m.group(1) if m else text
-    as_point = typed.replace(",", ".") if typed.count(",") == 1 else None
-    hint = f" (write {as_point} for a decimal)" if as_point else ""
-    return (f"has a comma in its number '{typed}': the decimal mark is a point{hint}, and a comma is read only "
-            f"between groups of three digits (1,200); enter {kind.name}, e.g. {kind.example}")
+def _comma_message(number: str, unit: str, kind: Kind) -> str:
+    """Why a number with a comma is refused, and how to write it: the decimal mark is a point, and
+    numbers carry no thousands separator (1,200 could be read either way, so neither is guessed).
+
+    >>> _comma_message("1,200", "m", LENGTH)
+    "has a thousands separator in '1,200': write 1200 m (or 1.2 m if the comma is a decimal mark)"
+    >>> _comma_message("0,2", "m", LENGTH)
+    "has a decimal comma in '0,2': the decimal mark is a point, so write 0.2 m"
+    """
+    def written(n: str) -> str:
+        if unit:
+            return f"{n} {unit}"
+        if kind is RATIO or not kind.suggested:
+            return n
+        return f"{n} {kind.suggested[0]}"
+
+    if _THOUSANDS.match(number):
+        plain = number.replace(",", "")
+        as_decimal = number.count(",") == 1 and "." not in number
+        decimal = number.replace(",", ".").rstrip("0").rstrip(".") if as_decimal else ""
+        alternative = f" (or {written(decimal)} if the comma is a decimal mark)" if decimal else ""
+        return f"has a thousands separator in '{number}': write {written(plain)}{alternative}"
+    if number.count(",") == 1 and "." not in number:
+        point = number.replace(",", ".")
+        if point.startswith((".", "-.", "+.")):
+            point = point.replace(".", "0.", 1)
+        return f"has a decimal comma in '{number}': the decimal mark is a point, so write {written(point)}"
+    return (f"has commas in its number '{number}': write the number with a decimal point and no separators, "
+            f"e.g. {kind.example}")
+
+
+def _no_unit_message(number: str, kind: Kind) -> str:
+    """What to write when a physical quantity is typed as a bare number.
+
+    >>> _no_unit_message("300", LENGTH)
+    'needs a unit: write 300 m, 300 mm or 300 ft (a length)'
+    """
+    units = [f"{number} {u}" for u in kind.suggested]
+    if not units:
+        return f"needs a unit: {kind.name}, e.g. {kind.example}"
+    listed = units[0] if len(units) == 1 else ", ".join(units[:-1]) + " or " + units[-1]
+    return f"needs a unit: write {listed} ({kind.name})"
 
 
 def parse_quantity(text: object, kind: Kind, path: str) -> float:
@@ -111,8 +147,12 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
     285.15
     >>> parse_quantity("85 %", RATIO, "turbine.efficiency")
     0.85
-    >>> parse_quantity("360 m3/h", FLOW, "q"), parse_quantity("1,200 m", LENGTH, "L"), parse_quantity("0.01 degC", TEMPERATURE, "T")
-    (0.1, 1200.0, 273.16)
+    >>> parse_quantity("360 m3/h", FLOW, "q"), parse_quantity("0.01 degC", TEMPERATURE, "T")
+    (0.1, 273.16)
+    >>> parse_quantity("1,200 m", LENGTH, "L")
+    Traceback (most recent call last):
+    ...
+    calc.units.InputError: L: has a thousands separator in '1,200': write 1200 m (or 1.2 m if the comma is a decimal mark) (got '1,200 m')
     """
     if isinstance(text, bool):
         raise InputError(path, text, f"must be {kind.name}, e.g. {kind.example}")
@@ -122,18 +162,18 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
             if not math.isfinite(value):
                 raise InputError(path, text, "must be a finite number")
             return value
-        raise InputError(path, text, f"needs a unit: {kind.name}, e.g. {kind.example}")
+        raise InputError(path, text, _no_unit_message(f"{text:g}", kind))
     if not isinstance(text, str) or not text.strip():
         raise InputError(path, text, f"is empty: enter {kind.name}, e.g. {kind.example}")
     if len(text) > 64:
         raise InputError(path, text[:64] + "…", "is too long for a value with its unit")
     text_in = text
     text = text.replace("\u2212", "-")
-    # 1,200 m is read as one thousand two hundred; 0,2 m could mean either, so it is refused with why.
-    if _THOUSANDS.match(text):
-        text = _THOUSANDS.sub(lambda t: t.group(0).replace(",", ""), text, count=1)
-    elif _COMMA_NUMBER.match(text) or re.match(r"^\s*[+-]?\d+,\d", text):
-        raise InputError(path, text_in, _comma_message(text, kind))
+    # A comma in the number is refused with how to write it: 1,200 is one thousand two hundred to some
+    # and one point two to others, and a guess either way would put a wrong number on the sheet.
+    comma = _COMMA_NUMBER.match(text)
+    if comma and re.search(r"\d", comma.group(1)):
+        raise InputError(path, text_in, _comma_message(comma.group(1), comma.group(2), kind))
     m = _NUMBER.match(text)
     if not m:
         raise InputError(path, text, f"must start with a number: {kind.name}, e.g. {kind.example}")
@@ -144,7 +184,7 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
     if not unit:
         if kind is RATIO:
             return number
-        raise InputError(path, text, f"needs a unit: {kind.name}, e.g. {kind.example}")
+        raise InputError(path, text, _no_unit_message(m.group(1), kind))
     spelled = unit_text(unit)
     if not unit_allowed(spelled):
         raise InputError(path, text, f"'{unit}' is not a unit: write unit names with at most small powers, "

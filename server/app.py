@@ -23,6 +23,7 @@ from server import (
     api,
     lanes,  # the work lane: costly requests answered by a second process
     pages,
+    plot_routes,  # each plot as an SVG file
     record,  # the calculation record: record, PDF, sign-off, verify, compare
     sharing,
 )
@@ -283,6 +284,7 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = Fa
             kwargs["response_class"] = HTMLResponse
         app.add_api_route(path, endpoint, **kwargs)
     app.include_router(record.router)
+    app.include_router(plot_routes.router)
     app.include_router(account_pages.router)
     app.mount("/static", StaticFiles(directory=str(STATIC)), name="static")
     app.add_exception_handler(StarletteHTTPException, _http_error)

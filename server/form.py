@@ -8,6 +8,7 @@ from typing import Any
 
 from calc import friction, tables
 from server.editing import get_path, is_missing
+from server.results import quantity
 
 
 @dataclass(frozen=True)
@@ -163,6 +164,16 @@ def message_id(path: str) -> str:
 
 
 @dataclass(frozen=True)
+class Bore:
+    """The bore a size-table choice gives a pipe run, shown beside its size fields."""
+
+    id: str  # of the <output> that shows it, refreshed in place after an edit
+    for_ids: str  # the fields it is worked out from
+    text: str  # the inner diameter, e.g. '202.7 mm'; empty until the size is whole
+    note: str  # outside diameter and wall, or what is missing
+
+
+@dataclass(frozen=True)
 class Field:
     """A field ready to render: where it writes, what it shows and what is wrong with it."""
 
@@ -173,6 +184,7 @@ class Field:
     options: list[tuple[str, str]]
     suggestions: list[str]
     autofocus: bool
+    example: str = ""  # the example value as the placeholder shows it, in the sheet's units
 
     @property
     def id(self) -> str:
@@ -181,6 +193,31 @@ class Field:
     @property
     def message_id(self) -> str:
         return message_id(self.path)
+
+
+#: The unit a US-customary sheet shows an example in, for each SI unit the examples are written in;
+#: a bare number typed in the field takes the unit its placeholder shows (server/editing.py).
+_US_EXAMPLE_UNITS = {"m": "ft", "mm": "in", "L/s": "gpm", "kPa": "psi", "bar": "psi", "kW": "hp", "degC": "degF",
+                     "kg/m^3": "lb/ft^3"}
+
+
+@lru_cache(maxsize=None)
+def example_in(example: str, system: str) -> str:
+    """A field's example in the sheet's unit system, to two significant figures.
+
+    >>> example_in("420 m", "US"), example_in("300 mm", "US"), example_in("20 L/s", "US"), example_in("420 m", "SI")
+    ('1400 ft', '12 in', '320 gpm', '420 m')
+    """
+    from calc.units import Q_, unit_text
+
+    number, _, unit = example.partition(" ")
+    if system != "US" or unit not in _US_EXAMPLE_UNITS:
+        return example
+    try:
+        value = Q_(float(number), unit_text(unit)).to(unit_text(_US_EXAMPLE_UNITS[unit])).magnitude
+    except ValueError:
+        return example
+    return f"{float(f'{value:.2g}'):g} {_US_EXAMPLE_UNITS[unit]}"
 
 
 def _shown(value: Any) -> str:
@@ -233,7 +270,9 @@ class FormView:
             if standard in tables.size_standards():
                 nominals, classes = tables.size_options(standard)
                 suggestions = nominals if spec.datalist == "nominal" else classes
-        return Field(path, spec, value, self.error_for(path), options, suggestions, path == self.focus)
+        system = "US" if self.get("header.units", "SI") == "US" else "SI"
+        return Field(path, spec, value, self.error_for(path), options, suggestions, path == self.focus,
+                     example_in(spec.example, system) if spec.kind == "qty" else spec.example)
 
     def error_for(self, path: str) -> str | None:
         return self.errors.get(path)
@@ -276,6 +315,35 @@ class FormView:
         if kind == "valve":
             return self.fields(prefix, VALVE)
         return [self.field(prefix, Spec("kind", "Kind", "text")), self.field(prefix, Spec("label", "Label", "text"))]
+
+    def bore(self, index: int) -> Bore | None:
+        """The bore the size table gives element ``index`` (a pipe run with a size table chosen), else None."""
+        prefix = f"elements.{index}"
+        if self.get(f"{prefix}.kind") != "pipe":
+            return None
+        standard = self.get(f"{prefix}.size.standard", "")
+        if not isinstance(standard, str) or standard not in tables.size_standards():
+            return None
+        units = self.get("header.units", "SI")
+        base = f"{prefix}.size".replace(".", "-")
+        ids = f"f-{base}-nominal f-{base}-class"
+        nominal, klass = self.get(f"{prefix}.size.nominal", ""), self.get(f"{prefix}.size.class", "")
+        if not str(nominal).strip() or not str(klass).strip():
+            return Bore(f"bore-elements-{index}", ids, "", "give the nominal size and class")
+        try:
+            size = tables.pipe_size(standard, str(nominal), str(klass))
+        except LookupError:
+            return Bore(f"bore-elements-{index}", ids, "", "not in the table: see the message below")
+        wall = "mean wall" if size.wall_min is not None else "wall"
+        note = f"outside {quantity(size.OD, 'diameter', units)}, {wall} {quantity(size.wall, 'diameter', units, 3)}"
+        typed = self.get(f"{prefix}.diameter", "")
+        if isinstance(typed, str) and typed.strip():
+            note = "not used: the inner diameter typed takes its place"
+        return Bore(f"bore-elements-{index}", ids, quantity(size.ID, "diameter", units), note)
+
+    def bores(self) -> list[Bore]:
+        """Every bore shown on the form, for refreshing them in place after an edit."""
+        return [b for b in (self.bore(i) for i, _, _ in self.elements()) if b is not None]
 
     def point_specs(self, index: int) -> list[Spec] | None:
         """Columns of the curve table of element ``index``, or None when it shows no curve."""

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import copy
 import json
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
 from urllib.parse import quote, unquote
@@ -17,12 +17,16 @@ from calc import record as calc_record
 from calc.model import sheet as calc_sheet
 from server import editing
 from server.form import FormView, anchor, describe, slot_paths
+from server.plot_routes import page_plots
+from server.results import percent, sentence
 from server.store import Revision, StaleRevision, Store, dump_document
 from server.web import clean_author, cookie_name
 
 #: Most form fields a post may carry: a sheet at every list limit has about 30 000.
 MAX_FIELDS = 40_000
 MAX_NOTE_PATHS = 6
+#: Entries not yet applied that the form names one by one before "and N more".
+MAX_PENDING_SHOWN = 8
 #: Changes listed in a conflict message before "and N more".
 MAX_LISTED = 30
 
@@ -192,6 +196,8 @@ class SheetState:
     conflict: Conflict | None = None
     saved: bool = False  # this request added a revision
     relayout: bool = False  # the form's fields changed shape: send the whole form back
+    pending: list = field(default_factory=list)  # paths on screen not stored yet (typed, invalid or unapplied)
+    note: str | None = None  # what an action did, when it needs saying (a paste, a restored draft)
 
 
 def sheet_context(request: Request, state: SheetState, shown_before: set[str] | None = None) -> dict:
@@ -207,6 +213,9 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
     error_list = [{"path": e.path, "where": describe(state.display, e.path), "message": e.message,
                    "anchor": anchor(field_paths, group_paths, e.path)} for e in state.errors]
     error_paths = {e.path for e in state.errors if e.path in slots}
+    pending = [{"path": p, "where": describe(state.display if not editing.is_missing(editing.get_path(state.display, p))
+                                             else state.keep, p),
+                "anchor": anchor(field_paths, group_paths, p)} for p in state.pending[:MAX_PENDING_SHOWN]]
     return {
         "sheet": summary,
         "author": author_of(request),
@@ -222,8 +231,15 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
         "outcome": outcome,
         "units": units,
         "error_list": error_list,
+        "pending": pending,
+        "pending_total": len(state.pending),
         "findings": outcome.findings,
         "issue": issue_labels(store, state.latest, header),
+        # The plots beside the results (server/plot_routes.py), drawn from the same cached analysis.
+        "plots": page_plots(outcome, units),
+        # The results panel's wording helpers (server.results): one sentence from parts, a share as a percentage.
+        "sentence": sentence,
+        "percent": percent,
     }
 
 
@@ -284,8 +300,9 @@ async def _form(request: Request) -> dict[str, str]:
     out: dict[str, str] = {}
     for key, value in data.multi_items():
         if isinstance(value, str) and len(key) <= 200:
-            # The document copy may be long (the body limit bounds it); a typed value may not.
-            out[key] = value if key == "doc" else value[: editing.MAX_FIELD_LENGTH]
+            # The document copy and a pasted table may be long (the body limit bounds them, and the
+            # paste reader refuses a long one with a message); a typed value may not.
+            out[key] = value if key in ("doc", "paste") else value[: editing.MAX_FIELD_LENGTH]
     return out
 
 
@@ -294,7 +311,12 @@ def _note(edit: editing.Edit, action: str | None, stored: dict) -> str:
     words = []
     if action:
         verb, _, target = action.partition(":")
-        if verb == "add" and target.startswith("elements:"):
+        if verb in ("paste", "import"):
+            where = describe(stored, ".".join(target.split(".")[:3]))
+            words.append(("imported a file into " if verb == "import" else "pasted rows into ") + where)
+        elif verb == "restore":
+            words.append("entries restored from this browser after a reload")
+        elif verb == "add" and target.startswith("elements:"):
             words.append("added a " + editing.ELEMENT_NAMES.get(target.split(":", 1)[1], "element"))
         elif verb == "add":
             words.append("added an item to " + describe(stored, target))
@@ -319,6 +341,15 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
     action = form.get("action") or None
     fields = {k: v for k, v in form.items() if editing.split_path(k) is not None}
     drawn_from = editing.form_document(form.get("doc"), stored)
+    restored_note = None
+    if action == "restore" and base is not None and 0 < base < latest.number:
+        # What this browser kept of a page reloaded after the sheet moved on: its entries go onto the
+        # latest revision when they touch nothing changed since, else the conflict says what differs.
+        moved_on = _restore_onto(store.revision(sheet_id, base).document, stored, drawn_from, fields)
+        if moved_on is not None:
+            fields, drawn_from, base = moved_on, copy.deepcopy(stored), latest.number
+            restored_note = (f"Restored what was typed in this browser before the page was reloaded, onto "
+                             f"revision {latest.number} (saved since)." if moved_on else "")
     if base != latest.number:
         # Someone else (another tab, a script) saved first: show what was typed, store nothing.
         base_doc = stored
@@ -332,7 +363,8 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
         conflict = conflict_view(store, refused, base_doc if known else None, typed)
         return SheetState(latest, typed, calc_sheet.parse(typed).errors, base_doc, stale=True,
                           conflict=conflict, message=conflict.message)
-    edit = editing.edit(stored, drawn_from, fields, action)
+    edit = editing.edit(stored, drawn_from, fields, action, paste_text=form.get("paste", ""),
+                        units=placeholder_units)
     saved = False
     if edit.keep != stored:
         try:
@@ -341,8 +373,49 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
             conflict = conflict_view(store, refused, stored, edit.display)
             return SheetState(refused.current, edit.display, edit.errors, stored, stale=True,
                               conflict=conflict, message=conflict.message)
+    note = edit.note
+    pending = edit.pending
+    if action == "restore":
+        if restored_note is not None:
+            note = restored_note or None
+        elif pending:
+            note = "Restored what was typed in this browser before the page was reloaded; it is not saved yet."
+        elif saved:
+            note = "Restored and saved what was typed in this browser before the page was reloaded."
     return SheetState(latest, edit.display, edit.errors, edit.keep, edit.keep_parsed, stale=edit.stale,
-                      focus=edit.focus, message=edit.message, saved=saved, relayout=edit.switched)
+                      focus=edit.focus, message=edit.message, saved=saved, relayout=edit.switched,
+                      pending=pending, note=note)
+
+
+def placeholder_units(doc: dict) -> dict[str, str]:
+    """The unit each quantity field of ``doc``'s form shows in its placeholder ('e.g. 420 m' -> 'm')."""
+    out = {}
+    for f in FormView(doc).all_fields():
+        if f.spec.kind == "qty":
+            unit = editing.example_unit(f.example)
+            if unit:
+                out[f.path] = unit
+    return out
+
+
+def _restore_onto(base_doc: dict, current: dict, drawn_from: dict, fields: dict[str, str]) -> dict[str, str] | None:
+    """The fields to post onto ``current`` for what a browser typed over ``base_doc``, or None when they
+    cannot go on as they are (the lists differ, or a field typed was changed there too)."""
+    typed = copy.deepcopy(drawn_from)
+    for path, text in fields.items():
+        editing.set_field(typed, path, text)
+    if not editing.shape(typed) == editing.shape(base_doc) == editing.shape(current):
+        return None
+    # What the browser typed that the sheet does not hold already (its own saves count as held).
+    mine = [d for d in editing.differences(base_doc, typed) if editing.get_path(current, d[0]) != d[2]]
+    theirs = [p for p, _, _ in editing.differences(base_doc, current)]
+    if not mine:
+        return {}
+    if any(editing.related(p, q) for p, _, _ in mine for q in theirs):
+        return None
+    if not all(isinstance(v, (str, int)) and not isinstance(v, bool) for _, _, v in mine):
+        return None
+    return {p: str(v) for p, _, v in mine}
 
 
 async def sheet_edit(request: Request, sheet_id: int) -> Response:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import base64
 import json
 import logging
 import re
@@ -172,8 +173,17 @@ def latest_record(request: Request, sheet_id: int) -> Response:
 
 
 async def record_page(request: Request, sheet_id: int, number: int) -> Response:
-    context = await run_in_threadpool(record_context, request, sheet_id, number)
-    return _render(request, "record.html", context)
+    refusal = refusal_of(request, sheet_id, number)  # a signature just refused: shown once, beside its field
+    if refusal is None:
+        context = await run_in_threadpool(record_context, request, sheet_id, number)
+    else:
+        context = await run_in_threadpool(record_context, request, sheet_id, number, message=refusal["message"],
+                                          message_kind="error", form=refusal["form"])
+    response = _render(request, "record.html", context)
+    if refusal_cookie(request) in request.cookies:
+        response.delete_cookie(refusal_cookie(request), path=_url(request, "record", sheet_id=sheet_id, number=number),
+                               httponly=True, samesite="strict")
+    return response
 
 
 def safe_filename(text: str, fallback: str) -> str:
@@ -303,12 +313,65 @@ async def sign_form(request: Request, sheet_id: int, number: int) -> Response:
         await run_in_threadpool(sign, request, sheet_id, number, form["role"], form["login"][:200],
                                 form["password"][:1000], form["comment"][:5000], form["fingerprint"])
     except SignOffRefused as refused:
-        form["password"] = ""  # never sent back
-        form["field"] = getattr(refused, "field", "")
-        context = await run_in_threadpool(record_context, request, sheet_id, number, message=str(refused),
-                                          message_kind="error", form=form)
-        return _render(request, "record.html", context, refused.status)
+        # Back to the record page's own address (never the POST's, which a reload would post again), the
+        # refusal and what was typed carried for one showing (refusal_of); the password is never sent back.
+        response = RedirectResponse(_url(request, "record", sheet_id=sheet_id, number=number) + "#sign-off",
+                                    status_code=303)
+        typed = {"role": form["role"][:20], "login": form["login"][:200], "comment": form["comment"][:MAX_COMMENT],
+                 "field": getattr(refused, "field", "")}
+        remember_refusal(request, response, sheet_id, number, str(refused), typed)
+        return response
     return RedirectResponse(_url(request, "record", sheet_id=sheet_id, number=number) + "#sign-off", status_code=303)
+
+
+#: How long a refused signature's message waits for the page it is shown on [s]: the redirect's own GET.
+REFUSAL_MAX_AGE = 120
+#: Longest cookie value a browser is sure to keep [bytes] (RFC 6265 asks at least 4096 for name and value).
+REFUSAL_MAX_BYTES = 3800
+
+
+def refusal_cookie(request: Request) -> str:
+    return web.cookie_name("signrefused", request.scope)
+
+
+def _refusal_signer(request: Request):
+    return request.app.state.sharing.signer
+
+
+def remember_refusal(request: Request, response: Response, sheet_id: int, number: int, message: str,
+                     typed: dict) -> None:
+    """Carry a refused signature to the record page the refusal redirects to: a short-lived cookie,
+    signed by this server (so nobody can plant words in it) and bound to that revision's page."""
+    def encoded(fields: dict) -> str:
+        raw = json.dumps({"sheet": sheet_id, "number": number, "message": message[:1000], **fields},
+                         ensure_ascii=False).encode("utf-8", "replace")
+        return base64.urlsafe_b64encode(raw).decode("ascii").rstrip("=")
+
+    payload = encoded(typed)
+    if len(payload) > REFUSAL_MAX_BYTES:  # a long comment in wide characters: keep the message, drop the comment
+        payload = encoded({**typed, "comment": ""})
+    token = _refusal_signer(request).timed_token("sign-refused", payload)
+    response.set_cookie(refusal_cookie(request), f"{payload}~{token}", max_age=REFUSAL_MAX_AGE,
+                        path=_url(request, "record", sheet_id=sheet_id, number=number), httponly=True,
+                        samesite="strict")
+
+
+def refusal_of(request: Request, sheet_id: int, number: int) -> dict | None:
+    """The refused signature this page was redirected with (``{"message", "form"}``), or None."""
+    value = request.cookies.get(refusal_cookie(request))
+    if not value or value.count("~") != 1 or len(value) > 4096:
+        return None
+    payload, token = value.split("~")
+    if not _refusal_signer(request).valid_timed("sign-refused", token, REFUSAL_MAX_AGE, payload):
+        return None
+    try:
+        data = json.loads(base64.urlsafe_b64decode(payload + "=" * (-len(payload) % 4)))
+    except ValueError:
+        return None
+    if not isinstance(data, dict) or data.get("sheet") != sheet_id or data.get("number") != number:
+        return None
+    form = {k: str(data.get(k) or "") for k in ("role", "login", "comment", "field")}
+    return {"message": str(data.get("message") or ""), "form": form}
 
 
 class SignIn(BaseModel):

@@ -613,6 +613,15 @@ def _curve_points(r: _Reader, e: dict, path: str, y_key: str, y_kind: Kind, min_
                           what="NPSH required"))
     if None in Q or None in H:
         return None
+    # The curve runs through each point in order of flow, so two points at one flow are refused
+    # (the interpolation would have no slope between them).
+    first_at: dict[float, int] = {}
+    for j, q in enumerate(Q):
+        if q in first_at:
+            r.fail(f"{path}.curve.{j}.flow", pts[j].get("flow"),
+                   f"repeats the flow of point {first_at[q] + 1}: give each point its own flow")
+            return None
+        first_at[q] = j
     if len(set(Q)) < 3:
         r.fail(f"{path}.curve", "repeated flows", "needs at least three different flows")
         return None

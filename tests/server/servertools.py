@@ -109,7 +109,7 @@ def fill(path: str, sheet_id: int = 1, number: int = 1, static: str = "css/heads
     import re
 
     values = {"sheet_id": str(sheet_id), "number": str(number), "token": "not-a-link", "fingerprint": "0" * 64,
-              "path": static}
+              "path": static, "name": "curves"}
     return re.sub(r"\{(\w+)(?::\w+)?\}", lambda m: values[m.group(1)], path)
 
 

@@ -17,8 +17,9 @@ from servertools import FIGURES, HX, BrowserClient, form_fields
 
 from calc.model import sheet as calc_sheet
 from server.app import create_app
-from server.editing import related, split_path
+from server.editing import is_bare_number, related, split_path
 from server.form import FormView
+from server.pages import placeholder_units
 
 OK_FORM = {200, 303, 409, 422}
 HOSTILE = [
@@ -113,11 +114,14 @@ def test_any_value_in_any_form_field(fuzz_client, data):
             shown = [p for p, words in _messages(text) if words]
             assert any(related(p, group) for p in shown), (name, shown)
     elif after != before and split_path(name) is not None and len(value) <= 5000:
-        # Saved: the field holds what was typed (counts become numbers).
+        # Saved: the field holds what was typed (counts become numbers, and a bare number in a quantity
+        # field takes the unit its placeholder shows).
         node = stored
         for part in split_path(name):
             node = node[part]
-        assert str(node) == value or (isinstance(node, int) and int(value) == node)
+        unit = placeholder_units(doc).get(name)
+        assert str(node) == value or (isinstance(node, int) and int(value) == node) or (
+            unit and is_bare_number(value) and node == f"{value.strip()} {unit}"), (name, value, node)
     assert client.get(f"/sheets/{sheet_id}").status_code == 200
 
 

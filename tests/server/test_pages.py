@@ -393,3 +393,81 @@ def test_results_panel_uses_the_sheets_check_limits_and_shows_the_range(client):
     strict.setdefault("settings", {})["checks"] = {"velocity_max": "1 m/s"}
     client.put(f"/api/sheets/{sid}", json={"document": strict, "base_revision": 1})
     assert "velocity high" in client.get(f"/sheets/{sid}").text
+
+
+# -- typed work is never lost ------------------------------------------------------------------------
+
+def test_a_later_valid_change_is_saved_while_an_earlier_field_stays_invalid(client, sheet_form):
+    fields = sheet_form(1)
+    i = _first_pipe(_doc(client, 1))
+    good_length = _doc(client, 1)["elements"][i]["length"]
+    fields[f"elements.{i}.length"] = "12 parsnips"
+    first = client.post("/sheets/1", data=fields, headers=HX)
+    assert first.status_code == 422 and _revisions(client, 1) == [1]
+    # The next post still carries the invalid text, and a valid change elsewhere: that one is stored.
+    fields["header.project"] = "Saved beside an invalid length"
+    fields["base"] = "1"
+    fields["shown_errors"] = f"elements.{i}.length"
+    response = client.post("/sheets/1", data=fields, headers=HX)
+    assert response.status_code == 422
+    stored = _doc(client, 1)
+    assert stored["header"]["project"] == "Saved beside an invalid length"
+    assert stored["elements"][i]["length"] == good_length
+    assert _revisions(client, 1) == [2, 1]
+    # The message stays beside the field, the form names what is not applied, and the results (of
+    # the stored revision, with the valid change) are marked stale for it.
+    slot = re.search(rf'<p id="m-elements-{i}-length" hx-swap-oob="innerHTML">([^<]*)</p>', response.text)
+    assert slot and "not a unit we know" in slot.group(1)
+    unapplied = re.search(r'<div id="unapplied"[^>]*data-count="(\d+)"[^>]*>(.*?)</div>', response.text, re.DOTALL)
+    assert unapplied and unapplied.group(1) == "1" and "Length" in unapplied.group(2)
+    assert f'href="#f-elements-{i}-length"' in unapplied.group(2)
+    assert 'class="results stale"' in response.text
+    assert _flow_shown(response.text) == _expected_flow(stored)
+    # Without JavaScript the page comes back with the invalid text in its field and the message beside it.
+    fields["base"] = "2"
+    page = client.post("/sheets/1", data=fields)
+    assert page.status_code == 422
+    assert form_fields(page.text)[f"elements.{i}.length"] == "12 parsnips"
+    assert re.search(rf'id="m-elements-{i}-length">[^<]*not a unit we know', page.text)
+
+
+def test_a_bare_number_through_the_form_takes_the_placeholder_unit(client, sheet_form):
+    fields = sheet_form(1)
+    i = _first_pipe(_doc(client, 1))
+    page = client.get("/sheets/1").text
+    placeholder = re.search(rf'id="f-elements-{i}-length"[^>]*placeholder="e\.g\. [\d.]+ (\S+)"', page)
+    assert placeholder, "the length field shows an example with its unit"
+    fields[f"elements.{i}.length"] = "321"
+    assert client.post("/sheets/1", data=fields, headers=HX).status_code == 200
+    assert _doc(client, 1)["elements"][i]["length"] == f"321 {placeholder.group(1)}"
+
+
+def test_a_draft_restored_on_the_same_revision_comes_back_whole_with_its_messages(client, sheet_form):
+    fields = sheet_form(1)
+    i = _first_pipe(_doc(client, 1))
+    draft = {**fields, f"elements.{i}.length": "9 parsnips", "header.project": "From the draft",
+             "action": "restore"}
+    response = client.post("/sheets/1", data=draft, headers=HX)
+    assert response.status_code == 422
+    assert 'id="sheet-fields" class="sheet-fields" hx-swap-oob="true"' in response.text  # the whole form
+    assert f'name="elements.{i}.length" value="9 parsnips"' in response.text
+    assert "Restored what was typed in this browser" in response.text
+    assert _doc(client, 1)["header"]["project"] == "From the draft"
+
+
+def test_a_draft_of_an_older_revision_goes_onto_the_latest_when_nothing_clashes(client, sheet_form):
+    fields = sheet_form(1)
+    i = _first_pipe(_doc(client, 1))
+    other = {**fields, "header.title": "Changed elsewhere"}
+    assert client.post("/sheets/1", data=other, headers=HX).status_code == 200
+    draft = {**fields, f"elements.{i}.length": "9 parsnips", "action": "restore"}  # base 1, latest 2
+    response = client.post("/sheets/1", data=draft, headers=HX)
+    assert response.status_code == 422
+    assert "onto revision 2" in response.text
+    assert f'name="elements.{i}.length" value="9 parsnips"' in response.text
+    assert 'name="header.title" value="Changed elsewhere"' in response.text  # their change is kept
+    # A draft touching a field changed elsewhere is a conflict, shown with both values.
+    clash = {**fields, "header.title": "Mine", "action": "restore"}
+    response = client.post("/sheets/1", data=clash, headers=HX)
+    assert response.status_code == 409 and "Mine" in response.text and "Changed elsewhere" in response.text
+    assert _doc(client, 1)["header"]["title"] == "Changed elsewhere"

@@ -212,8 +212,13 @@ def test_a_frozen_revision_refuses_change(client, sheet_id, app):
     again = sign(client, sheet_id, 1, "preparer", "Someone Else")
     assert again.status_code == 409 and again.json()["status"] == 409
     assert "cannot change" in again.json()["message"]
+    # The form's refusal answers with the record page's own address, the message carried there once.
     page = sign(client, sheet_id, 1, "preparer", "Someone Else", api=False)
-    assert page.status_code == 409 and "cannot change" in page.text
+    assert page.status_code == 303 and page.headers["location"] == f"/sheets/{sheet_id}/revisions/1/record#sign-off"
+    shown = client.get(page.headers["location"])
+    assert shown.status_code == 200 and "cannot change" in shown.text
+    assert 'class="notice notice-error" role="alert"' in shown.text  # the refusal itself, not only the frozen notice
+    assert 'notice-error' not in client.get(page.headers["location"]).text  # shown once
     # Nothing below the API can rewrite it either: the database refuses.
     con = sqlite3.connect(app.state.store.path)
     with pytest.raises(sqlite3.IntegrityError):

@@ -134,7 +134,10 @@ def test_the_reviewer_can_print_and_sign(owner, reviewer):
     assert action == f"{prefix}/sheets/1/revisions/1/signatures"
     assert fields["login"] == "rita-reviewer"
     wrong = reviewer.post(action, data={**fields, "password": "not her password"})
-    assert wrong.status_code == 401 and "do not match" in wrong.text
+    # Refused: back to the record page's own address under the link, the message beside the password.
+    assert wrong.status_code == 303 and wrong.headers["location"] == f"{prefix}/sheets/1/revisions/1/record#sign-off"
+    shown = reviewer.get(wrong.headers["location"])
+    assert shown.status_code == 200 and 'id="sign-message"' in shown.text and "do not match" in shown.text
     as_carl = reviewer.post(f"{prefix}/api/sheets/1/revisions/1/signatures",
                             json={"role": "preparer", "login": "carl-checker", "password": PASSWORD})
     assert as_carl.status_code == 403 and "signs only as that person" in as_carl.json()["message"]
