@@ -15,7 +15,7 @@ from starlette.concurrency import run_in_threadpool
 
 from calc import record as calc_record
 from calc.model import sheet as calc_sheet
-from server import editing
+from server import editing, edits
 from server.form import FormView, anchor, describe, slot_paths
 from server.plot_routes import page_plots
 from server.results import percent, sentence
@@ -306,7 +306,7 @@ async def _form(request: Request) -> dict[str, str]:
     return out
 
 
-def _note(edit: editing.Edit, action: str | None, stored: dict) -> str:
+def _note(edit: edits.Edit, action: str | None, stored: dict) -> str:
     """What an edit did, in words, for the history list."""
     words = []
     if action:
@@ -340,7 +340,7 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
         base = None
     action = form.get("action") or None
     fields = {k: v for k, v in form.items() if editing.split_path(k) is not None}
-    drawn_from = editing.form_document(form.get("doc"), stored)
+    drawn_from = edits.form_document(form.get("doc"), stored)
     restored_note = None
     if action == "restore" and base is not None and 0 < base < latest.number:
         # What this browser kept of a page reloaded after the sheet moved on: its entries go onto the
@@ -363,7 +363,7 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
         conflict = conflict_view(store, refused, base_doc if known else None, typed)
         return SheetState(latest, typed, calc_sheet.parse(typed).errors, base_doc, stale=True,
                           conflict=conflict, message=conflict.message)
-    edit = editing.edit(stored, drawn_from, fields, action, paste_text=form.get("paste", ""),
+    edit = edits.edit(stored, drawn_from, fields, action, paste_text=form.get("paste", ""),
                         units=placeholder_units)
     saved = False
     if edit.keep != stored:

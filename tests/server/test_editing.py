@@ -8,8 +8,9 @@ import pytest
 
 from calc.model import sheet as calc_sheet
 from calc.model.sheet import blank_sheet, parse
-from server import editing
-from server.editing import apply_action, edit, get_path, related, set_field, split_path, too_deep
+from server import editing, edits
+from server.editing import apply_action, get_path, related, set_field, split_path, too_deep
+from server.edits import edit
 
 
 def test_split_path():
@@ -176,7 +177,7 @@ def test_edit_with_action_applies_it_to_what_is_kept():
 def test_form_document_falls_back_to_the_stored_one():
     stored = blank_sheet()
     for text in (None, "", "not json", "[1, 2]", "{" * 100000, '{"a":' * 50 + "1" + "}" * 50):
-        assert editing.form_document(text, stored) == stored
+        assert edits.form_document(text, stored) == stored
 
 
 def test_get_path_missing():

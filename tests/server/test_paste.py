@@ -12,8 +12,10 @@ from servertools import HX, demo_files
 from calc.model.sheet import parse
 from calc.units import Q_
 from server import editing
-from server.editing import PASTE_COLUMNS, PasteRefused, edit, fitting_key, paste, read_table
+from server import paste as paste_module
+from server.edits import edit
 from server.pages import placeholder_units
+from server.paste import PASTE_COLUMNS, PasteRefused, fitting_key, paste, read_table
 
 PUMP = PASTE_COLUMNS["pump.curve"]
 PROFILE = PASTE_COLUMNS["pipe.profile"]
@@ -125,7 +127,7 @@ def test_a_table_that_cannot_be_read_is_refused_with_why(text, words):
 
 
 def test_a_huge_paste_is_refused_before_it_is_read():
-    text = "1\t2\n" * (editing.MAX_PASTE_CHARS // 4 + 1)
+    text = "1\t2\n" * (paste_module.MAX_PASTE_CHARS // 4 + 1)
     with pytest.raises(PasteRefused) as e:
         read_table(text, PUMP)
     assert "too long" in str(e.value)
