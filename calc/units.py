@@ -54,6 +54,32 @@ SPEED = _kind("a velocity", "m/s", "2 m/s", ("m/s", "ft/s"))
 TIME = _kind("a time", "s", "5 s", ("s",))
 RATIO = _kind("a plain number or percentage", "", "0.85 or 85 %")
 
+#: A kind's example and suggested units on a sheet shown in US customary units (header.units "US"),
+#: so that a message on such a sheet never suggests '150 mm' (the same figures as the SI examples).
+_US = {
+    "m": ("6 in", ("ft", "in", "m")),
+    "m^3/s": ("630 gpm", ("gpm", "ft3/s", "L/s")),
+    "Pa": ("45 psi", ("psi", "kPa")),
+    "W": ("50 hp", ("hp", "kW")),
+    "kg/m^3": ("62.3 lb/ft^3", ("lb/ft3", "kg/m3")),
+    "K": ("54 degF", ("degF", "degC")),
+    "m/s": ("6.5 ft/s", ("ft/s", "m/s")),
+}
+
+
+def in_system(kind: Kind, system: str) -> Kind:
+    """``kind`` with its example and suggested units in a sheet's unit system ("SI" or "US").
+
+    >>> in_system(LENGTH, "US").example, in_system(LENGTH, "US").suggested, in_system(LENGTH, "SI") is LENGTH
+    ('6 in', ('ft', 'in', 'm'), True)
+    >>> in_system(RATIO, "US") is RATIO
+    True
+    """
+    if system != "US" or kind.si not in _US:
+        return kind
+    example, suggested = _US[kind.si]
+    return Kind(kind.name, kind.si, example, kind.dimensionality, suggested)
+
 _NUMBER = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*?)\s*$")
 #: A power written as a bare digit after a unit, as engineers type it: m3/s, m3/h, kg/m3, ft3/s, mm2.
 _BARE_POWER = re.compile(r"(?<=[A-Za-z])([23])(?![\d.])")
@@ -198,7 +224,7 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
     value = float(q.to(kind.si).magnitude) if kind.si else float(q.to("dimensionless").magnitude)
     if not math.isfinite(value):
         raise InputError(path, text, "must be a finite number")
-    if kind is TEMPERATURE:
+    if kind.si == "K":  # a temperature (of either unit system's examples)
         # The offset of degC and degF leaves round-off (0.01 degC -> 273.15999999999997 K, just below
         # the triple point); no typed temperature carries 12 significant figures, so drop it.
         value = float(f"{value:.12g}")

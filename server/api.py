@@ -14,6 +14,7 @@ from pydantic import BaseModel, Field
 
 from calc.model import sheet as calc_sheet
 from calc.model.schema import SCHEMA
+from server import revisions
 from server.editing import json_problem
 from server.results import solve_parsed
 from server.store import Revision, SheetSummary, StaleRevision, Store
@@ -71,6 +72,9 @@ class RevisionSummaryOut(BaseModel):
     base: int | None = Field(description="the revision this one was edited from")
     frozen: bool
     digest: str = Field(description="SHA-256 of the stored document text")
+    label: str = Field("", description="how people name this save: its revision, A.1, A.2… on the way to issue A, "
+                                       "A once signed, with '(save k of n)' for a save a later one of the same "
+                                       "burst of edits superseded")
 
 
 class RevisionListOut(BaseModel):
@@ -147,9 +151,18 @@ def _summary(s: SheetSummary) -> dict:
             "revision": s.revision, "changed": s.changed, "created": s.created, "archived": s.archived}
 
 
-def _revision_summary(r: Revision) -> dict:
-    return {"number": r.number, "created": r.created, "author": r.author, "note": r.note, "base": r.base,
-            "frozen": r.frozen, "digest": r.digest}
+def _revision_summary(r: Revision, labels: dict[int, str] | None = None) -> dict:
+    """One save; ``label`` is how people name it (A.3, or A once signed: server.revisions)."""
+    out = {"number": r.number, "created": r.created, "author": r.author, "note": r.note, "base": r.base,
+           "frozen": r.frozen, "digest": r.digest}
+    if labels is not None:
+        out["label"] = labels.get(r.number, f"save {r.number}")
+    return out
+
+
+def _labels(store, sheet_id: int, document) -> dict[int, str]:
+    groups = revisions.group(store.marks(sheet_id), revisions.scheme_of(document))
+    return {m.number: revisions.save_label(groups, m.number) for g in groups for m in g.saves}
 
 
 def _with_document(head: dict, document_json: str) -> Response:
@@ -197,12 +210,17 @@ def replace_sheet(request: Request, sheet_id: int, body: ReplaceIn) -> Response:
 
 
 def list_revisions(request: Request, sheet_id: int) -> dict:
-    return {"sheet_id": sheet_id, "revisions": [_revision_summary(r) for r in _store(request).revisions(sheet_id)]}
+    store = _store(request)
+    revs = store.revisions(sheet_id)
+    labels = _labels(store, sheet_id, revs[0].document)
+    return {"sheet_id": sheet_id, "revisions": [_revision_summary(r, labels) for r in revs]}
 
 
 def read_revision(request: Request, sheet_id: int, number: int) -> Response:
-    rev = _store(request).revision(sheet_id, number)
-    return _with_document({"sheet_id": sheet_id, **_revision_summary(rev)}, rev.document_json)
+    store = _store(request)
+    rev = store.revision(sheet_id, number)
+    labels = _labels(store, sheet_id, rev.document)
+    return _with_document({"sheet_id": sheet_id, **_revision_summary(rev, labels)}, rev.document_json)
 
 
 def solve(request: Request, body: SolveIn) -> Response:

@@ -13,6 +13,7 @@ back as the store has it (`reconcile`), so one invalid field never holds up the 
 from __future__ import annotations
 
 import copy
+import hashlib
 import json
 import re
 from dataclasses import dataclass, field
@@ -26,16 +27,18 @@ from calc.units import unit_allowed, unit_text
 SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements")
 #: Fields whose value changes which other fields the form shows.
 SWITCH_KEYS = {"kind", "mode", "type", "standard"}
-#: Keys holding a group of fields that a form may create when the document has none yet.
-CREATABLE_GROUPS = {"size"}
+#: Keys holding a group of fields that a form may create when the document has none yet (a pipe's size,
+#: the settings and their check limits, which most sheets leave at their defaults).
+CREATABLE_GROUPS = {"size", "settings", "checks"}
 #: Lists a form may add items to, with the template for a new item and the most allowed.
 LIST_TEMPLATES: dict[str, tuple[dict, int]] = {
     "fittings": (calc_sheet.FITTING_TEMPLATE, calc_sheet.MAX_FITTINGS),
     "profile": (calc_sheet.PROFILE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
     "curve": (calc_sheet.CURVE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
 }
-#: Fields a new pipe run takes from the last one on the sheet.
-CARRIED_ON = ("diameter", "size", "material", "roughness", "wall_thickness", "end_elevation", "rating")
+#: Fields a new pipe run takes from the last one on the sheet: the same pipe carries on. Its length and
+#: end elevation are asked for (a run level with the last one would be a number nobody gave).
+CARRIED_ON = ("diameter", "size", "material", "condition", "roughness", "wall_thickness", "rating")
 ELEMENT_NAMES = {"pipe": "pipe run", "turbine": "turbine", "pump": "pump", "valve": "valve"}
 MAX_DEPTH = 12
 MAX_FIELD_LENGTH = 5000
@@ -139,9 +142,7 @@ def set_field(doc: dict, path: str, text: str) -> bool:
         return False
     parent = get_path(doc, parts[:-1])
     if (parent is MISSING or parent is None) and parts[-2] in CREATABLE_GROUPS and text.strip():
-        grand = get_path(doc, parts[:-2])
-        if isinstance(grand, dict):
-            parent = grand[parts[-2]] = {}
+        parent = _create_groups(doc, parts[:-1])
     key = parts[-1]
     if isinstance(parent, list) and isinstance(key, int) and key < len(parent):
         old = parent[key]
@@ -158,6 +159,19 @@ def set_field(doc: dict, path: str, text: str) -> bool:
         return False
     parent[key] = new
     return True
+
+
+def _create_groups(doc: dict, parts: tuple) -> Any:
+    """The group at ``parts``, made (with any missing group above it) where each is a creatable group."""
+    node: Any = doc
+    for key in parts:
+        child = get_path(node, (key,))
+        if child is MISSING or child is None:
+            if not isinstance(node, dict) or key not in CREATABLE_GROUPS:
+                return MISSING
+            child = node[key] = {}
+        node = child
+    return node
 
 
 def set_raw(doc: dict, parts: tuple, value: Any) -> None:
@@ -280,6 +294,65 @@ def apply_action(doc: dict, action: str) -> ActionResult:
         items[index], items[other] = items[other], items[index]
         return ActionResult(doc, focus=f"{list_path}.{other}")
     return ActionResult(doc, message="That action is not one this sheet knows.")
+
+
+# -- undoing a removal ------------------------------------------------------------------------
+# A removal is answered with a notice and an Undo button carrying the item removed (its JSON) and a
+# check: the digest of the stored sheet with the item put back. The undo is applied only while the
+# stored sheet with that item put back in that place gives the same digest, so it refuses once the
+# sheet has moved on, and an item altered on its way never lands.
+
+#: What the items of each list are called in the notice of a removal.
+ITEM_NAMES = {"fittings": "fitting", "profile": "profile point", "curve": "curve point"}
+
+
+def document_digest(doc: Any) -> str:
+    """A digest of a document's content, key order aside (what an undo checks the sheet against)."""
+    text = json.dumps(doc, sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def reinserted(doc: dict, target: str, item: Any) -> dict | None:
+    """A copy of ``doc`` with ``item`` put back at ``target`` (``elements.2``, ``elements.0.curve.3``),
+    or None when that place is not in ``doc``.
+
+    >>> reinserted({"elements": [{"k": 1}, {"k": 3}]}, "elements.1", {"k": 2})
+    {'elements': [{'k': 1}, {'k': 2}, {'k': 3}]}
+    >>> reinserted({"elements": []}, "elements.4", {}) is None
+    True
+    """
+    parts = split_path(target)
+    if parts is None or len(parts) < 2 or not isinstance(parts[-1], int):
+        return None
+    out = copy.deepcopy(doc)
+    items = get_path(out, parts[:-1])
+    if not isinstance(items, list) or parts[-1] > len(items):
+        return None
+    items.insert(parts[-1], copy.deepcopy(item))
+    return out
+
+
+def removal_words(doc: dict, target: str) -> str:
+    """What removing ``target`` from ``doc`` takes away, as the notice names it.
+
+    >>> doc = {"elements": [{"kind": "pipe", "label": "Suction", "curve": []}, {"kind": "pump", "label": ""}]}
+    >>> removal_words(doc, "elements.0"), removal_words(doc, "elements.1"), removal_words(doc, "elements.0.curve.2")
+    ('pipe run Suction', 'pump (element 2)', 'curve point 3 of Suction')
+    """
+    parts = split_path(target) or ()
+    if len(parts) < 2 or parts[0] != "elements" or not isinstance(parts[1], int):
+        return "the item"
+    element = get_path(doc, parts[:2])
+    element = element if isinstance(element, dict) else {}
+    label = element.get("label") if isinstance(element.get("label"), str) else ""
+    label = " ".join(label.split())
+    if len(parts) == 2:
+        name = ELEMENT_NAMES.get(element.get("kind"), "element")
+        return f"{name} {label}" if label else f"{name} (element {parts[1] + 1})"
+    owner = label or f"element {parts[1] + 1}"
+    if len(parts) == 4 and isinstance(parts[3], int):
+        return f"{ITEM_NAMES.get(str(parts[2]), 'item')} {parts[3] + 1} of {owner}"
+    return f"an item of {owner}"
 
 
 # -- a bare number takes the unit its field shows ---------------------------------------------

@@ -17,9 +17,12 @@ from server.editing import (
     SWITCH_KEYS,
     apply_action,
     differences,
+    document_digest,
     get_path,
     is_bare_number,
     json_problem,
+    reinserted,
+    removal_words,
     set_field,
     set_raw,
     shape,
@@ -81,8 +84,24 @@ def _revert(cand: dict, ref: dict, path: str, whole: frozenset = frozenset()) ->
         if c == r and type(c) is type(r):
             continue
         _put(cand, place, r)
+        # A group the form made for this value alone (server.editing.CREATABLE_GROUPS: the check limits,
+        # a size) goes with it, so that a refused value leaves the document as it was.
+        while r is MISSING and len(place) > 1 and get_path(cand, place[:-1]) == {} \
+                and get_path(ref, place[:-1]) is MISSING:
+            place = place[:-1]
+            _put(cand, place, MISSING)
         return True
     return False
+
+
+def waiting(ref: dict, parse: Callable = calc_sheet.parse) -> set[str]:
+    """The paths of the values ``ref`` lacks and asks for (calc.model.sheet.Missing): values nobody has given
+    yet (a new sheet, a new element still empty), which hold up no other change.
+
+    Only what ``ref`` itself asks for waits: a value a typed change makes needed (a material emptied, so the
+    run needs a roughness; a mode switched to a curve with no points) is not, and that change goes back.
+    """
+    return {e.path for e in parse(ref).errors if calc_sheet.is_request(e)}
 
 
 def reconcile(stored: dict, typed: dict, parse: Callable = calc_sheet.parse, reference: dict | None = None,
@@ -92,15 +111,18 @@ def reconcile(stored: dict, typed: dict, parse: Callable = calc_sheet.parse, ref
     Parts go back as ``reference`` has them (the stored document with this post's list action applied,
     so its places match the typed ones), then, if that gives nothing valid, as ``stored`` has them; should
     neither give a valid document, the stored one is kept whole. So every valid change is kept, and
-    the stored sheet is always one that parses.
+    the stored sheet never holds a value that does not parse. It may lack values nobody has given yet
+    (`waiting`: a new sheet, a new element): those hold up nothing, and the sheet asks for them.
     """
     for ref in ([reference] if reference is not None else []) + [stored]:
         cand = copy.deepcopy(typed)
+        asked = waiting(ref, parse)
         for _ in range(MAX_ROUNDS):
             parsed = parse(cand)
-            if parsed.ok:
+            wrong = [e for e in parsed.errors if not (calc_sheet.is_request(e) and e.path in asked)]
+            if not wrong:
                 return cand, parsed
-            moved = [_revert(cand, ref, e.path, whole) for e in parsed.errors]
+            moved = [_revert(cand, ref, e.path, whole) for e in wrong]
             if not any(moved):
                 break
     return copy.deepcopy(stored), parse(stored)
@@ -122,6 +144,7 @@ class Edit:
     message: str | None = None  # why an action was refused
     note: str | None = None  # what an action did, when it needs saying (a paste)
     assumed: dict[str, str] = field(default_factory=dict)  # path -> unit given to a bare number
+    undo: dict | None = None  # after a removal: what the Undo button posts back (`undo_offer`)
 
     @property
     def stale(self) -> bool:
@@ -146,9 +169,44 @@ def form_document(form_doc: str | None, stored: dict) -> dict:
     return copy.deepcopy(stored)
 
 
+def undo_offer(stored: dict, keep: dict, reference: dict | None, target: str) -> dict | None:
+    """What the Undo button of a removal of ``target`` posts back, or None when there is nothing to undo.
+
+    The item put back is the stored one, and only when the removal of the stored item is what was
+    stored (``keep``'s list is ``reference``'s: the stored sheet with the removal applied).
+    """
+    item = get_path(stored, target)
+    list_path = target.rpartition(".")[0]
+    if item is MISSING or reference is None or get_path(keep, list_path) != get_path(reference, list_path):
+        return None
+    back = reinserted(keep, target, item)
+    if back is None:
+        return None
+    return {"action": f"undo:{target}", "item": json.dumps(item, ensure_ascii=False, separators=(",", ":")),
+            "check": document_digest(back), "words": removal_words(stored, target)}
+
+
+def _undo(stored: dict, typed: dict, target: str, item_json: str, check: str) -> tuple[dict | None, dict | None, str | None]:
+    """(typed document, stored document) with a removed item put back at ``target``, or a refusal."""
+    try:
+        item = json.loads(item_json or "null")
+    except (ValueError, RecursionError):
+        item = None
+    refused = ("The sheet has changed since that removal, so Undo cannot put it back where it was; "
+               "nothing was put back. Add it again if it is still wanted.")
+    if not isinstance(item, dict) or json_problem(item) is not None:
+        return None, None, refused
+    back = reinserted(stored, target, item)
+    if back is None or document_digest(back) != check:
+        return None, None, refused
+    shown = reinserted(typed, target, item)
+    return (shown if shown is not None else copy.deepcopy(back)), back, None
+
+
 def edit(stored: dict, drawn_from: dict, fields: dict[str, str], action: str | None,
          parse: Callable = calc_sheet.parse, paste_text: str = "",
-         units: Callable[[dict], Mapping[str, str]] | None = None) -> Edit:
+         units: Callable[[dict], Mapping[str, str]] | None = None,
+         undo_item: str = "", undo_check: str = "") -> Edit:
     """Merge posted fields (and an action) into a sheet, keeping in ``keep`` every change that parses.
 
     ``units`` gives, for a document, the unit each quantity field shows in its placeholder: a bare
@@ -175,6 +233,11 @@ def edit(stored: dict, drawn_from: dict, fields: dict[str, str], action: str | N
             whole = frozenset({".".join(target.split(".")[:3])})
     elif verb == "restore":
         switched = True  # the fields restored from this browser's draft may change the form's layout
+    elif verb == "undo":
+        # Undo of a removal: the item comes back where it was, if the sheet is as the removal left it.
+        shown, back, message = _undo(stored, typed, target, undo_item, undo_check)
+        if message is None:
+            switched, typed, reference, focus = True, shown, back, target
     elif action:
         result = apply_action(typed, action)
         focus, message = result.focus, result.message
@@ -201,5 +264,7 @@ def edit(stored: dict, drawn_from: dict, fields: dict[str, str], action: str | N
     display_parsed = keep_parsed if keep == typed else parse(typed)
     same_shape = shape(keep) == shape(stored)
     changed = [p for p in fields if same_shape and get_path(keep, p) != get_path(stored, p)]
+    undo = undo_offer(stored, keep, reference, target) if verb == "remove" and message is None else None
     return Edit(display=typed, keep=keep, keep_parsed=keep_parsed, errors=display_parsed.errors,
-                changed=changed, switched=switched, focus=focus, message=message, note=note, assumed=assumed)
+                changed=changed, switched=switched, focus=focus, message=message, note=note, assumed=assumed,
+                undo=undo)

@@ -7,8 +7,10 @@ from functools import lru_cache
 from typing import Any
 
 from calc import friction, tables
+from calc.model.settings import CheckSettings
+from calc.model.sheet import is_request
 from server.editing import get_path, is_missing
-from server.results import quantity
+from server.results import method_name, quantity
 
 
 @dataclass(frozen=True)
@@ -24,6 +26,8 @@ class Spec:
     datalist: str = ""  # name of a suggestion list for a free-text field
     default: str = ""  # what an empty select means, e.g. "anchored throughout"
     wide: bool = False
+    shows_default: bool = False  # the example is the value an empty field means (a check limit's default)
+    detail: str = ""  # the help in full, shown when the pointer rests on the short one
 
 
 def _materials():
@@ -39,8 +43,21 @@ def _standards():
     return [("", "none (type the diameter)")] + list(tables.size_standards().items())
 
 
+#: What each friction formula is, in a few words, after its name in the choice.
+_METHOD_NOTES = {"colebrook": "Colebrook-White, solved exactly", "churchill_1977": "every flow regime"}
+
+
 def _methods():
-    return [(key, getattr(m, "name", key)) for key, m in friction.METHODS.items()]
+    """The friction formulas by their names: 'Colebrook (Colebrook-White, solved exactly)', 'Haaland (1983, explicit)'."""
+    out = []
+    for key in friction.METHODS:
+        name = method_name(key)["name"]
+        year = key.rsplit("_", 1)[-1] if key.rsplit("_", 1)[-1].isdigit() else ""
+        note = _METHOD_NOTES.get(key) or ", ".join(w for w in (year, "explicit") if w)
+        if key in _METHOD_NOTES and year:
+            note = f"{year}, {note}"
+        out.append((key, f"{name} ({note})"))
+    return out
 
 
 OPTIONS = {
@@ -53,6 +70,8 @@ OPTIONS = {
     "friction_method": _methods,
     "material": _materials,
     "standard": _standards,
+    "condition": lambda: [("new", "new: the material's new roughness"),
+                          ("aged", "aged: the material's aged roughness")],
     "restraint": lambda: [("anchored", "anchored throughout"), ("anchored_upstream", "anchored upstream only"),
                           ("expansion_joints", "expansion joints throughout")],
     "turbine_mode": lambda: [("power", "set shaft power"), ("head", "fixed head"), ("curve", "head-flow curve")],
@@ -85,17 +104,54 @@ LIQUID = {
                Spec("vapour_pressure", "Vapour pressure (absolute)", example="2.3 kPa"),
                Spec("bulk_modulus", "Bulk modulus", example="2.19 GPa", help="optional; for the surge check")],
 }
-SITE = [Spec("atmospheric_pressure", "Atmospheric pressure (absolute)", example="101.325 kPa")]
-SETTINGS = [Spec("friction_method", "Friction factor", "select", options="friction_method")]
+SITE = [Spec("atmospheric_pressure", "Atmospheric pressure (absolute)", example="101.325 kPa",
+             help="empty: 101.325 kPa, the standard atmosphere at sea level")]
+SETTINGS = [Spec("friction_method", "Friction factor", "select", options="friction_method",
+                 help="the formula for turbulent flow; 64/Re in laminar flow")]
+
+
+def _limit(key: str, label: str, kind: str, example: str, why: str = "") -> Spec:
+    """One check limit: its default as the placeholder, and where that default comes from as the hint."""
+    short, full = CheckSettings.SHORT_SOURCES[key], CheckSettings.SOURCES[key]
+    return Spec(key, label, kind, example=example, shows_default=True,
+                help=f"default from {short}" + (f"; {why}" if why else ""), detail=full)
+
+
+_D = CheckSettings()
+#: The limits the checks apply (``settings.checks``); empty means the default (calc/model/settings.py).
+CHECKS = [
+    _limit("velocity_max", "Highest velocity", "qty", f"{_D.velocity_max:g} m/s"),
+    _limit("velocity_max_suction", "Highest velocity in a pump's suction", "qty",
+           f"{_D.velocity_max_suction:g} m/s"),
+    _limit("velocity_min", "Lowest velocity", "qty", f"{_D.velocity_min:g} m/s", "sediment and air settle below it"),
+    _limit("npsh_margin_ratio", "NPSH margin ratio, NPSHA / NPSHR at least", "ratio", f"{_D.npsh_margin_ratio:g}"),
+    _limit("npsh_margin_min", "NPSH margin, NPSHA − NPSHR at least", "qty", f"{_D.npsh_margin_min:g} m"),
+    _limit("bep_low", "Preferred flow, low end (of best-efficiency flow)", "ratio", f"{_D.bep_low * 100:g} %"),
+    _limit("bep_high", "Preferred flow, high end (of best-efficiency flow)", "ratio", f"{_D.bep_high * 100:g} %"),
+    _limit("k_uncertainty", "Fitting and valve K, ± for the range of the answer", "ratio",
+           f"{_D.k_uncertainty * 100:g} %"),
+    # A percentage of each run's roughness or one roughness: typed as a number, never free text.
+    _limit("roughness_low", "Roughness, low end of the range", "ratio", "each run's roughness",
+           "a percentage of each run's (50 %) or one roughness for all"),
+    _limit("roughness_high", "Roughness, high end of the range", "ratio", "each run's aged roughness",
+           "a percentage of each run's (300 %) or one roughness for all"),
+    _limit("surge_allowance", "Surge allowance where surge is not calculated", "qty",
+           f"{_D.surge_allowance / 1e3:g} kPa"),
+    _limit("surge_closure_time", "Fastest closure of a valve or turbine", "qty", f"{_D.surge_closure_time:g} s",
+           "0 is a stop at once, the worst case"),
+]
+del _D
 NODE = {
     "reservoir": [Spec("elevation", "Water surface elevation", example="412 m"),
-                  Spec("pressure", "Pressure on the surface (gauge)", example="0 kPa", help="0 for an open tank"),
+                  Spec("pressure", "Pressure on the surface (gauge)", example="0 kPa",
+                       help="empty: 0, an open tank"),
                   Spec("outlet_elevation", "Pipe connection elevation", example="409 m",
                        help="optional; default the surface")],
     # A receiving reservoir: where the pipe ends is the last run's end elevation (above the surface,
     # it discharges freely there).
     "reservoir_end": [Spec("elevation", "Water surface elevation", example="80 m"),
-                      Spec("pressure", "Pressure on the surface (gauge)", example="0 kPa", help="0 for an open tank")],
+                      Spec("pressure", "Pressure on the surface (gauge)", example="0 kPa",
+                           help="empty: 0, an open tank")],
     "pressure": [Spec("elevation", "Elevation", example="20 m"),
                  Spec("pressure", "Pressure (gauge)", example="3 bar")],
     "jet": [Spec("elevation", "Jet centre elevation", example="318 m"),
@@ -112,6 +168,8 @@ PIPE = [
     Spec("size.nominal", "Nominal size", "text", datalist="nominal"),
     Spec("size.class", "Class", "text", datalist="class"),
     Spec("material", "Material", "select", options="material"),
+    Spec("condition", "Condition", "select", options="condition", default="new",
+         help="which roughness of the material table; a roughness typed takes its place"),
     Spec("roughness", "Roughness", example="0.05 mm", help="leave empty to use the material's"),
     Spec("wall_thickness", "Wall thickness", example="8 mm", help="optional; else from the size"),
     Spec("rating", "Pressure rating (gauge)", example="16 bar", help="optional"),
@@ -185,6 +243,7 @@ class Field:
     suggestions: list[str]
     autofocus: bool
     example: str = ""  # the example value as the placeholder shows it, in the sheet's units
+    request: bool = False  # the message asks for a value not given yet, rather than refusing one
 
     @property
     def id(self) -> str:
@@ -198,15 +257,17 @@ class Field:
 #: The unit a US-customary sheet shows an example in, for each SI unit the examples are written in;
 #: a bare number typed in the field takes the unit its placeholder shows (server/editing.py).
 _US_EXAMPLE_UNITS = {"m": "ft", "mm": "in", "L/s": "gpm", "kPa": "psi", "bar": "psi", "kW": "hp", "degC": "degF",
-                     "kg/m^3": "lb/ft^3"}
+                     "kg/m^3": "lb/ft^3", "m/s": "ft/s"}
 
 
 @lru_cache(maxsize=None)
-def example_in(example: str, system: str) -> str:
-    """A field's example in the sheet's unit system, to two significant figures.
+def example_in(example: str, system: str, sig: int = 2) -> str:
+    """A field's example in the sheet's unit system, to ``sig`` significant figures (a default, to three).
 
     >>> example_in("420 m", "US"), example_in("300 mm", "US"), example_in("20 L/s", "US"), example_in("420 m", "SI")
     ('1400 ft', '12 in', '320 gpm', '420 m')
+    >>> example_in("3 m/s", "US", 3), example_in("200 kPa", "US", 3), example_in("0 s", "US", 3)
+    ('9.84 ft/s', '29 psi', '0 s')
     """
     from calc.units import Q_, unit_text
 
@@ -217,7 +278,7 @@ def example_in(example: str, system: str) -> str:
         value = Q_(float(number), unit_text(unit)).to(unit_text(_US_EXAMPLE_UNITS[unit])).magnitude
     except ValueError:
         return example
-    return f"{float(f'{value:.2g}'):g} {_US_EXAMPLE_UNITS[unit]}"
+    return f"{float(f'{value:.{sig}g}'):g} {_US_EXAMPLE_UNITS[unit]}"
 
 
 def _shown(value: Any) -> str:
@@ -238,7 +299,10 @@ class FormView:
     def __init__(self, doc: dict, errors: list | None = None, focus: str | None = None, readonly: bool = False):
         self.doc = doc
         self.errors: dict[str, str] = {}
+        self.requests: set[str] = set()  # paths whose message asks for a value (calc.model.sheet.Missing)
         for e in errors or []:
+            if e.path not in self.errors and is_request(e):
+                self.requests.add(e.path)
             self.errors.setdefault(e.path, e.message)
         self.focus = focus
         self.readonly = readonly
@@ -271,8 +335,10 @@ class FormView:
                 nominals, classes = tables.size_options(standard)
                 suggestions = nominals if spec.datalist == "nominal" else classes
         system = "US" if self.get("header.units", "SI") == "US" else "SI"
+        example = example_in(spec.example, system, 3 if spec.shows_default else 2) if spec.kind == "qty" \
+            else spec.example
         return Field(path, spec, value, self.error_for(path), options, suggestions, path == self.focus,
-                     example_in(spec.example, system) if spec.kind == "qty" else spec.example)
+                     example, path in self.requests)
 
     def error_for(self, path: str) -> str | None:
         return self.errors.get(path)
@@ -290,6 +356,10 @@ class FormView:
 
     def site(self) -> list[Field]:
         return self.fields("site", SITE) + self.fields("settings", SETTINGS)
+
+    def checks(self) -> list[Field]:
+        """The check limits (``settings.checks``), each empty for its default."""
+        return self.fields("settings.checks", CHECKS)
 
     def node(self, which: str) -> list[Field]:
         kind = self.get(f"{which}.kind", "reservoir")
@@ -378,6 +448,10 @@ class FormView:
         """The message for a group or list (shown under it), e.g. a curve with too few points."""
         return self.errors.get(path)
 
+    def is_request(self, path: str) -> bool:
+        """Whether the message at ``path`` asks for a value not given yet (rather than refusing one)."""
+        return path in self.requests
+
     def elements(self) -> list[tuple[int, str, dict]]:
         """(index, kind, element) for each element, in flow order."""
         out = []
@@ -401,17 +475,17 @@ class FormView:
             if specs:
                 for j, _pt in enumerate(self.items(f"elements.{i}.curve")):
                     out += self.fields(f"elements.{i}.curve.{j}", specs)
-        return out + self.node("end")
+        return out + self.node("end") + self.checks()
 
 
 # -- where a message goes, and how to name a field in words -------------------------------------
 
 _LABELS: dict[str, str] = {}
-for _specs in [HEADER, SITE, SETTINGS, PIPE, VALVE, PROFILE_POINT, PUMP_POINT, TURBINE_POINT,
+for _specs in [HEADER, SITE, SETTINGS, CHECKS, PIPE, VALVE, PROFILE_POINT, PUMP_POINT, TURBINE_POINT,
                *LIQUID.values(), *NODE.values(), *TURBINE.values(), *PUMP.values(), *FITTING.values()]:
     for _s in _specs:
         _LABELS.setdefault(_s.key.split(".")[-1], _s.label)
-_LABELS.update({"kind": "kind", "type": "fitting", "count": "count", "standard": "size table",
+_LABELS.update({"checks": "check limits", "kind": "kind", "type": "fitting", "count": "count", "standard": "size table",
                 "nominal": "nominal size", "class": "class", "size": "size", "fittings": "fittings",
                 "profile": "profile", "curve": "curve points", "mode": "given as"})
 _SECTIONS = {"header": "Header", "liquid": "Liquid", "site": "Site", "settings": "Settings", "start": "Start",
@@ -426,6 +500,11 @@ def describe(doc: dict, path: str) -> str:
         return "Sheet"
     words = [_SECTIONS.get(parts[0], parts[0])]
     i = 1
+    if parts[0] in ("start", "end") and len(parts) == 2 and isinstance(doc, dict):
+        # A field of the start or end by the label its kind shows ('Water surface elevation').
+        shown = {f.path: f.spec.label for f in FormView(doc).node(parts[0])}
+        if path in shown:
+            return f"{words[0]} › {shown[path]}"
     if parts[0] == "elements" and len(parts) > 1 and parts[1].isdigit():
         label = get_path(doc, f"elements.{parts[1]}.label")
         label = label if isinstance(label, str) and label.strip() else None
@@ -445,7 +524,7 @@ def describe(doc: dict, path: str) -> str:
 def slot_paths(form: "FormView") -> tuple[set[str], set[str]]:
     """Paths with a message slot on the form: (the fields, the groups and lists)."""
     fields = {f.path for f in form.all_fields()}
-    paths = {"header", "liquid", "site", "settings", "start", "end", "elements"}
+    paths = {"header", "liquid", "site", "settings", "settings.checks", "start", "end", "elements"}
     for i, element in enumerate(form.items("elements")):
         paths.add(f"elements.{i}")
         if isinstance(element, dict) and element.get("kind") == "pipe":

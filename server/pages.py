@@ -3,7 +3,10 @@
 from __future__ import annotations
 
 import copy
+import hashlib
 import json
+import re
+import secrets
 from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
@@ -15,10 +18,10 @@ from starlette.concurrency import run_in_threadpool
 
 from calc import record as calc_record
 from calc.model import sheet as calc_sheet
-from server import editing, edits
+from server import editing, edits, revisions
 from server.form import FormView, anchor, describe, slot_paths
 from server.plot_routes import page_plots
-from server.results import percent, sentence
+from server.results import needed_values, percent, sentence
 from server.store import Revision, StaleRevision, Store, dump_document
 from server.web import clean_author, cookie_name
 
@@ -74,6 +77,25 @@ def viewer(request: Request) -> int | None:
 def author_of(request: Request) -> str:
     """The name this browser gave last time (kept in a cookie), for the history of its edits."""
     return clean_author(unquote(request.cookies.get(cookie_name("author", request.scope), "")))
+
+
+def editor_of(request: Request) -> tuple[str, str | None]:
+    """An opaque key of this browser for grouping its saves into revisions (server.revisions), and the
+    new cookie token to set when it has none yet. The store keeps a hash of the token, not the token."""
+    token = request.cookies.get(cookie_name("editor", request.scope), "")
+    new = None
+    if not _EDITOR_TOKEN.fullmatch(token):
+        token = new = secrets.token_urlsafe(18)
+    return hashlib.sha256(token.encode("ascii")).hexdigest()[:24], new
+
+
+_EDITOR_TOKEN = re.compile(r"[A-Za-z0-9_-]{16,64}")
+
+
+def remember_editor(request: Request, response: Response, token: str | None) -> None:
+    if token:
+        response.set_cookie(cookie_name("editor", request.scope), token, max_age=365 * 86400,
+                            httponly=True, samesite="strict")
 
 
 def remember_author(request: Request, response: Response, author: str) -> None:
@@ -159,7 +181,9 @@ class Conflict:
 def conflict_view(store: Store, refused: StaleRevision, base_doc: dict | None, typed: dict) -> Conflict:
     """What the page says about a refused edit, so nothing typed is lost without the user seeing it."""
     current = refused.current
-    current_doc = current.document
+    # Ids are given by order to a revision stored without them, so they never show as a change here.
+    current_doc = calc_sheet.ensure_ids(current.document)
+    base_doc = calc_sheet.ensure_ids(copy.deepcopy(base_doc)) if base_doc is not None else None
     base = refused.base if isinstance(refused.base, int) and 0 < refused.base < current.number else None
     since, since_total, theirs = [], 0, []
     if base is not None and base_doc is not None:
@@ -198,6 +222,7 @@ class SheetState:
     relayout: bool = False  # the form's fields changed shape: send the whole form back
     pending: list = field(default_factory=list)  # paths on screen not stored yet (typed, invalid or unapplied)
     note: str | None = None  # what an action did, when it needs saying (a paste, a restored draft)
+    undo: dict | None = None  # after a removal: the Undo notice's words and what its button posts (edits.undo_offer)
 
 
 def sheet_context(request: Request, state: SheetState, shown_before: set[str] | None = None) -> dict:
@@ -211,7 +236,11 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
     header = state.keep.get("header") if isinstance(state.keep.get("header"), dict) else {}
     units = header.get("units") if header.get("units") in ("SI", "US") else "SI"
     error_list = [{"path": e.path, "where": describe(state.display, e.path), "message": e.message,
-                   "anchor": anchor(field_paths, group_paths, e.path)} for e in state.errors]
+                   "anchor": anchor(field_paths, group_paths, e.path), "request": calc_sheet.is_request(e)}
+                  for e in state.errors]
+    # What the stored sheet still lacks: the results say the line waits for these (server.results.needed).
+    needed = [{"path": e.path, "where": describe(state.keep, e.path), "message": e.message,
+               "anchor": anchor(field_paths, group_paths, e.path)} for e in needed_values(outcome)]
     error_paths = {e.path for e in state.errors if e.path in slots}
     pending = [{"path": p, "where": describe(state.display if not editing.is_missing(editing.get_path(state.display, p))
                                              else state.keep, p),
@@ -230,7 +259,10 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
         "state": state,
         "outcome": outcome,
         "units": units,
-        "error_list": error_list,
+        # What needs correcting: each value refused, and each value emptied that the stored sheet still has
+        # (an emptied value is not applied); a value nobody has given yet is in ``needed`` instead.
+        "error_list": [e for e in error_list if not e["request"] or e["path"] not in {n["path"] for n in needed}],
+        "needed": needed,
         "pending": pending,
         "pending_total": len(state.pending),
         "findings": outcome.findings,
@@ -243,13 +275,18 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
     }
 
 
+def history_of(store: Store, sheet_id: int, document: Any = None) -> list[revisions.Group]:
+    """The sheet's revisions, oldest first, labelled in the scheme its header (of ``document``) asks for."""
+    return revisions.group(store.marks(sheet_id), revisions.scheme_of(document))
+
+
 def issue_labels(store: Store, rev: Revision, header: dict) -> dict:
-    """The record's revision label of ``rev`` (A, B… or 0, 1…), and the label the next edit starts
-    when ``rev`` is signed: signing freezes a revision, and later edits begin the next one."""
-    scheme = header.get("revision_scheme") if header.get("revision_scheme") in ("letters", "numbers") else "letters"
-    index = store.frozen_before(rev.sheet_id, rev.number)
-    return {"label": calc_record.revision_label(index, scheme), "frozen": rev.frozen,
-            "next": calc_record.revision_label(index + 1, scheme)}
+    """How ``rev`` is named (A.3, or B once signed), and the label the next edit starts when ``rev`` is
+    signed: signing freezes a revision, and later edits begin the next one. ``labels`` names every save."""
+    groups = history_of(store, rev.sheet_id, {"header": header})
+    return {"label": revisions.save_label(groups, rev.number), "frozen": rev.frozen,
+            "next": revisions.next_label(groups, revisions.scheme_of({"header": header})),
+            "labels": {m.number: revisions.save_label(groups, m.number) for g in groups for m in g.saves}}
 
 
 def page_extras(request: Request, sheet_id: int) -> dict:
@@ -279,7 +316,7 @@ def view_urls(request: Request, token: str) -> list[str]:
 
 def sheet_page(request: Request, sheet_id: int) -> Response:
     latest = _store(request).latest(sheet_id)
-    doc = latest.document
+    doc = calc_sheet.ensure_ids(latest.document)  # the form carries each element's id from its first edit on
     parsed = calc_sheet.parse(doc)
     state = SheetState(latest, doc, parsed.errors, doc, parsed)
     context = sheet_context(request, state)
@@ -302,7 +339,7 @@ async def _form(request: Request) -> dict[str, str]:
         if isinstance(value, str) and len(key) <= 200:
             # The document copy and a pasted table may be long (the body limit bounds them, and the
             # paste reader refuses a long one with a message); a typed value may not.
-            out[key] = value if key in ("doc", "paste") else value[: editing.MAX_FIELD_LENGTH]
+            out[key] = value if key in ("doc", "paste", "undo_item") else value[: editing.MAX_FIELD_LENGTH]
     return out
 
 
@@ -316,6 +353,8 @@ def _note(edit: edits.Edit, action: str | None, stored: dict) -> str:
             words.append(("imported a file into " if verb == "import" else "pasted rows into ") + where)
         elif verb == "restore":
             words.append("entries restored from this browser after a reload")
+        elif verb == "undo":
+            words.append("undid a removal: put back " + describe(edit.keep, target))
         elif verb == "add" and target.startswith("elements:"):
             words.append("added a " + editing.ELEMENT_NAMES.get(target.split(":", 1)[1], "element"))
         elif verb == "add":
@@ -330,22 +369,25 @@ def _note(edit: edits.Edit, action: str | None, stored: dict) -> str:
     return "; ".join(words) or "saved from the sheet form"
 
 
-def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: str = "") -> SheetState:
+def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: str = "",
+                editor: str = "") -> SheetState:
     store = _store(request)
     latest = store.latest(sheet_id)
-    stored = latest.document
+    # Every element the form saves has its stable id; a sheet stored without ids gets them by order.
+    stored = calc_sheet.ensure_ids(latest.document)
     try:
         base = int(form.get("base", ""))
     except ValueError:
         base = None
     action = form.get("action") or None
     fields = {k: v for k, v in form.items() if editing.split_path(k) is not None}
-    drawn_from = edits.form_document(form.get("doc"), stored)
+    drawn_from = calc_sheet.ensure_ids(edits.form_document(form.get("doc"), stored))
     restored_note = None
     if action == "restore" and base is not None and 0 < base < latest.number:
         # What this browser kept of a page reloaded after the sheet moved on: its entries go onto the
         # latest revision when they touch nothing changed since, else the conflict says what differs.
-        moved_on = _restore_onto(store.revision(sheet_id, base).document, stored, drawn_from, fields)
+        moved_on = _restore_onto(calc_sheet.ensure_ids(store.revision(sheet_id, base).document), stored,
+                                 drawn_from, fields)
         if moved_on is not None:
             fields, drawn_from, base = moved_on, copy.deepcopy(stored), latest.number
             restored_note = (f"Restored what was typed in this browser before the page was reloaded, onto "
@@ -354,7 +396,7 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
         # Someone else (another tab, a script) saved first: show what was typed, store nothing.
         base_doc = stored
         if base is not None and 0 < base < latest.number:
-            base_doc = store.revision(sheet_id, base).document
+            base_doc = calc_sheet.ensure_ids(store.revision(sheet_id, base).document)
         refused = StaleRevision(sheet_id, base, latest)
         typed = copy.deepcopy(drawn_from)
         for path, text in fields.items():
@@ -364,11 +406,15 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
         return SheetState(latest, typed, calc_sheet.parse(typed).errors, base_doc, stale=True,
                           conflict=conflict, message=conflict.message)
     edit = edits.edit(stored, drawn_from, fields, action, paste_text=form.get("paste", ""),
-                        units=placeholder_units)
+                        units=placeholder_units, undo_item=form.get("undo_item", ""),
+                        undo_check=form.get("undo_check", ""))
+    calc_sheet.ensure_ids(edit.keep)  # an element added (or copied) gets its id as it is stored
+    calc_sheet.ensure_ids(edit.display)
     saved = False
     if edit.keep != stored:
         try:
-            latest, saved = store.add_revision(sheet_id, edit.keep, base, author, _note(edit, action, stored))
+            latest, saved = store.add_revision(sheet_id, edit.keep, base, author, _note(edit, action, stored),
+                                               editor=editor if action != "restore" else "")
         except StaleRevision as refused:  # lost a race with another writer between read and write
             conflict = conflict_view(store, refused, stored, edit.display)
             return SheetState(refused.current, edit.display, edit.errors, stored, stale=True,
@@ -384,7 +430,7 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
             note = "Restored and saved what was typed in this browser before the page was reloaded."
     return SheetState(latest, edit.display, edit.errors, edit.keep, edit.keep_parsed, stale=edit.stale,
                       focus=edit.focus, message=edit.message, saved=saved, relayout=edit.switched,
-                      pending=pending, note=note)
+                      pending=pending, note=note, undo=edit.undo)
 
 
 def placeholder_units(doc: dict) -> dict[str, str]:
@@ -422,10 +468,14 @@ async def sheet_edit(request: Request, sheet_id: int) -> Response:
     form = await _form(request)
     shown_before = {p for p in form.get("shown_errors", "").split(",") if p}
     author = clean_author(form["author"]) if "author" in form else author_of(request)
-    state = await run_in_threadpool(_apply_edit, request, sheet_id, form, author)
-    status = 409 if state.conflict else (422 if state.errors else 200)
+    editor, new_token = editor_of(request)
+    state = await run_in_threadpool(_apply_edit, request, sheet_id, form, author, editor)
+    # Refused (422): a value typed that does not parse, or an entry not stored (a stored value emptied). A
+    # sheet that only lacks values nobody has given yet is not refused: it asks for them.
+    refused = state.pending or any(not calc_sheet.is_request(e) for e in state.errors)
+    status = 409 if state.conflict else (422 if refused else 200)
     if not _is_htmx(request):
-        if status == 200 and not state.message:
+        if status == 200 and not state.message and not state.undo:
             response = _redirect(request, "sheet", sheet_id=sheet_id,
                                  fragment=("f-" + state.focus.replace(".", "-")) if state.focus else "")
         else:
@@ -433,6 +483,7 @@ async def sheet_edit(request: Request, sheet_id: int) -> Response:
     else:
         response = await run_in_threadpool(_edit_fragment, request, state, shown_before, status)
     remember_author(request, response, author)
+    remember_editor(request, response, new_token)
     return response
 
 
@@ -454,12 +505,18 @@ def _edit_fragment(request: Request, state: SheetState, shown_before: set[str], 
 
 def history(request: Request, sheet_id: int) -> Response:
     store = _store(request)
-    revisions = store.revisions(sheet_id)
-    header = revisions[0].document.get("header") if revisions and isinstance(revisions[0].document, dict) else {}
-    header = header if isinstance(header, dict) else {}
-    labels = {r.number: issue_labels(store, r, header)["label"] for r in revisions}
-    return _render(request, "history.html", {"sheet": store.sheet(sheet_id), "revisions": revisions,
-                                             "labels": labels, "readonly": viewer(request) is not None})
+    latest = store.latest(sheet_id)
+    groups = history_of(store, sheet_id, latest.document)
+    rows = []
+    for i, g in enumerate(groups):
+        notes, more = g.notes()
+        rows.append({"group": g, "notes": notes, "more_notes": more,
+                     "previous": groups[i - 1] if i else None,
+                     "authors": list(dict.fromkeys(m.author for m in g.saves if m.author))})
+    rows.reverse()
+    return _render(request, "history.html", {"sheet": store.sheet(sheet_id), "rows": rows, "latest": latest,
+                                             "pause_minutes": round(revisions.PAUSE / 60),
+                                             "readonly": viewer(request) is not None})
 
 
 def revision_page(request: Request, sheet_id: int, number: int) -> Response:
@@ -469,6 +526,7 @@ def revision_page(request: Request, sheet_id: int, number: int) -> Response:
     parsed = calc_sheet.parse(doc)
     context = sheet_context(request, SheetState(rev, doc, parsed.errors, doc, parsed))
     context.update({"shown": rev, "current": store.latest(sheet_id), "readonly": True,
+                    "labels": context["issue"]["labels"],
                     "viewer": viewer(request) is not None, "form": FormView(doc, parsed.errors, readonly=True)})
     return _render(request, "revision.html", context)
 
@@ -486,7 +544,8 @@ def _restore(request: Request, sheet_id: int, number: int, base: int | None) -> 
     store = _store(request)
     old = store.revision(sheet_id, number)
     try:
-        store.add_revision(sheet_id, old.document, base, author_of(request), f"restored revision {number}")
+        said = revisions.save_label(history_of(store, sheet_id, old.document), number)
+        store.add_revision(sheet_id, old.document, base, author_of(request), f"restored revision {said}")
     except StaleRevision as conflict:
         return _error(request, 409, "Conflict", str(conflict))
     return _redirect(request, "sheet", sheet_id=sheet_id)

@@ -13,7 +13,7 @@ from typing import Any
 
 from calc import tables
 from calc.model import sheet as calc_sheet
-from calc.units import FLOW, LENGTH, RATIO, InputError, parse_quantity, unit_allowed, unit_text
+from calc.units import FLOW, LENGTH, RATIO, InputError, in_system, parse_quantity, unit_allowed, unit_text
 from server.editing import MAX_FIELD_LENGTH, ActionResult, get_path, is_bare_number, split_path, with_unit
 
 # -- pasted tables ------------------------------------------------------------------------------
@@ -105,7 +105,7 @@ def _unit_like(cell: str) -> bool:
     return bare in ("%", "-") or (bool(bare) and unit_allowed(unit_text(bare)))
 
 
-def _column_unit(column: Column, unit: str | None, header: str) -> str | None:
+def _column_unit(column: Column, unit: str | None, header: str, system: str = "SI") -> str | None:
     """The unit a header gives its column's bare numbers (None: none); a unit of the wrong kind is refused."""
     if unit is None or isinstance(column.kind, str):
         return None
@@ -121,7 +121,7 @@ def _column_unit(column: Column, unit: str | None, header: str) -> str | None:
     except InputError:
         raise PasteRefused(f"The column '{header}' gives '{unit}' as its unit, which is not a unit of "
                            f"{column.kind.name} ({column.label}); write the unit alone in brackets, e.g. "
-                           f"{column.label.capitalize()} ({column.kind.suggested[0]}).") from None
+                           f"{column.label.capitalize()} ({in_system(column.kind, system).suggested[0]}).") from None
     return unit
 
 
@@ -202,7 +202,8 @@ def _cells(text: str) -> tuple[list[list[str]], str]:
 
 
 def read_table(text: str, columns: tuple[Column, ...], start: str | None = None,
-               positional: tuple[str, ...] | None = None, max_rows: int = calc_sheet.MAX_POINTS) -> PastedTable:
+               positional: tuple[str, ...] | None = None, max_rows: int = calc_sheet.MAX_POINTS,
+               system: str = "SI") -> PastedTable:
     """Rows of pasted text for a table with ``columns``.
 
     A first row without numbers that names columns is a header: each column goes where its name says,
@@ -254,7 +255,7 @@ def read_table(text: str, columns: tuple[Column, ...], start: str | None = None,
                     left_out.append(cell)
                 continue
             seen.add(column.key)
-            layout.append((column, _column_unit(column, unit, cell)))
+            layout.append((column, _column_unit(column, unit, cell, system)))
         if left_out:
             notes.append("left out the column" + ("s " if len(left_out) > 1 else " ")
                          + ", ".join(f"'{c}'" for c in left_out) + " (not a column of this table)")
@@ -372,7 +373,9 @@ def paste(doc: dict, target: str, text: str, replace: bool = False) -> ActionRes
     row = min(row, len(items))
     kind_key = f"{element.get('kind')}.{key}"
     try:
-        table = read_table(text or "", columns, start, _POSITIONAL.get(kind_key), _LIST_LIMITS[key])
+        header = doc.get("header") if isinstance(doc.get("header"), dict) else {}
+        system = "US" if header.get("units") == "US" else "SI"  # the units a message suggests
+        table = read_table(text or "", columns, start, _POSITIONAL.get(kind_key), _LIST_LIMITS[key], system)
     except PasteRefused as refused:
         return ActionResult(doc, message=f"Nothing pasted: {refused}")
     notes = _fitting_rows(table) + table.notes if key == "fittings" else table.notes

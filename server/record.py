@@ -19,7 +19,7 @@ from starlette.concurrency import run_in_threadpool
 from calc import record as calc_record
 from calc.analysis import Analysis, analyse
 from calc.record import fingerprint as fp
-from server import accounts, pdf, web
+from server import accounts, pdf, revisions, web
 from server.accounts import AccountRefused, Accounts
 from server.store import Revision, SheetNotFound, SignOffRefused, Store
 
@@ -92,11 +92,13 @@ def build_record(request: Request, rev: Revision, remember: bool = True) -> tupl
     """The record of a stored revision, with its label, signatures and verify address; notes its fingerprint."""
     store = _store(request)
     analysis = _analysis(rev.document_json)
-    index, _ = _label(store, rev)
+    index, scheme = _label(store, rev)
+    groups = revisions.group(store.marks(rev.sheet_id), scheme)
     version = fp.program_version()
     fprint = fp.fingerprint(analysis, version)
     meta = calc_record.Meta(
-        sheet_id=rev.sheet_id, store_revision=rev.number, label_index=index, created=rev.created,
+        sheet_id=rev.sheet_id, store_revision=rev.number, label_index=index,
+        label=revisions.save_label(groups, rev.number), created=rev.created,
         printed=_now(), frozen=rev.frozen, signatures=_with_versions(store, rev),
         verify_url=verify_address(request, fprint),
     )
@@ -115,7 +117,7 @@ def record_context(request: Request, sheet_id: int, number: int, *, for_pdf: boo
     summary = store.sheet(sheet_id)
     rec, analysis = build_record(request, rev)
     scheme = rec.header["revision_scheme"]
-    next_label = calc_record.revision_label(store.frozen_before(sheet_id, number) + 1, scheme)
+    next_label = revisions.label(store.frozen_before(sheet_id, number) + 1, 1, scheme)
     signed_roles = [s.role for s in rec.signoff if s.done]
     link = link_of(request)
     reviewer = store.account_by_id(link.account_id) if link and link.account_id is not None else None
@@ -464,27 +466,35 @@ async def verify_one(request: Request, fingerprint: str) -> Response:
 # -- compare --------------------------------------------------------------------------------------
 
 def compare(request: Request, sheet_id: int, a: int | None, b: int | None) -> dict:
+    """Two saves side by side: by default the latest revision against the last signed one before it
+    (or the revision before it). The choices are the revisions as the history lists them."""
     store = _store(request)
-    revisions = store.revisions(sheet_id)  # newest first
-    numbers = [r.number for r in revisions]
+    latest = store.latest(sheet_id)
+    groups = revisions.group(store.marks(sheet_id), revisions.scheme_of(latest.document))
+    numbers = {m.number for g in groups for m in g.saves}
     if b is None or b not in numbers:
-        b = numbers[0]
+        b = latest.number
     if a is None or a not in numbers:
-        frozen = [r.number for r in revisions if r.frozen and r.number < b]
-        a = frozen[0] if frozen else max([n for n in numbers if n < b], default=b)
+        before = [g for g in groups if g.number < b]
+        signed = [g for g in before if g.frozen]
+        a = (signed or before or groups)[-1].number
     rev_a, rev_b = store.revision(sheet_id, a), store.revision(sheet_id, b)
     an_a, an_b = _analysis(rev_a.document_json), _analysis(rev_b.document_json)
     doc_b = rev_b.document
     header = doc_b.get("header") if isinstance(doc_b.get("header"), dict) else {}
     system = header.get("units") if header.get("units") in ("SI", "US") else "SI"
-    labels = {}
-    for r in revisions:
-        index, scheme = _label(store, r)
-        labels[r.number] = calc_record.revision_label(index, scheme)
+    choices = list(reversed(groups))
+    for n in (a, b):  # a save inside a revision (from an address) is offered as itself
+        if n not in {g.number for g in choices}:
+            found = revisions.find(groups, n)
+            if found:
+                choices.append(revisions.Group([m for m in found[0].saves if m.number == n],
+                                               revisions.save_label(groups, n)))
     return {
         "sheet": store.sheet(sheet_id),
-        "revisions": revisions,
-        "labels": labels,
+        "choices": choices,
+        "label_a": revisions.save_label(groups, a),
+        "label_b": revisions.save_label(groups, b),
         "a": rev_a,
         "b": rev_b,
         "changes": calc_record.input_changes(rev_a.document, doc_b),

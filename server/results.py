@@ -64,6 +64,12 @@ def solve_parsed(parsed: Any) -> Outcome:
                                "The sheet is saved; please report this sheet to the developers.")
 
 
+def needed_values(outcome: Outcome) -> list:
+    """The values the solved document lacks (calc.model.sheet.Missing, each naming its field): the line
+    cannot be solved until they are given, and the panel lists them, each a link to its field."""
+    return [e for e in outcome.errors if calc_sheet.is_request(e)]
+
+
 class SolveCache:
     """Solutions by document digest: a reload or a rejected edit re-shows a solution without re-solving."""
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import json
 import os
@@ -15,6 +16,7 @@ from pathlib import Path
 from typing import Any, Iterator
 
 # Account is re-exported: the account rows live in their own module.
+from server import revisions
 from server.store_accounts import _ACCOUNTS_SCHEMA, Account, AccountRows  # noqa: F401
 
 DB_NAME = "headsheet.sqlite"
@@ -86,6 +88,7 @@ class Revision:
     note: str
     base: int | None
     frozen: bool
+    joins: bool = False  # continues the revision of the save before it (server.revisions); read for exports
 
     @property
     def document(self) -> dict:
@@ -290,6 +293,16 @@ class Store(AccountRows):
             raise SheetNotFound(sheet_id)
         return [_revision(r) for r in rows]
 
+    def marks(self, sheet_id: int) -> list[revisions.Mark]:
+        """What the history needs of every save of a sheet, oldest first, without the documents."""
+        _valid_id(sheet_id)
+        with self._connect() as con:
+            rows = con.execute("SELECT number, created, author, note, frozen, joins FROM revisions "
+                               "WHERE sheet_id = ? ORDER BY number", (sheet_id,)).fetchall()
+        if not rows:
+            raise SheetNotFound(sheet_id)
+        return [revisions.Mark(n, c, a, nt, bool(f), bool(j)) for n, c, a, nt, f, j in rows]
+
     def revisions_since(self, sheet_id: int, number: int, limit: int = 20) -> tuple[list[Revision], int]:
         """Revisions after ``number``, newest first (at most ``limit``), and how many there are in all."""
         _valid_id(sheet_id)
@@ -317,12 +330,19 @@ class Store(AccountRows):
         return Revision(sheet_id, 1, text, digest_of(text), now, author, note, None, False)
 
     def add_revision(
-        self, sheet_id: int, document: dict, base: int | None, author: str = "", note: str = ""
+        self, sheet_id: int, document: dict, base: int | None, author: str = "", note: str = "",
+        editor: str = "",
     ) -> tuple[Revision, bool]:
         """Append a revision based on revision ``base``; returns (latest revision, whether one was added).
 
         Raises StaleRevision when ``base`` is not the latest revision. A document equal to the
         latest one adds nothing, so repeated posts of the same form do not pad the history.
+
+        Every save is kept (nothing acknowledged is lost), but a save from the sheet form by the same
+        ``editor`` (an opaque key of one person in one browser) and the same author, within
+        ``revisions.PAUSE`` seconds of the last save, which is not signed, continues that save's
+        revision (``joins``): the history shows a burst of typing as one revision. An empty
+        ``editor`` (the API, a restore, an import) always starts a revision of its own.
         """
         _valid_id(sheet_id)
         text = dump_document(document)
@@ -341,9 +361,15 @@ class Store(AccountRows):
                 return current, False
             now = _now()
             number = current.number + 1
+            joins = 0
+            if editor and not current.frozen:
+                last_editor = con.execute("SELECT editor FROM revisions WHERE sheet_id = ? AND number = ?",
+                                          (sheet_id, current.number)).fetchone()[0]
+                joins = int(last_editor == editor and current.author == author
+                            and revisions.continues(current.created, now))
             con.execute(
-                f"INSERT INTO revisions ({_REVISION_COLUMNS}) VALUES (?, ?, ?, ?, ?, ?, ?, ?, 0)",
-                (sheet_id, number, text, digest, now, author, note, base),
+                f"INSERT INTO revisions ({_REVISION_COLUMNS}, joins, editor) VALUES (?, ?, ?, ?, ?, ?, ?, ?, 0, ?, ?)",
+                (sheet_id, number, text, digest, now, author, note, base, joins, editor),
             )
         return Revision(sheet_id, number, text, digest, now, author, note, base, False), True
 
@@ -523,7 +549,7 @@ class Store(AccountRows):
             con.execute("BEGIN")
             try:
                 sheet = con.execute("SELECT id, created, archived FROM sheets WHERE id = ?", (sheet_id,)).fetchone()
-                revisions = con.execute(f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? "
+                revisions = con.execute(f"SELECT {_REVISION_COLUMNS}, joins FROM revisions WHERE sheet_id = ? "
                                         "ORDER BY number", (sheet_id,)).fetchall()
                 signatures = con.execute(
                     f"SELECT number, {_SIGNATURE_COLUMNS} FROM signatures WHERE sheet_id = ? "
@@ -534,7 +560,7 @@ class Store(AccountRows):
         if sheet is None or not revisions:
             raise SheetNotFound(sheet_id)
         return {"sheet": {"id": sheet[0], "created": sheet[1], "archived": bool(sheet[2])},
-                "revisions": [_revision(r) for r in revisions],
+                "revisions": [dataclasses.replace(_revision(r[:-1]), joins=bool(r[-1])) for r in revisions],
                 "signatures": [{"number": s[0], **_signature(s[1:])} for s in signatures]}
 
     def import_rows(self, created: str, revisions: list[Revision], signatures: list[dict], origin: dict) -> int:
@@ -546,9 +572,9 @@ class Store(AccountRows):
         with self._write() as con:
             sheet_id = con.execute("INSERT INTO sheets (created) VALUES (?)", (created,)).lastrowid
             con.executemany(
-                f"INSERT INTO revisions ({_REVISION_COLUMNS}) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                f"INSERT INTO revisions ({_REVISION_COLUMNS}, joins) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
                 [(sheet_id, r.number, r.document_json, r.digest, r.created, r.author, r.note, r.base,
-                  1 if r.frozen else 0) for r in revisions])
+                  1 if r.frozen else 0, 1 if r.joins else 0) for r in revisions])
             # An imported signature was not made here: it keeps the file's words and says where it came
             # from (``origin``), and it names no account of this server.
             con.executemany(
@@ -653,12 +679,16 @@ def _add_columns(con: sqlite3.Connection) -> None:
     """Bring a store made by an earlier version up to this one's columns (added, never rewritten)."""
     wanted = {"signatures": [("account_id", "INTEGER"), ("login", "TEXT"), ("initials", "TEXT"),
                              ("identified", "TEXT"), ("version", "TEXT"), ("origin", "TEXT")],
-              "view_links": [("account_id", "INTEGER"), ("role", "TEXT")]}
+              "view_links": [("account_id", "INTEGER"), ("role", "TEXT")],
+              "revisions": [("joins", "INTEGER NOT NULL DEFAULT 0"), ("editor", "TEXT NOT NULL DEFAULT ''")]}
     for table, columns in wanted.items():
         have = {r[1] for r in con.execute(f"PRAGMA table_info({table})")}
         for name, kind in columns:
             if name not in have:
                 con.execute(f"ALTER TABLE {table} ADD COLUMN {name} {kind}")
+    # Which revision a save belongs to is decided once, when it is stored, and never rewritten.
+    con.execute("CREATE TRIGGER IF NOT EXISTS revisions_grouping_fixed BEFORE UPDATE OF joins, editor ON revisions "
+                "BEGIN SELECT RAISE(ABORT, 'revisions are append-only'); END")
 
 
 def _same_person(a: str, b: str) -> bool:

@@ -5,13 +5,16 @@ The file is our own format (``headsheet-sheet-export``, version 1)::
     {"format": "headsheet-sheet-export", "version": 1, "exported": "<UTC time>", "program": "<version>",
      "sheet": {"id": 7, "created": "...", "archived": false},
      "revisions": [{"number": 1, "created": "...", "author": "", "note": "...", "base": null,
-                    "frozen": false, "digest": "<SHA-256 of the stored document text>", "document": {...}}, ...],
+                    "frozen": false, "joins": false, "digest": "<SHA-256 of the stored document text>",
+                    "document": {...}}, ...],
      "signatures": [{"number": 3, "role": "preparer", "name": "...", "comment": "", "signed": "...",
                      "fingerprint": "..."}, ...],
      "checksum": "sha256:<hex>"}
 
 ``checksum`` is the SHA-256 of the rest of the object written as canonical JSON (keys sorted,
-no spaces, UTF-8), so a file altered by hand or cut short is refused. Each revision's
+no spaces, UTF-8), so a file altered by hand or cut short is refused. ``joins`` (optional, false when
+absent) says a save continues the revision of the save before it, so the history groups and labels
+its revisions as the exporting installation did (server.revisions). Each revision's
 ``digest`` is checked against its document too. Importing always makes a new sheet.
 
 A checksum shows only that a file is whole: anyone can recompute one. So each installation also
@@ -117,7 +120,8 @@ def export_sheet(store: Store, sheet_id: int) -> dict:
         "program": _program(),
         "sheet": rows["sheet"],
         "revisions": [{"number": r.number, "created": r.created, "author": r.author, "note": r.note, "base": r.base,
-                       "frozen": r.frozen, "digest": r.digest, "document": json.loads(r.document_json)}
+                       "frozen": r.frozen, "joins": r.joins, "digest": r.digest,
+                       "document": json.loads(r.document_json)}
                       for r in rows["revisions"]],
         "signatures": rows["signatures"],
     }
@@ -200,6 +204,9 @@ def check_export(data: dict) -> tuple[str, list[Revision], list[dict], dict]:
         frozen = r.get("frozen")
         if not isinstance(frozen, bool):
             raise ImportRefused(f"{where}: 'frozen' must be true or false.")
+        joins = r.get("joins", False)  # absent in files from before revisions grouped saves
+        if not isinstance(joins, bool):
+            raise ImportRefused(f"{where}: 'joins' must be true or false.")
         document = r.get("document")
         if not isinstance(document, dict):
             raise ImportRefused(f"{where}: 'document' must be a sheet document (an object).")
@@ -216,7 +223,7 @@ def check_export(data: dict) -> tuple[str, list[Revision], list[dict], dict]:
         if digest_of(text) != r.get("digest"):
             raise ImportRefused(f"{where}: the document does not match its digest.")
         out.append(Revision(0, number, text, digest_of(text), _text(r, "created", where), _text(r, "author", where),
-                            _text(r, "note", where), base, frozen))
+                            _text(r, "note", where), base, frozen, joins and number > 1))
     signatures = data.get("signatures", [])
     if not isinstance(signatures, list):
         raise ImportRefused("'signatures' must be a list.")

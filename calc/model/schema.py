@@ -32,9 +32,11 @@ def _group(properties: dict, **extra) -> dict:
 
 
 _LABEL = {"type": ["string", "null"], "maxLength": MAX_LABEL}
+_ID = {"type": ["string", "null"], "pattern": "^([a-z][a-z0-9-]{0,39})?$",
+       "description": "the element's stable id, kept when it moves (given by the program when absent)"}
 _ELEMENTS = {
     "pipe": _group({
-        "kind": {"const": "pipe"}, "label": _LABEL, "length": _q("a length"), "diameter": _q("a length"),
+        "kind": {"const": "pipe"}, "id": _ID, "label": _LABEL, "length": _q("a length"), "diameter": _q("a length"),
         "size": {"anyOf": [{"type": "null"}, {"$ref": "#/$defs/size"}]}, "material": {"type": ["string", "null"]},
         "condition": {"enum": ["new", "aged", "", None]}, "roughness": _q("a length"),
         "wall_thickness": _q("a length"), "end_elevation": _q("a length"), "rating": _q("a gauge pressure"),
@@ -42,14 +44,14 @@ _ELEMENTS = {
         "profile": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/profile_point"}},
         "fittings": {"type": ["array", "null"], "maxItems": MAX_FITTINGS, "items": {"$ref": "#/$defs/fitting"}}}),
     "turbine": _group({
-        "kind": {"const": "turbine"}, "label": _LABEL, "mode": {"enum": ["power", "head", "curve", "", None]},
+        "kind": {"const": "turbine"}, "id": _ID, "label": _LABEL, "mode": {"enum": ["power", "head", "curve", "", None]},
         "power": _q("a power"), "efficiency": _RATIO, "head": _q("a length"),
         "curve": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/curve_point"}}}),
     "pump": _group({
-        "kind": {"const": "pump"}, "label": _LABEL, "mode": {"enum": ["curve", "head", "", None]},
+        "kind": {"const": "pump"}, "id": _ID, "label": _LABEL, "mode": {"enum": ["curve", "head", "", None]},
         "speed_ratio": _RATIO, "efficiency": _RATIO, "head": _q("a length"),
         "curve": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/curve_point"}}}),
-    "valve": _group({"kind": {"const": "valve"}, "label": _LABEL, "K": _RATIO, "diameter": _q("a length")}),
+    "valve": _group({"kind": {"const": "valve"}, "id": _ID, "label": _LABEL, "K": _RATIO, "diameter": _q("a length")}),
 }
 
 SCHEMA = {

@@ -53,6 +53,23 @@ class CheckSettings:
         "surge_closure_time": SRC_PRACTICE + " (screening takes a stop at once, the worst case; give the valve's closure time)",
     }
 
+    #: Where each default comes from in a few words, for the hint beside each limit on the form
+    #: (``SOURCES`` says it in full).
+    SHORT_SOURCES = {
+        "velocity_max": "common practice",
+        "velocity_max_suction": "common practice",
+        "velocity_min": "common practice",
+        "npsh_margin_ratio": "ANSI/HI 9.6.1",
+        "npsh_margin_min": "ANSI/HI 9.6.1",
+        "bep_low": "ANSI/HI 9.6.3, from memory",
+        "bep_high": "ANSI/HI 9.6.3, from memory",
+        "k_uncertainty": "common practice",
+        "roughness_low": "the material table",
+        "roughness_high": "the material table (Idelchik 2007 and others)",
+        "surge_allowance": "EN 805, from memory",
+        "surge_closure_time": "common practice: the worst case",
+    }
+
     def source(self, name: str) -> str:
         return "set on the sheet" if name in self.given else self.SOURCES.get(name, "")
 

@@ -8,10 +8,27 @@ from dataclasses import dataclass, field
 from calc import friction, tables
 from calc.model import implied
 from calc.model.elements import Curve, Fitting, Line, Node, PipeRun, Pump, Turbine, Valve
+from calc.model.ids import ensure_ids, id_problem  # noqa: F401  (ensure_ids: the documents the form saves)
 from calc.model.implied import ENTRANCE_KEYS
 from calc.model.settings import CheckSettings
-from calc.units import (DENSITY, FLOW, LENGTH, MODULUS, POWER, PRESSURE, RATIO, SPEED, TEMPERATURE, TIME,
-                        VISCOSITY, InputError, Kind, parse_quantity)
+from calc.units import (
+    DENSITY,
+    FLOW,
+    LENGTH,
+    MODULUS,
+    POWER,
+    PRESSURE,
+    RATIO,
+    SPEED,
+    TEMPERATURE,
+    TIME,
+    VISCOSITY,
+    InputError,
+    Kind,
+    in_system,
+    parse_quantity,
+    to_display,
+)
 from calc.water import custom_liquid, water
 
 FORMAT = "headsheet-sheet"
@@ -32,21 +49,23 @@ HEADER_FIELDS = ("project", "calc_number", "title", "purpose")
 NODE_KINDS = {"start": ("reservoir", "pressure"), "end": ("reservoir", "pressure", "jet")}
 RESTRAINTS = ("anchored", "anchored_upstream", "expansion_joints")
 
+#: A new element, fitting or point carries no invented numbers: every value it needs is empty, and the
+#: parser asks for it (`Missing`). Choices that are not numbers (a material, a mode, a fitting type) start
+#: at a plain first choice; a curve starts with the three empty points a curve needs at least.
+CURVE_POINT_TEMPLATE = {"flow": "", "head": "", "efficiency": "", "npsh_required": ""}
+PROFILE_POINT_TEMPLATE = {"chainage": "", "elevation": ""}
+FITTING_TEMPLATE = {"type": "k", "K": "", "count": 1, "label": ""}
+_EMPTY_CURVE = [dict(CURVE_POINT_TEMPLATE) for _ in range(3)]
 ELEMENT_TEMPLATES = {
-    "pipe": {"kind": "pipe", "label": "Pipe run", "length": "100 m", "diameter": "150 mm",
-             "size": None, "material": "steel-commercial", "roughness": "", "end_elevation": "0 m",
+    "pipe": {"kind": "pipe", "label": "Pipe run", "length": "", "diameter": "", "size": None,
+             "material": "steel-commercial", "condition": "new", "roughness": "", "end_elevation": "",
              "profile": [], "fittings": []},
-    "turbine": {"kind": "turbine", "label": "Turbine", "mode": "power", "power": "10 kW",
-                "efficiency": "0.8", "head": "", "curve": []},
-    "pump": {"kind": "pump", "label": "Pump", "mode": "curve", "speed_ratio": "1", "head": "",
-             "curve": [{"flow": "0 L/s", "head": "40 m", "efficiency": "", "npsh_required": ""},
-                       {"flow": "20 L/s", "head": "36 m", "efficiency": "", "npsh_required": ""},
-                       {"flow": "40 L/s", "head": "25 m", "efficiency": "", "npsh_required": ""}]},
-    "valve": {"kind": "valve", "label": "Valve", "K": "0.2", "diameter": ""},
+    "turbine": {"kind": "turbine", "label": "Turbine", "mode": "power", "power": "", "efficiency": "", "head": "",
+                "curve": copy.deepcopy(_EMPTY_CURVE)},
+    "pump": {"kind": "pump", "label": "Pump", "mode": "curve", "speed_ratio": "", "efficiency": "", "head": "",
+             "curve": copy.deepcopy(_EMPTY_CURVE)},
+    "valve": {"kind": "valve", "label": "Valve", "K": "", "diameter": ""},
 }
-FITTING_TEMPLATE = {"type": "k", "K": "0.5", "count": 1, "label": "Fitting"}
-PROFILE_POINT_TEMPLATE = {"chainage": "0 m", "elevation": "0 m"}
-CURVE_POINT_TEMPLATE = {"flow": "0 L/s", "head": "0 m", "efficiency": "", "npsh_required": ""}
 
 #: Every key a sheet document may hold, by where it sits; the parser refuses any other key
 #: (``calc/model/schema.py`` lists the same keys, ``tests/calc/model/test_unknown_keys.py`` compares them).
@@ -66,11 +85,11 @@ NODE_FIELDS = {"start": ("kind", "elevation", "pressure", "outlet_elevation", "e
 #: The keys of each element kind; a key of another kind is refused with a message naming that kind
 #: (an element's kind never changes on the form, so no element gathers another kind's keys).
 ELEMENT_FIELDS = {
-    "pipe": ("kind", "label", "length", "diameter", "size", "material", "condition", "roughness",
+    "pipe": ("kind", "id", "label", "length", "diameter", "size", "material", "condition", "roughness",
              "wall_thickness", "end_elevation", "rating", "restraint", "profile", "fittings"),
-    "turbine": ("kind", "label", "mode", "power", "efficiency", "head", "curve"),
-    "pump": ("kind", "label", "mode", "speed_ratio", "efficiency", "head", "curve"),
-    "valve": ("kind", "label", "K", "diameter"),
+    "turbine": ("kind", "id", "label", "mode", "power", "efficiency", "head", "curve"),
+    "pump": ("kind", "id", "label", "mode", "speed_ratio", "efficiency", "head", "curve"),
+    "valve": ("kind", "id", "label", "K", "diameter"),
 }
 ELEMENT_NAMES = {"pipe": "a pipe run", "turbine": "a turbine", "pump": "a pump", "valve": "a valve"}
 SIZE_FIELDS = ("standard", "nominal", "class")
@@ -84,22 +103,43 @@ MAX_KEY_SHOWN = 40
 
 
 def blank_sheet() -> dict:
-    """A new, valid sheet: a gravity line between two reservoirs with one pipe run."""
+    """A new sheet with nothing invented: water between two reservoirs through one pipe run, with every
+    value the line needs left empty for the engineer to give (the parser asks for each, `Missing`).
+
+    Only choices are made (SI units, water, Colebrook, reservoirs at both ends, a steel run); a value
+    with a stated default (a surface pressure of 0 for an open tank, the standard atmosphere) is left
+    empty too, and its field says what empty means.
+
+    >>> sorted(e.path for e in parse(blank_sheet()).requests)  # doctest: +NORMALIZE_WHITESPACE
+    ['elements.0.diameter', 'elements.0.end_elevation', 'elements.0.length', 'end.elevation',
+     'liquid.temperature', 'start.elevation']
+    """
     pipe = copy.deepcopy(ELEMENT_TEMPLATES["pipe"])
-    # The pipe enters the receiving tank below its surface: the plainest gravity line.
-    pipe.update({"label": "Main", "length": "500 m", "end_elevation": "78 m",
-                 "fittings": [{"type": "entrance-sharp", "count": 1}, {"type": "exit", "count": 1}]})
+    pipe["label"] = "Pipe run 1"
     return {
         "format": FORMAT, "version": VERSION,
         "header": {"project": "", "calc_number": "", "title": "New sheet", "purpose": "",
                    "revision_scheme": "letters", "units": "SI"},
-        "liquid": {"kind": "water", "temperature": "15 degC"},
-        "site": {"atmospheric_pressure": "101.325 kPa"},
+        "liquid": {"kind": "water", "temperature": ""},
+        "site": {"atmospheric_pressure": ""},
         "settings": {"friction_method": "colebrook"},
-        "start": {"kind": "reservoir", "elevation": "100 m", "pressure": "0 kPa", "outlet_elevation": ""},
-        "end": {"kind": "reservoir", "elevation": "80 m", "pressure": "0 kPa"},
+        "start": {"kind": "reservoir", "elevation": "", "pressure": "", "outlet_elevation": ""},
+        "end": {"kind": "reservoir", "elevation": "", "pressure": ""},
         "elements": [pipe],
     }
+
+
+class Missing(InputError):
+    """A value the line needs and the sheet does not give yet: a request ("give the run's length"), not
+    a mistake. The page asks for it beside its field and the line waits for it; the stored sheet may
+    lack such values, never hold a wrong one (server/edits.py)."""
+
+    request = True
+
+
+def is_request(error: object) -> bool:
+    """Whether a parse error only asks for a value not given yet (`Missing`), rather than refusing one."""
+    return isinstance(error, Missing)
 
 
 @dataclass
@@ -116,12 +156,23 @@ class Parsed:
     def errors_by_path(self) -> dict[str, str]:
         return {e.path: e.message for e in self.errors}
 
+    @property
+    def requests(self) -> list[InputError]:
+        """The values the line needs and the sheet does not give yet (`Missing`)."""
+        return [e for e in self.errors if is_request(e)]
+
+    @property
+    def mistakes(self) -> list[InputError]:
+        """The errors that refuse a value given (everything but the requests)."""
+        return [e for e in self.errors if not is_request(e)]
+
 
 class _Reader:
     """Reads fields out of the document; each failure is recorded and reading goes on."""
 
-    def __init__(self):
+    def __init__(self, system: str = "SI"):
         self.errors: list[InputError] = []
+        self.system = system  # the sheet's unit system (header.units): the examples messages give
         self.unknown_left_out = 0  # unknown keys past MAX_UNKNOWN_REPORTED
         self.unknown_left_out_in: set[str] = set()  # the groups those keys were in
         self._unknown_reported = 0
@@ -129,6 +180,16 @@ class _Reader:
     def fail(self, path, value, message):
         self.errors.append(InputError(path, value, message))
         return None
+
+    def ask(self, path, value, message):
+        """Record a request for a value not given yet (`Missing`)."""
+        self.errors.append(Missing(path, value, message))
+        return None
+
+    def length_text(self, x: float, sig: int = 4) -> str:
+        """A small length (a bore, a roughness) in the sheet's units, for a message: '50 mm', '1.969 in'."""
+        shown, unit = to_display(x, "diameter", self.system)
+        return f"{shown:.{sig}g} {unit}"
 
     def known(self, d: dict, path: str, fields, what: str, elsewhere: dict | None = None):
         """Refuse every key of ``d`` not in ``fields``: ``what`` names the group in the message
@@ -183,11 +244,13 @@ class _Reader:
         return v
 
     def qty(self, d, key, path, kind: Kind, *, required=True, default=None, lo=None, lo_open=False,
-            hi=None, hi_open=False, what=None):
+            hi=None, hi_open=False, what=None, ask=None):
+        """A quantity field as an SI float; a required one left empty is asked for (``ask``, else 'give ``what``')."""
         v = d.get(key)
+        kind = in_system(kind, self.system)
         if self.blank(v):
             if required:
-                return self.fail(path, v, f"is empty: enter {kind.name}, e.g. {kind.example}")
+                return self.ask(path, v, ask or f"give {what or kind.name}")
             return default
         try:
             x = parse_quantity(v, kind, path)
@@ -237,11 +300,18 @@ class _Reader:
 def parse(doc: object) -> Parsed:
     """Check a sheet document and build its Line; never raises on bad input.
 
-    >>> parsed = parse(blank_sheet())
+    A value the line needs and the sheet leaves empty is asked for (`Missing`, in ``requests``):
+
+    >>> parse(blank_sheet()).requests[0].message
+    "give the water's temperature"
+    >>> doc = blank_sheet(); pipe = doc["elements"][0]
+    >>> doc["liquid"]["temperature"], doc["start"]["elevation"], doc["end"]["elevation"] = "15 degC", "100 m", "80 m"
+    >>> pipe.update(length="500 m", diameter="150 mm", end_elevation="78 m")
+    >>> parsed = parse(doc)
     >>> parsed.ok, len(parsed.line.elements)
     (True, 1)
-    >>> bad = blank_sheet(); bad["elements"][0]["length"] = "-5 m"
-    >>> parse(bad).errors_by_path()
+    >>> pipe["length"] = "-5 m"
+    >>> parse(doc).errors_by_path()
     {'elements.0.length': 'the length must be positive'}
     """
     r = _Reader()
@@ -260,6 +330,7 @@ def parse(doc: object) -> Parsed:
     hdr["revision_scheme"] = r.choice(header, "revision_scheme", "header.revision_scheme",
                                       ("letters", "numbers"), "letters")
     hdr["units"] = r.choice(header, "units", "header.units", ("SI", "US"), "SI")
+    r.system = hdr["units"] or "SI"
 
     liquid_doc = r.obj(doc, "liquid", "liquid")
     r.known(liquid_doc, "liquid", LIQUID_FIELDS, "the liquid")
@@ -289,6 +360,8 @@ def parse(doc: object) -> Parsed:
     elements = []
     z = start.pipe_elevation if start else None
     last_D = None
+    pipe_before = False  # a pipe run comes before, whole or not: a valve takes its bore once it is given
+    ids: dict[str, int] = {}
     for i, e in enumerate(raw):
         path = f"elements.{i}"
         if not isinstance(e, dict):
@@ -296,16 +369,17 @@ def parse(doc: object) -> Parsed:
             continue
         kind = e.get("kind")
         _known_element_keys(r, e, path, kind)
+        _element_id(r, e, path, ids)
         if kind == "pipe":
             el = _pipe(r, e, path)
-            if el is not None:
-                last_D = el.D
+            pipe_before = True
+            last_D = el.D if el is not None else None
         elif kind == "turbine":
             el = _turbine(r, e, path)
         elif kind == "pump":
             el = _pump(r, e, path)
         elif kind == "valve":
-            el = _valve(r, e, path, last_D)
+            el = _valve(r, e, path, last_D, pipe_before)
         else:
             el = r.fail(f"{path}.kind", kind, "must be one of: pipe, turbine, pump, valve")
         elements.append(el)
@@ -313,13 +387,14 @@ def parse(doc: object) -> Parsed:
         r.fail("elements", [], "add at least one pipe run")
     elif raw and not any(isinstance(e, dict) and e.get("kind") == "pipe" for e in raw):
         r.fail("elements", "no pipe run", "a line needs at least one pipe run")
-    if end is not None and end.kind == "jet" and elements and not isinstance(elements[-1], (PipeRun, Valve)):
+    last_kind = raw[-1].get("kind") if raw and isinstance(raw[-1], dict) else None
+    if end is not None and end.kind == "jet" and raw and last_kind not in ("pipe", "valve"):
         r.fail("end.kind", "jet", "a free jet must follow a pipe run or a valve")
     elif end is not None and end.kind == "jet" and end.nozzle_diameter and elements and elements[-1] is not None:
         bore = elements[-1].D
         if end.nozzle_diameter > bore:
             r.fail("end.nozzle_diameter", (doc.get("end") or {}).get("nozzle_diameter"),
-                   f"is larger than the bore it is fitted to ({bore * 1e3:.4g} mm): a nozzle narrows the flow; "
+                   f"is larger than the bore it is fitted to ({r.length_text(bore)}): a nozzle narrows the flow; "
                    "leave it empty for a jet from the open pipe end")
     del z
     r.report_unknown_left_out()
@@ -328,6 +403,17 @@ def parse(doc: object) -> Parsed:
     line = Line(start=start, end=end, elements=elements, liquid=liquid, method=method, p_atm=p_atm,
                 header=hdr, settings={**settings, "checks": check_settings})
     return Parsed(implied.complete(line), [])
+
+
+def _element_id(r: _Reader, e: dict, path: str, ids: dict[str, int]) -> None:
+    """An element's stable id (``pipe-2``): optional (``ensure_ids`` gives one), unique in the sheet."""
+    if "id" not in e or e["id"] in ("", None):
+        return
+    problem = id_problem(e["id"], ids)
+    if problem:
+        r.fail(f"{path}.id", e["id"], problem)
+    else:
+        ids[e["id"]] = int(path.rsplit(".", 1)[1])
 
 
 def _known_element_keys(r: _Reader, e: dict, path: str, kind):
@@ -412,18 +498,18 @@ def _roughness_setting(r: _Reader, d: dict, key: str, path: str):
             kind = "length"
         except InputError:
             return r.fail(path, v, "must be a percentage of each run's roughness, e.g. 300 %, or a roughness, "
-                                   "e.g. 1 mm")
+                                   f"e.g. {r.length_text(0.001, 1)}")
     if kind == "factor" and not 0.0 < x <= 100.0:
         return r.fail(path, v, "the factor must be greater than 0 % and at most 10000 %")
     if kind == "length" and not 0.0 <= x < 0.05:
-        return r.fail(path, v, "the roughness must be zero or more and below 50 mm")
+        return r.fail(path, v, f"the roughness must be zero or more and below {r.length_text(0.05)}")
     return (kind, x)
 
 
 def _liquid(r: _Reader, d: dict):
     kind = r.choice(d, "kind", "liquid.kind", ("water", "custom"), "water")
     if kind == "water":
-        T = r.qty(d, "temperature", "liquid.temperature", TEMPERATURE)
+        T = r.qty(d, "temperature", "liquid.temperature", TEMPERATURE, ask="give the water's temperature")
         if T is None:
             return None
         try:
@@ -449,7 +535,9 @@ def _liquid(r: _Reader, d: dict):
 
 def _node(r: _Reader, d: dict, which: str, liquid):
     kind = r.choice(d, "kind", f"{which}.kind", NODE_KINDS[which], "reservoir")
-    z = r.qty(d, "elevation", f"{which}.elevation", LENGTH)
+    z = r.qty(d, "elevation", f"{which}.elevation", LENGTH,
+              ask={"reservoir": "give the water surface elevation", "jet": "give the elevation of the jet's centre"}
+              .get(kind, "give the elevation"))
     p = r.qty(d, "pressure", f"{which}.pressure", PRESSURE, required=False, default=0.0)
     if p is not None and p < -101325.0:
         p = r.fail(f"{which}.pressure", d.get("pressure"), "a gauge pressure cannot be below -1 atm")
@@ -480,7 +568,8 @@ def _node(r: _Reader, d: dict, which: str, liquid):
 def _pipe(r: _Reader, e: dict, path: str):
     n_err = len(r.errors)
     label = r.text(e, "label", f"{path}.label", MAX_LABEL) or ""
-    L = r.qty(e, "length", f"{path}.length", LENGTH, lo=0.0, lo_open=True, what="the length")
+    L = r.qty(e, "length", f"{path}.length", LENGTH, lo=0.0, lo_open=True, what="the length",
+              ask="give the run's length")
     D = r.qty(e, "diameter", f"{path}.diameter", LENGTH, required=False, lo=0.0, lo_open=True,
               what="the diameter")
     wall = r.qty(e, "wall_thickness", f"{path}.wall_thickness", LENGTH, required=False, lo=0.0, lo_open=True,
@@ -490,7 +579,7 @@ def _pipe(r: _Reader, e: dict, path: str):
     size = e.get("size")
     if isinstance(size, dict):
         r.known(size, f"{path}.size", SIZE_FIELDS, "a pipe size")
-    if D is None and len(r.errors) == n_err:
+    if D is None and r.blank(e.get("diameter")):
         if isinstance(size, dict) and not all(r.blank(size.get(k)) for k in ("standard", "nominal", "class")):
             try:
                 size_obj = tables.pipe_size(str(size.get("standard")), str(size.get("nominal")),
@@ -502,8 +591,8 @@ def _pipe(r: _Reader, e: dict, path: str):
             except LookupError as err:
                 r.fail(f"{path}.size", size, str(err).strip("'\""))
         else:
-            r.fail(f"{path}.diameter", e.get("diameter"),
-                   "is empty: enter an inner diameter, e.g. 150 mm, or choose a standard size")
+            r.ask(f"{path}.diameter", e.get("diameter"),
+                  "give the run's inner diameter, or choose a size from a table")
     if D is not None and L is not None and D > L * 10 and D > 5.0:
         r.fail(f"{path}.diameter", e.get("diameter"), "is larger than a pipe can be; check the unit")
     mat = None
@@ -528,10 +617,10 @@ def _pipe(r: _Reader, e: dict, path: str):
         elif mat is not None:
             eps, eps_source, eps_aged = mat.eps_new, f"{mat.name}: {mat.source_roughness}", mat.eps_aged
         elif r.blank(mkey):
-            r.fail(f"{path}.roughness", e.get("roughness"), "is empty: enter a roughness, e.g. 0.05 mm, or choose a material")
+            r.ask(f"{path}.roughness", e.get("roughness"), "give the run's roughness, or choose a material")
     if eps is not None and D is not None and eps >= D / 2:
         r.fail(f"{path}.roughness", e.get("roughness"), "must be much smaller than the diameter; check the unit")
-    z_end = r.qty(e, "end_elevation", f"{path}.end_elevation", LENGTH)
+    z_end = r.qty(e, "end_elevation", f"{path}.end_elevation", LENGTH, ask="give the elevation at the run's end")
     rating = r.qty(e, "rating", f"{path}.rating", PRESSURE, required=False, lo=0.0, lo_open=True,
                    what="the pressure rating")
     restraint = r.choice(e, "restraint", f"{path}.restraint", RESTRAINTS, "anchored")
@@ -542,8 +631,9 @@ def _pipe(r: _Reader, e: dict, path: str):
             r.fail(pp, pt, "must have a chainage and an elevation")
             continue
         r.known(pt, pp, PROFILE_POINT_FIELDS, "a profile point")
-        s = r.qty(pt, "chainage", f"{pp}.chainage", LENGTH, lo=0.0, what="the chainage")
-        zz = r.qty(pt, "elevation", f"{pp}.elevation", LENGTH)
+        s = r.qty(pt, "chainage", f"{pp}.chainage", LENGTH, lo=0.0, what="the chainage",
+                  ask="give the point's chainage")
+        zz = r.qty(pt, "elevation", f"{pp}.elevation", LENGTH, ask="give the ground elevation at the point")
         if s is not None and L is not None and s > L * (1 + 1e-9):
             r.fail(f"{pp}.chainage", pt.get("chainage"), "lies beyond the end of the run (chainage is from the run's start)")
         elif s is not None and zz is not None:
@@ -569,7 +659,7 @@ def _fitting(r: _Reader, ft, path: str):
     count = r.count(ft, "count", f"{path}.count")
     label = r.text(ft, "label", f"{path}.label", MAX_LABEL) or ""
     if kind == "k":
-        K = r.qty(ft, "K", f"{path}.K", RATIO, lo=0.0, what="K")
+        K = r.qty(ft, "K", f"{path}.K", RATIO, lo=0.0, what="K", ask="give the fitting's K")
         params, model, name, src = {"K": K}, "k", label or "loss (K typed)", "typed by the user"
     elif kind == "2k":
         K1 = r.qty(ft, "K1", f"{path}.K1", RATIO, lo=0.0, what="K1")
@@ -593,6 +683,9 @@ def _fitting(r: _Reader, ft, path: str):
 
 def _curve_points(r: _Reader, e: dict, path: str, y_key: str, y_kind: Kind, min_points=3):
     pts = r.lst(e, "curve", f"{path}.curve", MAX_POINTS)
+    if not pts and isinstance(e.get("curve", []), list):
+        r.ask(f"{path}.curve", "no points", f"give at least {min_points} points of the curve, each a flow and a head")
+        return None
     if len(pts) < min_points:
         r.fail(f"{path}.curve", f"{len(pts)} points", f"needs at least {min_points} points to fit a curve")
         return None
@@ -602,8 +695,8 @@ def _curve_points(r: _Reader, e: dict, path: str, y_key: str, y_kind: Kind, min_
         if not isinstance(pt, dict):
             r.fail(pp, pt, "must have a flow and a head")
             continue
-        q = r.qty(pt, "flow", f"{pp}.flow", FLOW, lo=0.0, what="the flow")
-        h = r.qty(pt, y_key, f"{pp}.{y_key}", y_kind, what="the head")
+        q = r.qty(pt, "flow", f"{pp}.flow", FLOW, lo=0.0, what="the flow", ask="give the point's flow")
+        h = r.qty(pt, y_key, f"{pp}.{y_key}", y_kind, what="the head", ask="give the point's head")
         Q.append(q)
         H.append(h)
         # 0 is a maker's usual figure at shut-off, so efficiency may be zero at a point (not negative).
@@ -645,12 +738,15 @@ def _turbine(r: _Reader, e: dict, path: str):
     mode = r.choice(e, "mode", f"{path}.mode", ("power", "head", "curve"), "power")
     need_eta = mode == "power"
     eta = r.qty(e, "efficiency", f"{path}.efficiency", RATIO, required=need_eta, default=1.0,
-                lo=0.0, lo_open=True, hi=1.0, what="the efficiency")
+                lo=0.0, lo_open=True, hi=1.0, what="the efficiency",
+                ask="give the turbine's efficiency (its shaft power over the power it takes from the flow)")
     power = head = curve = None
     if mode == "power":
-        power = r.qty(e, "power", f"{path}.power", POWER, lo=0.0, lo_open=True, what="the shaft power")
+        power = r.qty(e, "power", f"{path}.power", POWER, lo=0.0, lo_open=True, what="the shaft power",
+                      ask="give the shaft power the turbine is to give")
     elif mode == "head":
-        head = r.qty(e, "head", f"{path}.head", LENGTH, lo=0.0, lo_open=True, what="the head")
+        head = r.qty(e, "head", f"{path}.head", LENGTH, lo=0.0, lo_open=True, what="the head",
+                     ask="give the head the turbine takes from the flow")
     elif mode == "curve":
         pts = _curve_points(r, e, path, "head", LENGTH)
         if pts:
@@ -672,7 +768,8 @@ def _pump(r: _Reader, e: dict, path: str):
     eta = r.qty(e, "efficiency", f"{path}.efficiency", RATIO, required=False, lo=0.0, lo_open=True, hi=1.0,
                 what="the efficiency")
     if mode == "head":
-        head = r.qty(e, "head", f"{path}.head", LENGTH, lo=0.0, lo_open=True, what="the head")
+        head = r.qty(e, "head", f"{path}.head", LENGTH, lo=0.0, lo_open=True, what="the head",
+                     ask="give the head the pump adds to the flow")
     else:
         pts = _curve_points(r, e, path, "head", LENGTH)
         if pts:
@@ -686,17 +783,17 @@ def _pump(r: _Reader, e: dict, path: str):
                 npshr_curve=npsh_c, speed_ratio=n, efficiency=eta)
 
 
-def _valve(r: _Reader, e: dict, path: str, last_D):
+def _valve(r: _Reader, e: dict, path: str, last_D, pipe_before: bool = False):
     n_err = len(r.errors)
     label = r.text(e, "label", f"{path}.label", MAX_LABEL) or ""
-    K = r.qty(e, "K", f"{path}.K", RATIO, lo=0.0, what="K")
+    K = r.qty(e, "K", f"{path}.K", RATIO, lo=0.0, what="K", ask="give the valve's loss coefficient K")
     D = r.qty(e, "diameter", f"{path}.diameter", LENGTH, required=False, lo=0.0, lo_open=True,
               what="the diameter")
     src = "typed by the user"
     if D is None and r.blank(e.get("diameter")):
-        if last_D is None:
-            r.fail(f"{path}.diameter", e.get("diameter"),
-                   "is empty and no pipe run comes before this valve: enter its diameter, e.g. 150 mm")
+        if last_D is None and not pipe_before:
+            r.ask(f"{path}.diameter", e.get("diameter"),
+                  "give the valve's diameter: no pipe run comes before it to take the bore from")
         D, src = last_D, "the pipe run before it"
     if len(r.errors) > n_err:
         return None

@@ -15,7 +15,9 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
 
     >>> from calc.analysis import analyse
     >>> from calc.model.sheet import blank_sheet
-    >>> rec = build(analyse(blank_sheet()))
+    >>> doc = blank_sheet(); doc["elements"][0].update(length="500 m", diameter="150 mm", end_elevation="78 m")
+    >>> doc["liquid"]["temperature"], doc["start"]["elevation"], doc["end"]["elevation"] = "15 degC", "100 m", "80 m"
+    >>> rec = build(analyse(doc))
     >>> rec.header["revision"], rec.signed, [g.kind for g in rec.steps][:2]
     ('A', False, ['liquid', 'start'])
     """
@@ -29,7 +31,8 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
         "project": as_text(hdr_doc.get("project")),
         "calc_number": as_text(hdr_doc.get("calc_number")),
         "title": as_text(hdr_doc.get("title")),
-        "revision": revision_label(meta.label_index, scheme),
+        "revision": meta.label or revision_label(meta.label_index, scheme),
+        "issue": revision_label(meta.label_index, scheme),
         "revision_scheme": scheme,
         "store_revision": meta.store_revision,
         "sheet_id": meta.sheet_id,

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import copy
+
+from calc.model.ids import ensure_ids
 from calc.record.parts import Table
 from calc.record.text import as_text, num, shown
 from calc.units import to_display
@@ -72,15 +75,94 @@ def describe_path(doc: dict, path: str) -> str:
     return " › ".join(words)
 
 
+def _element_name(e: dict, position: int) -> str:
+    """``element 4 (pipe «Rising main»)``: its place in the line, its kind and label."""
+    lab = as_text(e.get("label"))
+    return f"element {position} ({as_text(e.get('kind'))}" + (f" «{lab}»" if lab else "") + ")"
+
+
+def _unmoved(positions: list[int]) -> set[int]:
+    """The indices of the longest run of ``positions`` that stays in increasing order (the elements that
+    kept their order); every other element is the one that moved.
+
+    Of two equally long runs the later-ending one wins: moving C up one place in A B C D reads as
+    "C moved" (its old positions, in the new order, are 0 2 1 3), not "B moved".
+
+    >>> sorted(_unmoved([0, 2, 1, 3]))
+    [0, 2, 3]
+    """
+    tails: list[int] = []          # tails[k]: index of the smallest tail of an increasing run of length k+1
+    before: list[int | None] = []  # before[i]: the index preceding i in its run
+    for i, p in enumerate(positions):
+        lo, hi = 0, len(tails)
+        while lo < hi:
+            mid = (lo + hi) // 2
+            if positions[tails[mid]] < p:
+                lo = mid + 1
+            else:
+                hi = mid
+        before.append(tails[lo - 1] if lo else None)
+        if lo == len(tails):
+            tails.append(i)
+        else:
+            tails[lo] = i
+    out: set[int] = set()
+    node = tails[-1] if tails else None
+    while node is not None:
+        out.add(node)
+        node = before[node]
+    return out
+
+
 def input_changes(doc_a: dict, doc_b: dict) -> list[dict]:
-    """Fields that differ between two documents: path, words, value before and after (None if absent)."""
-    fa, fb = flatten(doc_a), flatten(doc_b)
+    """Fields that differ between two documents: path, words, value before and after (None if absent).
+
+    Elements are matched by their stable id (``calc.model.sheet.ensure_ids`` gives documents without
+    ids the same ids by order), so a moved element is one change, "moved", and its fields compare with
+    its own fields wherever it now sits; an element added or removed is one change too. Paths of
+    element fields read ``elements.<id>.<field>``.
+    """
+    a = ensure_ids(copy.deepcopy(doc_a)) if isinstance(doc_a, dict) else {}
+    b = ensure_ids(copy.deepcopy(doc_b)) if isinstance(doc_b, dict) else {}
     out = []
+    rest_a = {k: v for k, v in a.items() if k != "elements"}
+    rest_b = {k: v for k, v in b.items() if k != "elements"}
+    fa, fb = flatten(rest_a), flatten(rest_b)
     for path in list(dict.fromkeys(list(fa) + list(fb))):
         va, vb = fa.get(path, None), fb.get(path, None)
         if va != vb or (path in fa) != (path in fb):
             out.append({"path": path, "where": describe_path(doc_b if path in fb else doc_a, path),
                         "before": va if path in fa else None, "after": vb if path in fb else None})
+
+    def by_id(doc):
+        elements = doc.get("elements") if isinstance(doc.get("elements"), list) else []
+        return {e["id"]: (i, e) for i, e in enumerate(elements) if isinstance(e, dict) and "id" in e}
+
+    ea, eb = by_id(a), by_id(b)
+    common = [k for k in eb if k in ea]
+    kept = _unmoved([ea[k][0] for k in common])
+    for n, key in enumerate(common):
+        (ia, el_a), (ib, el_b) = ea[key], eb[key]
+        name = _element_name(el_b, ib + 1)
+        if n not in kept:
+            out.append({"path": f"elements.{key}", "where": name, "before": f"position {ia + 1}",
+                        "after": f"moved to position {ib + 1}"})
+        sa = flatten({k: v for k, v in el_a.items() if k != "id"})
+        sb = flatten({k: v for k, v in el_b.items() if k != "id"})
+        for sub in list(dict.fromkeys(list(sa) + list(sb))):
+            va, vb = sa.get(sub, None), sb.get(sub, None)
+            if va != vb or (sub in sa) != (sub in sb):
+                inner = describe_path(el_b if sub in sb else el_a, sub)
+                out.append({"path": f"elements.{key}.{sub}", "where": f"{name} › {inner}",
+                            "before": va if sub in sa else None, "after": vb if sub in sb else None})
+    for key, (ib, el_b) in eb.items():
+        if key not in ea:
+            out.append({"path": f"elements.{key}", "where": _element_name(el_b, ib + 1), "before": None,
+                        "after": f"added at position {ib + 1}"})
+    for key, (ia, el_a) in ea.items():
+        if key not in eb:
+            out.append({"path": f"elements.{key}", "where": _element_name(el_a, ia + 1),
+                        "before": f"at position {ia + 1}", "after": None})
     return out
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from calc.model.elements import PipeRun, Pump, Turbine, Valve
+from calc.model.settings import CheckSettings
 from calc.record.context import Context
 from calc.record.parts import Table
 from calc.record.text import _SI_UNIT, as_text, si, sub
@@ -57,6 +58,7 @@ def inputs(c: Context) -> list[Table]:
                  c.method.name, f"chosen {c.ref_method}"])
     rows.append(["Gravity g", "", "9.80665 m/s²", f"standard {c.ref_g}"])
     tables_out.append(Table(head, rows, "Liquid, site and method", align, css="inputs"))
+    tables_out.append(_check_limits(c, head, align))
 
     for which in ("start", "end"):
         node_doc = doc.get(which) or {}
@@ -80,6 +82,38 @@ def inputs(c: Context) -> list[Table]:
     for i, (e, el) in enumerate(zip(doc.get("elements") or [], c.line.elements)):
         tables_out += _element_inputs(c, i, e, el, head, align)
     return tables_out
+
+
+#: The check limits as the record names them, with the SI unit each is held in ("" a plain number).
+_LIMITS = (("velocity_max", "Highest velocity", "m/s"), ("velocity_max_suction", "Highest velocity, pump suction", "m/s"),
+           ("velocity_min", "Lowest velocity", "m/s"), ("npsh_margin_ratio", "NPSH margin ratio NPSHA/NPSHR, at least", ""),
+           ("npsh_margin_min", "NPSH margin NPSHA − NPSHR, at least", "m"),
+           ("bep_low", "Preferred flow, low end (of best-efficiency flow)", ""),
+           ("bep_high", "Preferred flow, high end (of best-efficiency flow)", ""),
+           ("k_uncertainty", "Fitting and valve K, ± (range of the answer)", ""),
+           ("roughness_low", "Roughness, low end (range of the answer)", ""),
+           ("roughness_high", "Roughness, high end (range of the answer)", ""),
+           ("surge_allowance", "Surge allowance where surge is not calculated", "Pa"),
+           ("surge_closure_time", "Fastest closure of a valve or turbine", "s"))
+
+
+def _check_limits(c: Context, head, align) -> Table:
+    """Every limit the checks applied, as typed or by default, with where each comes from."""
+    s = c.a.check_settings or CheckSettings()
+    settings = c.doc.get("settings") if isinstance(c.doc.get("settings"), dict) else {}
+    typed = settings.get("checks") if isinstance(settings.get("checks"), dict) else {}
+    rows = []
+    for key, label, unit in _LIMITS:
+        v = getattr(s, key)
+        if isinstance(v, tuple):
+            value = f"× {sub(v[1])} each run's" if v[0] == "factor" else f"{si(v[1])} m every run"
+        elif v is None:
+            value = "each run's own" if key == "roughness_low" else "each run's aged (material table)"
+        else:
+            value = f"{si(v)} {unit}".strip()
+        rows.append([label, as_text(typed.get(key)) if key in s.given else "", value,
+                     ("set on the sheet" if key in s.given else "default: " + s.source(key))])
+    return Table(head, rows, "Check limits applied", align, css="inputs")
 
 
 def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]:

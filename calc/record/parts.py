@@ -112,6 +112,7 @@ class Meta:
     sheet_id: int | None = None
     store_revision: int | None = None
     label_index: int = 0
+    label: str = ""  # how the store names this state (A.3 on the way to issue A); the issue label when empty
     created: str = ""
     printed: str = ""
     frozen: bool = False

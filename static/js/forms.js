@@ -206,11 +206,89 @@
     saveDraft();
   });
 
+  // -- what a screen reader is told ---------------------------------------------------------------
+  // Each field's message slot is filled in place by the answer. The field is marked aria-invalid while its
+  // slot holds a message that refuses a value (not one that only asks for a value not given yet), and the
+  // messages new since the last answer are said once, through one polite live region (#announce), a
+  // moment after typing stops: a message is not talked over every key, nor said again on every answer.
+  var announcer = document.getElementById("announce");
+  var heard = {}; // slot id -> the text it held at the last answer
+  var toSay = [];
+  var sayTimer = null;
+  var lastUndo = null;
+  var focusedId = null;
+  var SAY_AFTER = 700; // ms after the answer (and after the last key) before it is said
+
+  function slots() { return form.querySelectorAll(".field-msg"); }
+  function words(el) { return el ? (el.textContent || "").replace(/\s+/g, " ").trim() : ""; }
+  function controlOf(slot) { return slot.id ? form.querySelector('[aria-describedby~="' + slot.id + '"]') : null; }
+  function nameOf(el) {
+    if (!el) return "";
+    return el.getAttribute("aria-label") || (el.labels && el.labels.length ? words(el.labels[0]) : "");
+  }
+  function markInvalid() {
+    Array.prototype.forEach.call(slots(), function (slot) {
+      var el = controlOf(slot);
+      if (!el) return;
+      if (words(slot) !== "" && !slot.querySelector(".request")) el.setAttribute("aria-invalid", "true");
+      else el.removeAttribute("aria-invalid");
+    });
+  }
+  function sayLater() {
+    window.clearTimeout(sayTimer);
+    sayTimer = toSay.length ? window.setTimeout(function () {
+      if (announcer) announcer.textContent = toSay.join(" ");
+      toSay = [];
+      sayTimer = null;
+    }, SAY_AFTER) : null;
+  }
+  function listen() {
+    var seen = {};
+    Array.prototype.forEach.call(slots(), function (slot) {
+      var text = words(slot);
+      seen[slot.id] = text;
+      if (text && heard[slot.id] !== text) {
+        var name = nameOf(controlOf(slot));
+        toSay.push(name ? name + ": " + text : text);
+      }
+    });
+    heard = seen;
+    var undo = document.getElementById("undo-notice");
+    if (undo && undo !== lastUndo) {
+      toSay.unshift(words(undo.querySelector("span")) + " Undo, under the sheet's title, puts it back.");
+    }
+    lastUndo = undo;
+    markInvalid();
+    sayLater();
+  }
+  Array.prototype.forEach.call(slots(), function (slot) { heard[slot.id] = words(slot); });
+  lastUndo = document.getElementById("undo-notice");
+  markInvalid();
+  form.addEventListener("input", function () { if (sayTimer !== null) sayLater(); });
+
+  document.addEventListener("htmx:beforeSwap", function (event) {
+    if (!ours(event)) return;
+    var active = document.activeElement;
+    focusedId = active && field(active) && active.id ? active.id : null;
+  });
+  document.addEventListener("htmx:afterSwap", function (event) {
+    if (!ours(event)) return;
+    // A field redrawn under the cursor (a select chosen with the arrow keys, whose answer reshapes the
+    // form) keeps the cursor: the next arrow key goes to the same select.
+    var active = document.activeElement;
+    if (focusedId && (!active || active === document.body)) {
+      var again = document.getElementById(focusedId);
+      if (again && field(again)) again.focus({ preventScroll: true });
+    }
+    focusedId = null;
+    listen();
+  });
+
   // -- the draft: what is typed here and not saved, kept in this browser --------------------------
   // In localStorage, keyed by sheet: it never leaves this browser, and survives a reload, a closed tab
   // or a server restart. The server decides what it means on return (action "restore").
   var key = "headsheet:draft:" + (form.getAttribute("data-sheet") || location.pathname);
-  var LEFT_OUT = ["csrf_token", "shown_errors", "base", "action", "paste"];
+  var LEFT_OUT = ["csrf_token", "shown_errors", "base", "action", "paste", "undo_item", "undo_check"];
 
   function pending() {
     var box = document.getElementById("unapplied");

@@ -51,7 +51,7 @@ def test_changing_a_pipe_diameter_changes_the_flow(page, live):
     stored = _doc(live)
     assert stored["elements"][i]["diameter"] == new
     expect(flow).to_have_text(_expected_flow(stored))
-    expect(page.locator("#save-status")).to_contain_text("Revision 2")
+    expect(page.locator("#save-status")).to_have_attribute("data-save", "2")
     expect(page.locator(".stale-mark")).to_have_count(0)
     shot(page, "02-diameter-changed")
     assert page.console_errors == []
@@ -68,7 +68,7 @@ def test_a_choice_re_solves_at_once_under_a_policy_that_forbids_eval(page, live)
     units.select_option("US" if "L/s" in before else "SI")
     expect(flow).not_to_have_text(before)
     assert ("gpm" in flow.inner_text()) == ("L/s" in before)
-    expect(page.locator("#save-status")).to_contain_text("Revision 2")
+    expect(page.locator("#save-status")).to_have_attribute("data-save", "2")
     assert page.console_errors == []
 
 
@@ -81,11 +81,21 @@ def test_add_a_pipe_run(page, live):
     expect(new_label).to_be_focused()  # the cursor goes to the new run
     stored = _doc(live)
     assert len(stored["elements"]) == n + 1 and stored["elements"][-1]["kind"] == "pipe"
-    expect(page.locator("#result-flow")).to_have_text(_expected_flow(stored))
-    # The new run's fields are live at once.
+    # The new run carries no invented length or end elevation: the results ask for them, each a link.
+    needed = page.locator("#needed")
+    expect(needed).to_contain_text("length")
+    expect(needed).to_contain_text("elevation at the run's end")
+    # The new run's fields are live at once; given its numbers, the line solves again.
+    last_end = next(e["end_elevation"] for e in reversed(stored["elements"][:-1]) if e["kind"] == "pipe")
     page.locator(f"#f-elements-{n}-length").fill("80 m")
-    expect(page.locator("#save-status")).to_contain_text("Revision 3")
-    assert _doc(live)["elements"][n]["length"] == "80 m"
+    expect(page.locator("#save-status")).to_have_attribute("data-save", "3")
+    end = page.locator(f"#f-elements-{n}-end_elevation")
+    end.fill(last_end)
+    end.press("Tab")
+    expect(page.locator("#save-status")).to_have_attribute("data-save", "4")
+    stored = _doc(live)
+    assert stored["elements"][n]["length"] == "80 m" and stored["elements"][n]["end_elevation"] == last_end
+    expect(page.locator("#result-flow")).to_have_text(_expected_flow(stored))
     new_label.scroll_into_view_if_needed()
     shot(page, "03-pipe-run-added")
     assert page.console_errors == []
@@ -220,12 +230,12 @@ def test_home_history_and_restore(page, live):
     page.get_by_role("link", name="History").click()
     expect(page.locator("table.revisions tbody tr")).to_have_count(2)
     shot(page, "08-history")
-    page.get_by_role("button", name="Restore revision 1").click()
+    page.get_by_role("button", name="Restore revision A.1").click()
     expect(page.locator("h1")).to_have_text(calc_sheet.blank_sheet()["header"]["title"])
     assert page.url == sheet_url
     page.get_by_role("link", name="History").click()
     expect(page.locator("table.revisions tbody tr")).to_have_count(3)
-    page.get_by_role("link", name="View revision 2").click()
+    page.get_by_role("link", name="View revision A.2").click()
     expect(page.locator("#f-header-title")).to_have_value("Renamed")
     expect(page.locator("#f-header-title")).to_have_attribute("readonly", "")
     shot(page, "09-revision")

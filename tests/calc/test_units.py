@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import CoolProp.CoolProp as CP
 import pytest
+from linetools import gravity_line
 
-from calc.model.sheet import blank_sheet, parse
+from calc.model.sheet import parse
 from calc.units import DENSITY, FLOW, LENGTH, TEMPERATURE, InputError, parse_quantity
 
 
@@ -24,7 +25,7 @@ def test_units_as_engineers_type_them(text, kind, si):
 def test_triple_point_temperature_is_water():
     # ITS-90 fixes the triple point of water at 273.16 K = 0.01 degC; CoolProp agrees (used as the reference).
     assert parse_quantity("0.01 degC", TEMPERATURE, "T") == pytest.approx(CP.PropsSI("Ttriple", "Water"), abs=1e-9)
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["liquid"] = {"kind": "water", "temperature": "0.01 degC"}
     parsed = parse(doc)
     assert parsed.ok, parsed.errors

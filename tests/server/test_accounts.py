@@ -10,9 +10,9 @@ from __future__ import annotations
 import sqlite3
 
 import pytest
+from linetools import gravity_line
 from servertools import FIGURES, PASSWORD, BrowserClient, account_for, form_fields
 
-from calc.model import sheet as calc_sheet
 from server import cli
 from server.store import DB_NAME
 
@@ -20,7 +20,7 @@ LOCAL = ("127.0.0.1", 50123)
 
 
 def _sheet(client) -> int:
-    return client.post("/api/sheets", json={"document": calc_sheet.blank_sheet()}).json()["id"]
+    return client.post("/api/sheets", json={"document": gravity_line()}).json()["id"]
 
 
 def _sign(client, sheet_id, role, login, password=PASSWORD, number=1):

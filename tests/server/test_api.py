@@ -6,9 +6,9 @@ import copy
 import json
 
 import pytest
+from linetools import gravity_line
 from servertools import BrowserClient, demo_files
 
-from calc.model import sheet as calc_sheet
 from calc.model.schema import SCHEMA
 from server.app import create_app
 
@@ -34,7 +34,7 @@ def test_read(client):
 
 
 def test_create_and_read_back(client):
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     doc["header"]["title"] = "Made by a script"
     response = client.post("/api/sheets", json={"document": doc, "note": "from a test"})
     assert response.status_code == 201
@@ -46,7 +46,7 @@ def test_create_and_read_back(client):
 
 
 def test_create_refuses_an_invalid_sheet_with_messages_per_path(client):
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     doc["elements"][0]["length"] = "ten metres"
     doc["liquid"]["temperature"] = ""
     response = client.post("/api/sheets", json={"document": doc})
@@ -117,7 +117,7 @@ def test_missing_is_404_json(client, url):
 
 
 def test_replace_missing_sheet_is_404(client):
-    response = client.put("/api/sheets/999", json={"base_revision": 1, "document": calc_sheet.blank_sheet()})
+    response = client.put("/api/sheets/999", json={"base_revision": 1, "document": gravity_line()})
     assert response.status_code == 404
 
 
@@ -140,7 +140,7 @@ def test_revisions(client):
 
 def test_solve_without_storing(client):
     before = client.get("/api/sheets").json()
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     response = client.post("/api/solve", json={"document": doc})
     assert response.status_code == 200
     body = response.json()
@@ -151,7 +151,7 @@ def test_solve_without_storing(client):
 
 
 def test_solve_reports_errors_by_path(client):
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     doc["elements"][0]["diameter"] = "wide"
     response = client.post("/api/solve", json={"document": doc})
     assert response.status_code == 422
@@ -172,7 +172,7 @@ def test_schema_and_openapi(client):
 
 
 def test_a_stored_sheet_survives_a_restart_byte_for_byte(data_dir):
-    doc = copy.deepcopy(calc_sheet.blank_sheet())
+    doc = copy.deepcopy(gravity_line())
     doc["header"]["title"] = "Kept exactly — ünïcode, 6 in, 12 °C"
     doc["header"]["purpose"] = "Line one.\nLine two with \"quotes\" and a tab\t."
     with BrowserClient(create_app(data_dir)) as first:
@@ -192,7 +192,7 @@ def test_a_stored_sheet_survives_a_restart_byte_for_byte(data_dir):
 
 
 def test_body_over_the_limit_is_refused(client):
-    big = {"document": calc_sheet.blank_sheet(), "note": "", "padding": "x" * 1_100_000}
+    big = {"document": gravity_line(), "note": "", "padding": "x" * 1_100_000}
     response = client.post("/api/sheets", json=big)
     assert response.status_code == 413
     _error_shape(response.json(), 413)

@@ -29,15 +29,15 @@ def test_a_stale_edit_says_who_changed_what_and_keeps_what_was_typed(app):
                                                "header.project": "Bob's project"}, headers=HX)
         assert response.status_code == 409
         words = _banner(response.text)
-        assert "Not saved" in words and "now at revision 2" in words and "based on revision 1" in words
-        assert "Revision 2: Ann Example" in words
+        assert "Not saved" in words and "now at revision A.2" in words and "based on revision A.1" in words
+        assert "Revision A.2: Ann Example" in words
         assert re.search(r"Ann Example, \d{4}-\d\d-\d\d \d\d:\d\d", words)
         # What changed there, field by field, was and now.
         assert "Header › Project Hollins Mill process plant Ann's project" in words
         assert "› Length 115 ft 321 ft" in words
         # What Bob typed, with the field Ann changed too marked.
         assert "Header › Project (also changed there) Bob's project" in words and "Header › Title Bob's title" in words
-        assert "Reload revision 2" in words
+        assert "Reload revision A.2" in words
         # The form stays on revision 1, so Bob typing on cannot undo Ann's change.
         assert re.search(r'id="base" value="1"', response.text)
         b = {**b, "author": "Bob", "header.title": "Bob's title, again"}
@@ -46,7 +46,7 @@ def test_a_stale_edit_says_who_changed_what_and_keeps_what_was_typed(app):
         assert doc["header"]["project"] == "Ann's project" and doc["elements"][0]["length"] == "321 ft"
         # Without JavaScript: the whole page, the same account, and the typed values in the form.
         page = bob.post("/sheets/1", data=b)
-        assert page.status_code == 409 and "Revision 2: Ann Example" in _banner(page.text)
+        assert page.status_code == 409 and "Revision A.2: Ann Example" in _banner(page.text)
         assert form_fields(page.text)["header.title"] == "Bob's title, again"
 
 
@@ -69,7 +69,7 @@ def test_no_offer_to_reapply_when_the_lists_changed(app):
         ann.post("/sheets/1", data={**a, "action": "add:elements:valve"}, headers=HX)
         response = bob.post("/sheets/1", data={**b, "header.title": "Bob's title"}, headers=HX)
         assert response.status_code == 409
-        assert 'class="reapply"' not in response.text and "Reload revision 2" in _banner(response.text)
+        assert 'class="reapply"' not in response.text and "Reload revision A.2" in _banner(response.text)
         assert "added a valve" in _banner(response.text)
 
 

@@ -15,9 +15,9 @@ import time
 from pathlib import Path
 
 import httpx
+from linetools import gravity_line
 from servertools import FIGURES, HX, form_fields, free_port
 
-from calc.model import sheet as calc_sheet
 from server.store import DB_NAME, Store, digest_of, dump_document
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -60,7 +60,7 @@ def test_acknowledged_edits_survive_sigkill_at_random_moments(tmp_path):
     acked_api: dict[int, str] = {}  # revision -> digest of the document the server said it stored
     acked_form: dict[int, str] = {}  # revision -> purpose typed into the form the server said it saved
     sent = kills = 0
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     server.start()
     try:
         with httpx.Client(base_url=server.url, timeout=10) as http:
@@ -128,8 +128,8 @@ def test_the_store_is_set_for_durability(tmp_path):
         assert con.execute("PRAGMA busy_timeout").fetchone()[0] >= 5000
         con.set_trace_callback(statements.append)
     try:
-        rev = store.create_sheet(calc_sheet.blank_sheet())
-        store.add_revision(rev.sheet_id, {**calc_sheet.blank_sheet(), "header": {"title": "x"}}, 1)
+        rev = store.create_sheet(gravity_line())
+        store.add_revision(rev.sheet_id, {**gravity_line(), "header": {"title": "x"}}, 1)
     finally:
         with store._connect() as con:
             con.set_trace_callback(None)

@@ -5,9 +5,10 @@ from __future__ import annotations
 import copy
 
 import pytest
+from linetools import gravity_line
 
 from calc.model import sheet as calc_sheet
-from calc.model.sheet import blank_sheet, parse
+from calc.model.sheet import parse
 from server import editing, edits
 from server.editing import apply_action, get_path, related, set_field, split_path, too_deep
 from server.edits import edit
@@ -22,7 +23,7 @@ def test_split_path():
 
 
 def test_set_field_writes_only_into_existing_places():
-    doc = blank_sheet()
+    doc = gravity_line()
     assert set_field(doc, "elements.0.length", "250 m")
     assert doc["elements"][0]["length"] == "250 m"
     # No list grows and no structure appears from a posted name.
@@ -33,7 +34,7 @@ def test_set_field_writes_only_into_existing_places():
 
 
 def test_set_field_keeps_text_as_typed_and_counts_as_numbers():
-    doc = blank_sheet()
+    doc = gravity_line()
     set_field(doc, "elements.0.diameter", " 6 in ")
     assert doc["elements"][0]["diameter"] == " 6 in "
     set_field(doc, "elements.0.fittings.0.count", "3")
@@ -43,7 +44,7 @@ def test_set_field_keeps_text_as_typed_and_counts_as_numbers():
 
 
 def test_empty_text_does_not_add_an_absent_field():
-    doc = blank_sheet()
+    doc = gravity_line()
     assert "rating" not in doc["elements"][0]
     assert not set_field(doc, "elements.0.rating", "")
     assert "rating" not in doc["elements"][0]
@@ -51,7 +52,7 @@ def test_empty_text_does_not_add_an_absent_field():
 
 
 def test_size_group_is_created_when_a_size_is_chosen():
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["elements"][0]["size"] = None
     assert set_field(doc, "elements.0.size.standard", "pe-iso4427")
     assert doc["elements"][0]["size"] == {"standard": "pe-iso4427"}
@@ -64,36 +65,41 @@ def test_too_deep():
         node["a"] = {}
         node = node["a"]
     assert too_deep(deep)
-    assert not too_deep(blank_sheet())
+    assert not too_deep(gravity_line())
 
 
 def test_add_element_from_template_with_a_numbered_label():
-    result = apply_action(blank_sheet(), "add:elements:pipe")
+    result = apply_action(gravity_line(), "add:elements:pipe")
     assert result.message is None
     new = result.doc["elements"][-1]
     assert new["kind"] == "pipe" and new["label"].endswith(" 2")
     assert result.focus == "elements.1.label"
-    assert parse(result.doc).ok
+    # The new run asks for what it needs and invents nothing: the bore carries on from the last run.
+    parsed = parse(result.doc)
+    assert not parsed.mistakes
+    assert sorted(e.path for e in parsed.requests) == ["elements.1.end_elevation", "elements.1.length"]
+    assert new["diameter"] == result.doc["elements"][0]["diameter"]
 
 
 def test_a_new_pipe_run_carries_on_from_the_last_one():
-    doc = blank_sheet()
+    doc = gravity_line()
     last = doc["elements"][0]
-    last.update(diameter="6 in", end_elevation="42 ft", material="pvc-u")
+    last.update(diameter="6 in", end_elevation="42 ft", material="pvc-u", condition="aged")
     new = apply_action(doc, "add:elements:pipe").doc["elements"][-1]
-    assert (new["diameter"], new["end_elevation"], new["material"]) == ("6 in", "42 ft", "pvc-u")
-    assert new["length"] == calc_sheet.ELEMENT_TEMPLATES["pipe"]["length"]
-    assert new["fittings"] == calc_sheet.ELEMENT_TEMPLATES["pipe"]["fittings"]
+    assert (new["diameter"], new["material"], new["condition"]) == ("6 in", "pvc-u", "aged")
+    # Where it goes is the engineer's to say: its length and end elevation are asked for, not assumed.
+    assert new["length"] == new["end_elevation"] == ""
+    assert new["fittings"] == calc_sheet.ELEMENT_TEMPLATES["pipe"]["fittings"] == []
 
 
 @pytest.mark.parametrize("kind", ["pipe", "turbine", "pump", "valve"])
 def test_every_kind_can_be_added(kind):
-    result = apply_action(blank_sheet(), f"add:elements:{kind}")
+    result = apply_action(gravity_line(), f"add:elements:{kind}")
     assert result.message is None and result.doc["elements"][-1]["kind"] == kind
 
 
 def test_move_and_remove():
-    doc = apply_action(apply_action(blank_sheet(), "add:elements:valve").doc, "add:elements:pipe").doc
+    doc = apply_action(apply_action(gravity_line(), "add:elements:valve").doc, "add:elements:pipe").doc
     kinds = lambda d: [e["kind"] for e in d["elements"]]
     assert kinds(doc) == ["pipe", "valve", "pipe"]
     assert kinds(apply_action(doc, "up:elements.1").doc) == ["valve", "pipe", "pipe"]
@@ -105,7 +111,7 @@ def test_move_and_remove():
 
 
 def test_fittings_profile_and_curve_points():
-    doc = blank_sheet()
+    doc = gravity_line()
     n = len(doc["elements"][0]["fittings"])
     doc = apply_action(doc, "add:elements.0.fittings").doc
     assert len(doc["elements"][0]["fittings"]) == n + 1
@@ -119,12 +125,12 @@ def test_fittings_profile_and_curve_points():
 
 
 def test_list_limits_are_enforced():
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["elements"] = [copy.deepcopy(doc["elements"][0]) for _ in range(calc_sheet.MAX_ELEMENTS)]
     result = apply_action(doc, "add:elements:pipe")
     assert result.message and str(calc_sheet.MAX_ELEMENTS) in result.message
     assert len(result.doc["elements"]) == calc_sheet.MAX_ELEMENTS
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["elements"][0]["fittings"] = [dict(calc_sheet.FITTING_TEMPLATE)] * calc_sheet.MAX_FITTINGS
     assert apply_action(doc, "add:elements.0.fittings").message
 
@@ -132,13 +138,13 @@ def test_list_limits_are_enforced():
 @pytest.mark.parametrize("action", ["add:elements:boat", "remove:elements.7", "up:header.title", "add:header",
                                     "explode:elements.0", "add:elements.0.length", "remove:nonsense"])
 def test_unknown_actions_change_nothing(action):
-    doc = blank_sheet()
+    doc = gravity_line()
     result = apply_action(doc, action)
     assert result.message and result.doc == doc
 
 
 def test_edit_keeps_valid_fields_and_leaves_invalid_ones_at_their_stored_value():
-    stored = blank_sheet()
+    stored = gravity_line()
     fields = {"elements.0.length": "750 m", "elements.0.diameter": "12 parsnips"}
     result = edit(stored, stored, fields, None)
     assert result.display["elements"][0]["diameter"] == "12 parsnips"  # what was typed stays on screen
@@ -149,7 +155,7 @@ def test_edit_keeps_valid_fields_and_leaves_invalid_ones_at_their_stored_value()
 
 
 def test_edit_with_errors_it_cannot_pin_down_keeps_the_stored_sheet():
-    stored = blank_sheet()
+    stored = gravity_line()
     # Each value is fine alone; together the pipe connection would sit above the water surface.
     fields = {"start.elevation": "50 m", "start.outlet_elevation": "60 m"}
     result = edit(stored, stored, fields, None)
@@ -158,7 +164,7 @@ def test_edit_with_errors_it_cannot_pin_down_keeps_the_stored_sheet():
 
 
 def test_edit_when_lists_on_screen_differ_from_the_store_keeps_the_stored_sheet():
-    stored = blank_sheet()
+    stored = gravity_line()
     on_screen = copy.deepcopy(stored)
     on_screen["elements"][0]["fittings"].append({"type": "k", "K": "", "count": 1})
     result = edit(stored, on_screen, {"elements.0.fittings.2.K": "abc"}, None)
@@ -167,7 +173,7 @@ def test_edit_when_lists_on_screen_differ_from_the_store_keeps_the_stored_sheet(
 
 
 def test_edit_with_action_applies_it_to_what_is_kept():
-    stored = blank_sheet()
+    stored = gravity_line()
     result = edit(stored, stored, {"elements.0.length": "bad"}, "add:elements:valve")
     assert [e["kind"] for e in result.keep["elements"]] == ["pipe", "valve"]
     assert result.keep["elements"][0]["length"] == stored["elements"][0]["length"]
@@ -175,13 +181,13 @@ def test_edit_with_action_applies_it_to_what_is_kept():
 
 
 def test_form_document_falls_back_to_the_stored_one():
-    stored = blank_sheet()
+    stored = gravity_line()
     for text in (None, "", "not json", "[1, 2]", "{" * 100000, '{"a":' * 50 + "1" + "}" * 50):
         assert edits.form_document(text, stored) == stored
 
 
 def test_get_path_missing():
-    doc = blank_sheet()
+    doc = gravity_line()
     assert editing.is_missing(get_path(doc, "elements.5.length"))
     assert editing.is_missing(get_path(doc, "elements.0.length.x"))
     assert get_path(doc, "elements.0.length") == doc["elements"][0]["length"]
@@ -206,23 +212,28 @@ def test_a_valid_change_is_kept_while_a_row_on_screen_is_not_valid_yet():
     # The case of the issue: a curve row added on screen but not valid yet held back every later change.
     stored = _pumped()
     p = _pump_index(stored)
-    added = edit(stored, stored, {}, f"add:elements.{p}.curve")
-    assert len(added.display["elements"][p]["curve"]) == len(stored["elements"][p]["curve"]) + 1
-    on_screen, kept = added.display, added.keep
-    result = edit(kept, on_screen, {"header.project": "Typed after the new row"}, None)
-    assert result.keep["header"]["project"] == "Typed after the new row"
-    assert len(result.keep["elements"][p]["curve"]) == len(stored["elements"][p]["curve"])  # not valid yet
-    assert len(result.display["elements"][p]["curve"]) == len(on_screen["elements"][p]["curve"])
-    assert parse(result.keep).ok and result.stale
-    # Once the row is filled in, it is stored too.
     n = len(stored["elements"][p]["curve"])
-    filled = edit(result.keep, result.display, {f"elements.{p}.curve.{n}.flow": "70 L/s",
-                                                f"elements.{p}.curve.{n}.head": "20 m"}, None)
-    assert len(filled.keep["elements"][p]["curve"]) == n + 1 and not filled.stale
+    flow, head = f"elements.{p}.curve.{n}.flow", f"elements.{p}.curve.{n}.head"
+    added = edit(stored, stored, {}, f"add:elements.{p}.curve")
+    # A new row invents no point: it is stored empty, and the line waits for its flow and head.
+    assert added.display["elements"][p]["curve"][n] == calc_sheet.CURVE_POINT_TEMPLATE
+    assert len(added.keep["elements"][p]["curve"]) == n + 1 and not added.stale
+    assert {e.path for e in added.errors} == {flow, head} and all(calc_sheet.is_request(e) for e in added.errors)
+    # A flow that repeats the shut-off point's is wrong: it stays on screen only, and later changes are kept.
+    typed = edit(added.keep, added.display, {flow: "0 L/s", head: "20 m"}, None)
+    result = edit(typed.keep, typed.display, {"header.project": "Typed after the new row"}, None)
+    assert result.keep["header"]["project"] == "Typed after the new row"
+    assert result.keep["elements"][p]["curve"][n]["flow"] == ""  # not valid yet
+    assert result.display["elements"][p]["curve"][n]["flow"] == "0 L/s"
+    assert not parse(result.keep).mistakes and result.stale
+    # Once the row is filled in rightly, it is stored too, and the line solves again.
+    filled = edit(result.keep, result.display, {flow: "70 L/s", head: "20 m"}, None)
+    assert filled.keep["elements"][p]["curve"][n]["flow"] == "70 L/s" and not filled.stale
+    assert parse(filled.keep).ok
 
 
 def test_each_invalid_field_stays_at_its_stored_value_and_every_valid_one_is_kept():
-    stored = blank_sheet()
+    stored = gravity_line()
     fields = {"header.project": "P-1", "elements.0.length": "12 parsnips", "elements.0.diameter": "200 mm",
               "start.elevation": "1,200 m", "header.title": "Kept title"}
     result = edit(stored, stored, fields, None)
@@ -288,7 +299,7 @@ def test_reconcile_never_stores_an_invalid_sheet():
 def test_a_bare_number_takes_the_unit_its_placeholder_shows():
     from server.pages import placeholder_units
 
-    stored = blank_sheet()
+    stored = gravity_line()
     shown = placeholder_units(stored)
     # The pipe run's placeholders (server/form.py PIPE): length 'e.g. 420 m', diameter 'e.g. 300 mm'.
     assert shown["elements.0.length"] == "m" and shown["elements.0.diameter"] == "mm"
@@ -304,7 +315,7 @@ def test_a_bare_number_takes_the_unit_its_placeholder_shows():
 
 
 def test_a_bare_number_where_the_placeholder_shows_no_unit_gets_a_message_suggesting_one():
-    stored = blank_sheet()
+    stored = gravity_line()
     result = edit(stored, stored, {"elements.0.length": "250"}, None, units=lambda doc: {})
     message = {e.path: e.message for e in result.errors}["elements.0.length"]
     assert "needs a unit" in message and "250 m" in message and "250 ft" in message
@@ -314,7 +325,7 @@ def test_a_bare_number_where_the_placeholder_shows_no_unit_gets_a_message_sugges
 def test_a_comma_in_a_bare_number_says_what_to_write(typed, shown):
     from server.pages import placeholder_units
 
-    stored = blank_sheet()
+    stored = gravity_line()
     result = edit(stored, stored, {"elements.0.length": typed}, None, units=placeholder_units)
     assert shown in {e.path: e.message for e in result.errors}["elements.0.length"]
     assert result.keep["elements"][0]["length"] == stored["elements"][0]["length"]

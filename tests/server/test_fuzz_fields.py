@@ -13,6 +13,7 @@ from urllib.parse import quote
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from linetools import gravity_line
 from servertools import FIGURES, HX, BrowserClient, form_fields
 
 from calc.model import sheet as calc_sheet
@@ -75,9 +76,9 @@ def _places(doc) -> list[tuple]:
 
 
 def _messages(html: str) -> list[tuple[str, str]]:
-    """(path, text) of every message slot in a page or fragment."""
-    return [(m.group(1).replace("-", "."), m.group(2).strip())
-            for m in re.finditer(r'<p[^>]*id="m-([A-Za-z0-9_-]+)"[^>]*>([^<]*)<', html)]
+    """(path, text) of every message slot in a page or fragment (a request is a span inside its slot)."""
+    return [(m.group(1).replace("-", "."), re.sub(r"<[^>]+>", "", m.group(2)).strip())
+            for m in re.finditer(r'<p[^>]*id="m-([A-Za-z0-9_-]+)"[^>]*>(.*?)</p>', html, re.S)]
 
 
 @FUZZ
@@ -171,7 +172,7 @@ def test_any_json_at_any_place_of_an_api_document(fuzz_client, data):
        extra=st.dictionaries(st.text(max_size=10), json_values, max_size=3))
 def test_any_value_in_the_api_envelope(fuzz_client, base, sheet, extra):
     client = fuzz_client
-    document = calc_sheet.blank_sheet()
+    document = gravity_line()
     body = {"document": document, "base_revision": base, **extra}
     before = client.get("/api/sheets").json()
     response = client.put(f"/api/sheets/{quote(str(sheet), safe='')}", content=json.dumps(body),

@@ -9,7 +9,6 @@ import re
 import stat
 
 import pytest
-
 from servertools import FIGURES
 
 from server.app import create_app

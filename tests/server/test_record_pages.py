@@ -12,9 +12,9 @@ from pathlib import Path
 
 import pytest
 from pypdf import PdfReader
+from servertools import PASSWORD, account_for
 
 from calc.model import sheet as calc_sheet
-from servertools import PASSWORD, account_for
 from server import pdf as server_pdf
 from server import record as server_record
 
@@ -127,7 +127,8 @@ def test_missing_sheet_and_bad_paper(client, sheet_id):
 def test_pdf_text_headers_page_numbers_values_and_draft_stamp(client, sheet_id):
     response = client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf", params={"paper": "a4"})
     assert response.status_code == 200 and response.headers["content-type"] == "application/pdf"
-    assert 'filename="TS-001-rev-A.pdf"' in response.headers["content-disposition"]
+    # Unsigned, the first revision is A.1: the first working revision on the way to issue A.
+    assert 'filename="TS-001-rev-A.1.pdf"' in response.headers["content-disposition"]
     pages = pdf_pages(response.content)
     n = len(pages)
     assert n >= 5
@@ -191,7 +192,7 @@ def test_first_signature_freezes_and_a_later_edit_starts_the_next_revision(clien
     after = client.get(f"/api/sheets/{sheet_id}/revisions/1").json()
     assert after["digest"] == before["digest"] and after["document"] == before["document"] and after["frozen"]
     second = client.get(f"/api/sheets/{sheet_id}/revisions/2/record").json()
-    assert second["label"] == "B" and second["frozen"] is False and second["fingerprint"] != body["fingerprint"]
+    assert second["label"] == "B.1" and second["frozen"] is False and second["fingerprint"] != body["fingerprint"]
     page = client.get(f"/sheets/{sheet_id}/revisions/1/record").text
     assert "is signed and frozen: it cannot change" in page and "starts revision B" in page
 
@@ -200,11 +201,12 @@ def test_numbers_scheme_labels(client):
     doc = copy.deepcopy(SHEET)
     doc["header"]["revision_scheme"] = "numbers"
     sid = new_sheet(client, doc)
-    assert client.get(f"/api/sheets/{sid}/revisions/1/record").json()["label"] == "0"
+    assert client.get(f"/api/sheets/{sid}/revisions/1/record").json()["label"] == "0.1"
     assert sign(client, sid, 1, "preparer", "P").status_code == 201
+    assert client.get(f"/api/sheets/{sid}/revisions/1/record").json()["label"] == "0"  # issued
     doc["header"]["title"] = "Changed"
     client.put(f"/api/sheets/{sid}", json={"document": doc, "base_revision": 1})
-    assert client.get(f"/api/sheets/{sid}/revisions/2/record").json()["label"] == "1"
+    assert client.get(f"/api/sheets/{sid}/revisions/2/record").json()["label"] == "1.1"
 
 
 def test_a_frozen_revision_refuses_change(client, sheet_id, app):
@@ -321,7 +323,7 @@ def test_compare_two_revisions(client, sheet_id):
     assert response.status_code == 200 and response.template.name == "compare.html"
     ctx = response.context
     assert ctx["a"].number == 1 and ctx["b"].number == 2  # the signed revision against the latest
-    assert [c["path"] for c in ctx["changes"]] == ["elements.0.length"]
+    assert [c["path"] for c in ctx["changes"]] == ["elements.pipe-1.length"]  # matched by id (given by order)
     assert "600 m" in response.text and "900 m" in response.text
     flow = next(r for r in ctx["results"].rows if r[0] == "Flow at the design point")
     assert flow[1] != flow[2]
@@ -446,7 +448,7 @@ def test_sheet_page_says_a_signed_revision_is_frozen_and_history_marks_it(client
     page = client.get(f"/sheets/{sheet_id}").text
     assert "Revision A is signed and frozen" in page and "next change starts revision B" in page
     history = client.get(f"/sheets/{sheet_id}/history").text
-    assert "rev. A" in history and "tag-signed" in history
+    assert 'aria-label="Record of revision A"' in history and "tag-signed" in history
     assert f"/sheets/{sheet_id}/revisions/1/record" in history
 
 

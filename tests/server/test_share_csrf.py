@@ -5,9 +5,9 @@ from __future__ import annotations
 import re
 
 import pytest
+from linetools import gravity_line
 from servertools import FIGURES, HX, account_for, fill, form_fields, route_table
 
-from calc.model import sheet as calc_sheet
 from server.guard import CSP
 from server.web import cookie_name
 
@@ -122,14 +122,14 @@ def test_what_a_hostile_page_can_send_is_refused(app):
         for kind in ("application/x-www-form-urlencoded", "multipart/form-data; boundary=x", "text/plain"):
             response = victim.post("/api/sheets", content=b'{"document": {}}', headers={"Content-Type": kind})
             assert response.status_code == 415 and "application/json" in response.json()["message"]
-        response = victim.post("/api/sheets", json={"document": calc_sheet.blank_sheet()},
+        response = victim.post("/api/sheets", json={"document": gravity_line()},
                                headers={"Origin": FOREIGN})
         assert response.status_code == 403
         assert _state(victim) == before
 
 
 def test_the_json_api_takes_json_without_a_form_token(browser):
-    response = browser.post("/api/sheets", json={"document": calc_sheet.blank_sheet()})
+    response = browser.post("/api/sheets", json={"document": gravity_line()})
     assert response.status_code == 201
     response = browser.post("/api/sheets", content=b'{"document": {}}',
                             headers={"Content-Type": "application/json; charset=utf-8"})

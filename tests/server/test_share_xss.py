@@ -6,10 +6,10 @@ import io
 import json
 
 import pytest
+from linetools import gravity_line
 from pypdf import PdfReader
 from servertools import FIGURES, HX, PASSWORD, account_for, form_fields
 
-from calc.model import sheet as calc_sheet
 from server import pdf
 from server.form import FormView
 
@@ -89,7 +89,7 @@ def test_payloads_typed_into_every_field_come_back_escaped(client, sheet_id):
 
 
 def test_payloads_from_the_api_come_back_escaped_in_pages_records_and_messages(client):
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     for key in ("title", "project", "calc_number", "purpose"):
         doc["header"][key] = PAYLOADS[0] + PAYLOADS[1]
     doc["elements"][0]["label"] = PAYLOADS[2]
@@ -142,7 +142,7 @@ def test_link_notes_and_the_key_page_escape_what_they_show(data_dir):
 
 def test_the_pdf_renderer_asks_only_for_the_programs_own_files(client, monkeypatch):
     # Markup that would make a careless renderer load a local file or reach the network.
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     doc["header"]["title"] = PAYLOADS[4] + PAYLOADS[5]
     doc["header"]["purpose"] = '<iframe src="http://127.0.0.1:9/"></iframe><style>@import "file:///etc/passwd";</style>'
     doc["elements"][0]["label"] = '<object data="file:///etc/hostname"></object>'

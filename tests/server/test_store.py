@@ -5,13 +5,13 @@ from __future__ import annotations
 import sqlite3
 
 import pytest
+from linetools import gravity_line
 
-from calc.model.sheet import blank_sheet
 from server.store import DB_NAME, SheetNotFound, StaleRevision, Store, dump_document
 
 
 def _doc(title: str) -> dict:
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["header"]["title"] = title
     return doc
 

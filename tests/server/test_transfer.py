@@ -7,6 +7,7 @@ import sqlite3
 import threading
 
 import pytest
+from linetools import gravity_line
 from servertools import FIGURES, PASSWORD, BrowserClient, account_for, form_fields
 
 from calc.model import sheet as calc_sheet
@@ -30,7 +31,7 @@ def _signatures(client, sheet_id: int, number: int) -> list:
 @pytest.fixture
 def worked(client) -> int:
     """A sheet with three revisions by two people, the second signed by preparer and checker."""
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     doc["header"]["title"] = "Exported line — ünïcode, 6 in"
     sheet_id = client.post("/api/sheets", json={"document": doc, "author": "Ann", "note": "first"}).json()["id"]
     doc["header"]["project"] = "Second"
@@ -134,7 +135,7 @@ def test_import_from_the_home_page(client, worked):
 
 
 def test_an_export_larger_than_a_form_may_be_but_within_the_import_limit_is_taken(client, app):
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     doc["elements"] = [dict(doc["elements"][0], label=f"run {i} " + "x" * 90) for i in range(calc_sheet.MAX_ELEMENTS)]
     store = app.state.store
     sheet_id = store.create_sheet(doc).sheet_id
@@ -185,7 +186,7 @@ def test_cli_export_import_and_backup(app, client, worked, data_dir, tmp_path, c
 
 def test_backup_while_the_store_is_being_written_is_consistent(app, data_dir, tmp_path):
     store = app.state.store
-    doc = calc_sheet.blank_sheet()
+    doc = gravity_line()
     sheet_id = store.create_sheet(doc).sheet_id
     stop = threading.Event()
     written = [1]
@@ -290,7 +291,7 @@ def test_an_export_signed_by_a_trusted_installation_keeps_its_sign_off(tmp_path,
 
     a, b = create_app(tmp_path / "a"), create_app(tmp_path / "b")
     with BrowserClient(a) as ca, BrowserClient(b) as cb:
-        sid = ca.post("/api/sheets", json={"document": calc_sheet.blank_sheet()}).json()["id"]
+        sid = ca.post("/api/sheets", json={"document": gravity_line()}).json()["id"]
         for role, name in (("preparer", "Pia"), ("checker", "Chen"), ("approver", "Abe")):
             assert ca.post(f"/api/sheets/{sid}/revisions/1/signatures",
                            json={"role": role, "login": account_for(a, name), "password": PASSWORD}).status_code == 201

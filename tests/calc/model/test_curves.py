@@ -11,12 +11,13 @@ import math
 import fluids.friction
 import numpy as np
 import pytest
+from linetools import gravity_line
 from scipy.interpolate import PchipInterpolator
 from scipy.optimize import brentq
 
 from calc.analysis import analyse
 from calc.model.elements import Curve
-from calc.model.sheet import blank_sheet, parse
+from calc.model.sheet import parse
 from calc.steady.series import solve
 
 G = 9.80665
@@ -48,7 +49,7 @@ def test_falling_curve_keeps_falling_past_its_last_point():
 
 
 def pump_line(curve=SEVEN, z_end="140 m", eff=None, length="400 m", pipe_end="138 m"):
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["start"].update({"elevation": "100 m", "outlet_elevation": "98 m"})
     doc["end"].update({"elevation": z_end})
     pts = []
@@ -124,7 +125,7 @@ def test_operating_points_past_the_curve_are_flagged_and_far_past_refused():
 
 
 def test_turbine_without_efficiency_is_said():
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["start"].update({"elevation": "200 m", "outlet_elevation": "198 m"})
     doc["end"].update({"elevation": "100 m"})
     doc["elements"][0].update({"end_elevation": "98 m", "fittings": []})

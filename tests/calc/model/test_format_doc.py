@@ -6,8 +6,10 @@ import json
 import re
 from pathlib import Path
 
+from linetools import gravity_line
+
 from calc.analysis import analyse
-from calc.model.sheet import blank_sheet, parse
+from calc.model.sheet import parse
 
 DOC = Path(__file__).resolve().parents[3] / "docs" / "sheet-format.md"
 
@@ -17,7 +19,7 @@ def examples() -> list[dict]:
     for block in re.findall(r"```json\n(.*?)```", DOC.read_text(), re.S):
         text = block.strip()
         if text.startswith('"'):  # a fragment of a sheet, e.g. "settings": {...}: set into a blank sheet
-            doc = blank_sheet()
+            doc = gravity_line()
             doc.update(json.loads("{" + text + "}"))
         else:
             doc = json.loads(text)

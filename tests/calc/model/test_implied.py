@@ -15,10 +15,11 @@ import math
 import CoolProp.CoolProp as CP
 import fluids.friction
 import pytest
+from linetools import gravity_line
 from scipy.optimize import brentq
 
 from calc.analysis import analyse
-from calc.model.sheet import blank_sheet, parse
+from calc.model.sheet import parse
 from calc.record import build
 from calc.steady.inverse import smallest_size
 from calc.steady.series import solve
@@ -56,7 +57,7 @@ def independent_flow(dH, runs, K_local, liquid=None):
 
 
 def one_run(end_elevation="78 m", fittings=None, end_surface="80 m"):
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["start"].update({"elevation": "100 m", "outlet_elevation": "97 m"})
     doc["end"].update({"elevation": end_surface})
     doc["elements"][0].update({"length": "500 m", "diameter": "150 mm", "material": "", "roughness": "0.045 mm",

@@ -3,13 +3,14 @@
 import copy
 
 import pytest
+from linetools import gravity_line
 
-from calc.model.sheet import MAX_ELEMENTS, blank_sheet, parse
+from calc.model.sheet import MAX_ELEMENTS, parse
 from calc.units import FLOW, LENGTH, POWER, PRESSURE, TEMPERATURE, InputError, parse_quantity
 
 
 def with_pipe(**fields):
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["elements"][0].update(fields)
     return doc
 
@@ -40,7 +41,7 @@ def test_units_si_and_us_customary(text, kind, si):
     ("length", "150 kg", "must be a length"),
     ("length", "150", "needs a unit"),
     ("length", "-5 m", "must be positive"),
-    ("length", "", "is empty"),
+    ("length", "", "give the run's length"),
     ("length", "abc", "must start with a number"),
     ("length", "12 blorps", "is not a unit we know"),
     ("diameter", "0 mm", "must be positive"),
@@ -54,7 +55,7 @@ def test_bad_pipe_field_is_named_with_what_is_expected(field, value, words):
 
 
 def turbine(**kw):
-    doc = blank_sheet()
+    doc = gravity_line()
     t = {"kind": "turbine", "label": "T", "mode": "power", "power": "10 kW", "efficiency": "0.8"}
     t.update(kw)
     doc["elements"].append(t)
@@ -73,7 +74,7 @@ def test_efficiency_as_percentage():
 
 
 def test_pump_curve_needs_three_points():
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["elements"].insert(0, {"kind": "pump", "label": "P", "mode": "curve",
                                "curve": [{"flow": "0 L/s", "head": "30 m"}, {"flow": "10 L/s", "head": "25 m"}]})
     errs = errors(doc)
@@ -81,7 +82,7 @@ def test_pump_curve_needs_three_points():
 
 
 def test_pump_curve_point_errors_name_the_point():
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["elements"].insert(0, {"kind": "pump", "label": "P", "mode": "curve",
                                "curve": [{"flow": "0 L/s", "head": "30 m"}, {"flow": "10 m", "head": "25 m"},
                                          {"flow": "20 L/s", "head": "twenty"}]})
@@ -113,13 +114,13 @@ def test_bad_fitting_count():
 
 
 def test_huge_list_is_refused_with_a_message():
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["elements"] = [copy.deepcopy(doc["elements"][0]) for _ in range(MAX_ELEMENTS + 1)]
     assert "at most" in errors(doc)["elements"]
 
 
 def test_water_outside_liquid_range():
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["liquid"]["temperature"] = "150 degC"
     assert "liquid.temperature" in errors(doc)
 

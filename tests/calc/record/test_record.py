@@ -14,9 +14,11 @@ from pathlib import Path
 
 import fluids
 import pytest
+from linetools import gravity_line
 
 from calc import record
 from calc.analysis import analyse
+from calc.model import sheet as sheet_model
 from calc.record import fingerprint as fp
 from calc.record import plots
 
@@ -529,8 +531,8 @@ def test_input_changes_name_each_field_and_compare_gives_before_and_after():
     b["elements"][3]["length"] = "2400 m"
     b["header"]["title"] = "Longer main"
     changes = record.input_changes(a, b)
-    assert {c["path"] for c in changes} == {"elements.3.length", "header.title"}
-    length = next(c for c in changes if c["path"] == "elements.3.length")
+    assert {c["path"] for c in changes} == {"elements.pipe-3.length", "header.title"}  # ids given by order
+    length = next(c for c in changes if c["path"] == "elements.pipe-3.length")
     assert length["before"] == "2100 m" and length["after"] == "2400 m"
     assert length["where"] == "element 4 (pipe «Rising main») › length"
     table = record.compare(analyse(a), analyse(b), "SI")
@@ -539,11 +541,34 @@ def test_input_changes_name_each_field_and_compare_gives_before_and_after():
     assert printed(flow[2].split()[0]) < printed(flow[1].split()[0]) and flow[3].startswith("-")
 
 
+def test_input_changes_match_elements_by_id_so_a_move_is_one_change():
+    a = sheet_model.ensure_ids(demo("pumped-main"))
+    b = copy.deepcopy(a)
+    at = next(i for i, e in enumerate(b["elements"]) if e["kind"] == "pump")
+    assert at > 0
+    pump = b["elements"].pop(at)
+    b["elements"].insert(at - 1, pump)  # the pump moves up one place, nothing else changes
+    moved = record.input_changes(a, b)
+    assert len(moved) == 1 and moved[0]["path"] == f"elements.{pump['id']}"
+    assert moved[0]["after"] == f"moved to position {at}" and moved[0]["where"].startswith(f"element {at} (pump")
+    # Moved and changed: the change is reported against the element's own fields, not its new neighbour's.
+    b["elements"][at - 1]["label"] += " (renamed)"
+    paths = {c["path"] for c in record.input_changes(a, b)}
+    assert paths == {f"elements.{pump['id']}", f"elements.{pump['id']}.label"}
+    # An element removed and one added are one change each, named in words.
+    c = copy.deepcopy(a)
+    gone = c["elements"].pop(0)
+    c["elements"].append({"kind": "valve", "label": "Isolating", "K": "0.2", "diameter": ""})
+    words = {(x["where"], x["before"], x["after"]) for x in record.input_changes(a, c)}
+    assert any(w[0].startswith("element 1 (") and w[2] is None for w in words)  # removed
+    assert (f"element {len(c['elements'])} (valve «Isolating»)", None, f"added at position {len(c['elements'])}") in words
+    assert gone["id"] not in {e.get("id") for e in c["elements"]}
+
+
 def test_curves_plot_dashes_a_machine_curve_past_its_typed_points(hydro):
     from calc.analysis import analyse
-    from calc.model.sheet import blank_sheet
-
-    doc = blank_sheet()
+    
+    doc = gravity_line()
     doc["start"].update({"elevation": "100 m", "outlet_elevation": "98 m"})
     doc["end"].update({"elevation": "110 m"})
     doc["elements"] = [

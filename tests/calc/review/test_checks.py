@@ -7,11 +7,12 @@ import math
 import CoolProp.CoolProp as CP
 import fluids.friction
 import pytest
+from linetools import gravity_line
 from scipy.optimize import brentq, minimize_scalar
 
 from calc.analysis import analyse
 from calc.model.settings import CheckSettings
-from calc.model.sheet import blank_sheet, parse
+from calc.model.sheet import parse
 from calc.review import checks
 from calc.review.findings import SEVERITIES
 from calc.review.machines import npsh_available, npsh_available_suction, npsh_margin_needed
@@ -110,7 +111,7 @@ def test_npsh_margin_rule_of_ansi_hi_9_6_1():
 
 def hump_doc(z_hump, chainage="400 m", temperature="20 degC"):
     """1000 m of 150 mm steel from a tank at 100 m (pipe leaves at 95 m) to a tank at 82 m, over a hump."""
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["liquid"]["temperature"] = temperature
     doc["start"].update({"elevation": "100 m", "outlet_elevation": "95 m"})
     doc["end"].update({"elevation": "82 m"})
@@ -212,7 +213,7 @@ def test_warm_water_separates_sooner():
 
 def pump_line_doc(npshr="2 m", eff=("0.6", "0.75", "0.6"), z_pump="103 m", checks_=None):
     """Sump at 100 m, 3 m lift to the pump through 6 m of suction, 300 m rising main to a tank at 130 m."""
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["liquid"]["temperature"] = "20 degC"
     doc["start"].update({"elevation": "100 m", "outlet_elevation": "98 m"})
     doc["end"].update({"elevation": "130 m"})
@@ -322,7 +323,7 @@ def test_suction_velocity_limit_is_the_lower_one():
 
 def turbine_doc(head="92 m", eta="0.85"):
     """Reservoir 200 m to tailwater 100 m (100 m gross) through 1500 m of 400 mm steel and a fixed-head turbine."""
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["start"].update({"elevation": "200 m", "outlet_elevation": "198 m"})
     doc["end"].update({"elevation": "100 m"})
     doc["elements"][0].update({"length": "1500 m", "diameter": "400 mm", "roughness": "0.045 mm", "material": "",
@@ -374,7 +375,7 @@ def test_every_turbine_line_carries_the_runaway_caution_and_electrical_safety():
 # ----------------------------------------------------------------------------- surge
 
 def steel_main_doc(rating="", wall="8 mm", restraint="expansion_joints", material="steel-commercial"):
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["start"].update({"elevation": "150 m"})
     doc["end"].update({"elevation": "100 m"})
     doc["elements"][0].update({"length": "2000 m", "diameter": "500 mm", "roughness": "0.045 mm",
@@ -442,7 +443,7 @@ def test_velocity_limits_set_on_the_sheet():
 
 
 def oil_doc(z_start):
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["liquid"] = {"kind": "custom", "name": "oil", "density": "900 kg/m^3", "viscosity": "0.05 Pa*s",
                      "vapour_pressure": "1 kPa"}
     doc["start"].update({"elevation": z_start})
@@ -473,14 +474,14 @@ GENERAL = {"general-surge", "general-ratings", "general-anchorage", "general-air
 
 
 def test_general_cautions_always_present():
-    _, _, findings = review(blank_sheet())
+    _, _, findings = review(gravity_line())
     got = {f.code for f in findings if f.code.startswith("general-")}
     assert got == GENERAL  # no machine: no electrical caution
     assert all(f.severity == "caution" for f in findings if f.code.startswith("general-"))
 
 
 def test_general_cautions_present_without_an_operating_point():
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["end"]["elevation"] = "120 m"  # uphill with no pump: no flow
     a = analyse(doc)
     assert a.solution.design is None and a.band is None
@@ -500,7 +501,7 @@ def test_findings_sorted_worst_first_and_json_safe():
 
 
 def test_check_settings_errors_name_their_field():
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["settings"]["checks"] = {"velocity_max": "3", "bep_low": "150 %", "k_uncertainty": "-5 %",
                                  "npsh_margin_ratio": "0.9", "roughness_high": "blue", "surge_allowance": "2 m"}
     errors = parse(doc).errors_by_path()
@@ -508,10 +509,10 @@ def test_check_settings_errors_name_their_field():
 
 
 def test_check_settings_defaults_and_units():
-    line = line_of(blank_sheet())
+    line = line_of(gravity_line())
     s = line.settings["checks"]
     assert s == CheckSettings() and s.given == ()
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["settings"]["checks"] = {"velocity_max": "10 ft/s", "k_uncertainty": "30 %", "roughness_low": "50 %",
                                  "roughness_high": "0.5 mm", "surge_allowance": "3 bar", "bep_low": 0.6}
     s = line_of(doc).settings["checks"]

@@ -12,17 +12,17 @@ import math
 
 import fluids.friction
 import pytest
+from linetools import gravity_line
 from scipy.optimize import brentq
 
 from calc.analysis import analyse
-from calc.model.sheet import blank_sheet
 
 G = 9.80665
 
 
 def siphon_doc(z_crest="97 m", x_crest="400 m"):
     """1000 m of 150 mm steel from a tank at 100 m (pipe leaves at 95 m) over a crest to a tank at 82 m."""
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["start"].update({"elevation": "100 m", "outlet_elevation": "95 m"})
     doc["end"].update({"elevation": "82 m"})
     doc["elements"][0].update({

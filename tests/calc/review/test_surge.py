@@ -11,10 +11,10 @@ from __future__ import annotations
 import math
 
 import pytest
+from linetools import gravity_line
 
 from calc import tables
 from calc.analysis import analyse
-from calc.model.sheet import blank_sheet
 from calc.review.surge import PUMP_RUNDOWN_MIN, korteweg_wave_speed, restraint_factor
 
 G = 9.80665
@@ -40,7 +40,7 @@ def test_pe_sdr11_thin_form_overstates_the_wave_speed_by_about_twelve_percent():
 
 def line_doc(runs, end="80 m", fittings_last=None, valve=True, checks_=None):
     """Runs (length, bore, material, wall) from a tank at 150 m to a valve and a tank; all anchored."""
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["start"].update({"elevation": "150 m", "outlet_elevation": "148 m"})
     doc["end"].update({"elevation": end})
     elements = []
@@ -96,7 +96,7 @@ def test_a_slow_closure_gives_michauds_fraction():
 
 
 def pump_doc(suction="9 m", rating="2 bar"):
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["start"].update({"elevation": "50 m", "outlet_elevation": "48 m"})
     doc["end"].update({"elevation": "90 m"})
     doc["elements"] = [

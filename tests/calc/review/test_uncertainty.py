@@ -5,10 +5,11 @@ import math
 
 import fluids.friction
 import pytest
+from linetools import gravity_line
 from scipy.optimize import brentq
 
 from calc.analysis import analyse
-from calc.model.sheet import blank_sheet, parse
+from calc.model.sheet import parse
 from calc.review import uncertainty
 from calc.steady.series import solve
 from calc.water import G
@@ -26,7 +27,7 @@ STEEL_NEW, STEEL_AGED = 0.045e-3, 1.35e-3  # material table: Moody 1944 new; Ide
 
 
 def gravity_doc(checks_=None, material="steel-commercial", roughness=""):
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["elements"][0].update({"length": "500 m", "diameter": "150 mm", "material": material,
                                "roughness": roughness, "end_elevation": "80 m",
                                "fittings": [{"type": "entrance-sharp", "count": 1},
@@ -266,7 +267,7 @@ def test_variant_holds_the_exit_at_one():
 
 def transitional_doc():
     """Warm water through 40 m of 20 mm tube at a flow giving Re near 3000 (the transition zone)."""
-    doc = blank_sheet()
+    doc = gravity_line()
     doc["start"].update({"elevation": "10.12 m", "outlet_elevation": "10 m"})
     doc["end"].update({"elevation": "10 m"})
     doc["elements"][0].update({"length": "40 m", "diameter": "20 mm", "material": "copper", "roughness": "",

@@ -11,8 +11,9 @@ import CoolProp.CoolProp as CP
 import fluids.friction
 import fluids.piping
 import pytest
+from linetools import gravity_line
 
-from calc.model.sheet import blank_sheet, parse
+from calc.model.sheet import parse
 from calc.steady.inverse import head_needed, smallest_size
 
 G = 9.80665
@@ -20,7 +21,7 @@ G = 9.80665
 
 def pe_line(tmp_path=None):
     """A PE100 run between two reservoirs, 20 m apart, outlet submerged, entrance and exit typed."""
-    doc = blank_sheet()
+    doc = gravity_line()
     run = doc["elements"][0]
     run.update({"length": "1200 m", "material": "pe100", "end_elevation": "78 m", "diameter": "200 mm"})
     return doc

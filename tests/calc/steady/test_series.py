@@ -8,10 +8,11 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from linetools import gravity_line
 from scipy.interpolate import PchipInterpolator
 from scipy.optimize import brentq
 
-from calc.model.sheet import blank_sheet, parse
+from calc.model.sheet import parse
 from calc.steady.series import residual, solve
 from calc.water import G
 
@@ -24,7 +25,7 @@ def line_of(doc):
 
 def gravity_doc(*, length="500 m", diameter="150 mm", roughness="0.045 mm", z_start="100 m", z_end="80 m",
                 fittings=None, liquid=None):
-    doc = blank_sheet()
+    doc = gravity_line()
     run = doc["elements"][0]
     run.update({"length": length, "diameter": diameter, "roughness": roughness, "material": "",
                 "end_elevation": z_end, "fittings": fittings or []})
