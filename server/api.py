@@ -162,7 +162,7 @@ def _revision_summary(r: Revision, labels: dict[int, str] | None = None) -> dict
 
 def _labels(store, sheet_id: int, document) -> dict[int, str]:
     groups = revisions.group(store.marks(sheet_id), revisions.scheme_of(document))
-    return {m.number: revisions.save_label(groups, m.number) for g in groups for m in g.saves}
+    return revisions.labels(groups)
 
 
 def _with_document(head: dict, document_json: str) -> Response:

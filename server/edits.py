@@ -101,7 +101,7 @@ def waiting(ref: dict, parse: Callable = calc_sheet.parse) -> set[str]:
     Only what ``ref`` itself asks for waits: a value a typed change makes needed (a material emptied, so the
     run needs a roughness; a mode switched to a curve with no points) is not, and that change goes back.
     """
-    return {e.path for e in parse(ref).errors if calc_sheet.is_request(e)}
+    return {e.path for e in parse(ref).requests}
 
 
 def reconcile(stored: dict, typed: dict, parse: Callable = calc_sheet.parse, reference: dict | None = None,

@@ -110,35 +110,30 @@ SETTINGS = [Spec("friction_method", "Friction factor", "select", options="fricti
                  help="the formula for turbulent flow; 64/Re in laminar flow")]
 
 
-def _limit(key: str, label: str, kind: str, example: str, why: str = "") -> Spec:
+def _limit(key: str, kind: str, example: str, why: str = "") -> Spec:
     """One check limit: its default as the placeholder, and where that default comes from as the hint."""
     short, full = CheckSettings.SHORT_SOURCES[key], CheckSettings.SOURCES[key]
-    return Spec(key, label, kind, example=example, shows_default=True,
+    return Spec(key, CheckSettings.LABELS[key], kind, example=example, shows_default=True,
                 help=f"default from {short}" + (f"; {why}" if why else ""), detail=full)
 
 
 _D = CheckSettings()
 #: The limits the checks apply (``settings.checks``); empty means the default (calc/model/settings.py).
 CHECKS = [
-    _limit("velocity_max", "Highest velocity", "qty", f"{_D.velocity_max:g} m/s"),
-    _limit("velocity_max_suction", "Highest velocity in a pump's suction", "qty",
-           f"{_D.velocity_max_suction:g} m/s"),
-    _limit("velocity_min", "Lowest velocity", "qty", f"{_D.velocity_min:g} m/s", "sediment and air settle below it"),
-    _limit("npsh_margin_ratio", "NPSH margin ratio, NPSHA / NPSHR at least", "ratio", f"{_D.npsh_margin_ratio:g}"),
-    _limit("npsh_margin_min", "NPSH margin, NPSHA − NPSHR at least", "qty", f"{_D.npsh_margin_min:g} m"),
-    _limit("bep_low", "Preferred flow, low end (of best-efficiency flow)", "ratio", f"{_D.bep_low * 100:g} %"),
-    _limit("bep_high", "Preferred flow, high end (of best-efficiency flow)", "ratio", f"{_D.bep_high * 100:g} %"),
-    _limit("k_uncertainty", "Fitting and valve K, ± for the range of the answer", "ratio",
-           f"{_D.k_uncertainty * 100:g} %"),
+    _limit("velocity_max", "qty", f"{_D.velocity_max:g} m/s"),
+    _limit("velocity_max_suction", "qty", f"{_D.velocity_max_suction:g} m/s"),
+    _limit("velocity_min", "qty", f"{_D.velocity_min:g} m/s", "sediment and air settle below it"),
+    _limit("npsh_margin_ratio", "ratio", f"{_D.npsh_margin_ratio:g}"),
+    _limit("npsh_margin_min", "qty", f"{_D.npsh_margin_min:g} m"),
+    _limit("bep_low", "ratio", f"{_D.bep_low * 100:g} %"),
+    _limit("bep_high", "ratio", f"{_D.bep_high * 100:g} %"),
+    _limit("k_uncertainty", "ratio", f"{_D.k_uncertainty * 100:g} %"),
     # A percentage of each run's roughness or one roughness: typed as a number, never free text.
-    _limit("roughness_low", "Roughness, low end of the range", "ratio", "each run's roughness",
-           "a percentage of each run's (50 %) or one roughness for all"),
-    _limit("roughness_high", "Roughness, high end of the range", "ratio", "each run's aged roughness",
+    _limit("roughness_low", "ratio", "each run's roughness", "a percentage of each run's (50 %) or one roughness for all"),
+    _limit("roughness_high", "ratio", "each run's aged roughness",
            "a percentage of each run's (300 %) or one roughness for all"),
-    _limit("surge_allowance", "Surge allowance where surge is not calculated", "qty",
-           f"{_D.surge_allowance / 1e3:g} kPa"),
-    _limit("surge_closure_time", "Fastest closure of a valve or turbine", "qty", f"{_D.surge_closure_time:g} s",
-           "0 is a stop at once, the worst case"),
+    _limit("surge_allowance", "qty", f"{_D.surge_allowance / 1e3:g} kPa"),
+    _limit("surge_closure_time", "qty", f"{_D.surge_closure_time:g} s", "0 is a stop at once, the worst case"),
 ]
 del _D
 NODE = {

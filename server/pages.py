@@ -181,9 +181,7 @@ class Conflict:
 def conflict_view(store: Store, refused: StaleRevision, base_doc: dict | None, typed: dict) -> Conflict:
     """What the page says about a refused edit, so nothing typed is lost without the user seeing it."""
     current = refused.current
-    # Ids are given by order to a revision stored without them, so they never show as a change here.
-    current_doc = calc_sheet.ensure_ids(current.document)
-    base_doc = calc_sheet.ensure_ids(copy.deepcopy(base_doc)) if base_doc is not None else None
+    current_doc = stored_document(current)  # ``base_doc`` comes with its ids too, so ids never show as a change
     base = refused.base if isinstance(refused.base, int) and 0 < refused.base < current.number else None
     since, since_total, theirs = [], 0, []
     if base is not None and base_doc is not None:
@@ -275,6 +273,12 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
     }
 
 
+def stored_document(rev: Revision) -> dict:
+    """A stored revision's document as the form edits it: every element with its stable id (a sheet
+    stored without ids gets them by order, the same each time, so two such revisions match)."""
+    return calc_sheet.ensure_ids(rev.document)
+
+
 def history_of(store: Store, sheet_id: int, document: Any = None) -> list[revisions.Group]:
     """The sheet's revisions, oldest first, labelled in the scheme its header (of ``document``) asks for."""
     return revisions.group(store.marks(sheet_id), revisions.scheme_of(document))
@@ -283,10 +287,11 @@ def history_of(store: Store, sheet_id: int, document: Any = None) -> list[revisi
 def issue_labels(store: Store, rev: Revision, header: dict) -> dict:
     """How ``rev`` is named (A.3, or B once signed), and the label the next edit starts when ``rev`` is
     signed: signing freezes a revision, and later edits begin the next one. ``labels`` names every save."""
-    groups = history_of(store, rev.sheet_id, {"header": header})
-    return {"label": revisions.save_label(groups, rev.number), "frozen": rev.frozen,
-            "next": revisions.next_label(groups, revisions.scheme_of({"header": header})),
-            "labels": {m.number: revisions.save_label(groups, m.number) for g in groups for m in g.saves}}
+    scheme = revisions.scheme_of({"header": header})
+    groups = revisions.group(store.marks(rev.sheet_id), scheme)
+    names = revisions.labels(groups)
+    return {"label": names.get(rev.number, f"save {rev.number}"), "frozen": rev.frozen,
+            "next": revisions.next_label(groups, scheme), "labels": names}
 
 
 def page_extras(request: Request, sheet_id: int) -> dict:
@@ -316,7 +321,7 @@ def view_urls(request: Request, token: str) -> list[str]:
 
 def sheet_page(request: Request, sheet_id: int) -> Response:
     latest = _store(request).latest(sheet_id)
-    doc = calc_sheet.ensure_ids(latest.document)  # the form carries each element's id from its first edit on
+    doc = stored_document(latest)  # the form carries each element's id from its first edit on
     parsed = calc_sheet.parse(doc)
     state = SheetState(latest, doc, parsed.errors, doc, parsed)
     context = sheet_context(request, state)
@@ -373,8 +378,7 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
                 editor: str = "") -> SheetState:
     store = _store(request)
     latest = store.latest(sheet_id)
-    # Every element the form saves has its stable id; a sheet stored without ids gets them by order.
-    stored = calc_sheet.ensure_ids(latest.document)
+    stored = stored_document(latest)
     try:
         base = int(form.get("base", ""))
     except ValueError:
@@ -386,8 +390,7 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
     if action == "restore" and base is not None and 0 < base < latest.number:
         # What this browser kept of a page reloaded after the sheet moved on: its entries go onto the
         # latest revision when they touch nothing changed since, else the conflict says what differs.
-        moved_on = _restore_onto(calc_sheet.ensure_ids(store.revision(sheet_id, base).document), stored,
-                                 drawn_from, fields)
+        moved_on = _restore_onto(stored_document(store.revision(sheet_id, base)), stored, drawn_from, fields)
         if moved_on is not None:
             fields, drawn_from, base = moved_on, copy.deepcopy(stored), latest.number
             restored_note = (f"Restored what was typed in this browser before the page was reloaded, onto "
@@ -396,7 +399,7 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
         # Someone else (another tab, a script) saved first: show what was typed, store nothing.
         base_doc = stored
         if base is not None and 0 < base < latest.number:
-            base_doc = calc_sheet.ensure_ids(store.revision(sheet_id, base).document)
+            base_doc = stored_document(store.revision(sheet_id, base))
         refused = StaleRevision(sheet_id, base, latest)
         typed = copy.deepcopy(drawn_from)
         for path, text in fields.items():

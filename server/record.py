@@ -52,14 +52,6 @@ def _now() -> str:
     return datetime.now(timezone.utc).isoformat(timespec="minutes")
 
 
-def _label(store: Store, rev: Revision) -> tuple[int, str]:
-    doc = rev.document
-    header = doc.get("header") if isinstance(doc, dict) and isinstance(doc.get("header"), dict) else {}
-    scheme = header.get("revision_scheme") if header.get("revision_scheme") in ("letters", "numbers") else "letters"
-    index = store.frozen_before(rev.sheet_id, rev.number)
-    return index, scheme
-
-
 def verify_address(request: Request, fprint: str) -> str:
     """The verify page's full address as printed on the record.
 
@@ -92,8 +84,9 @@ def build_record(request: Request, rev: Revision, remember: bool = True) -> tupl
     """The record of a stored revision, with its label, signatures and verify address; notes its fingerprint."""
     store = _store(request)
     analysis = _analysis(rev.document_json)
-    index, scheme = _label(store, rev)
-    groups = revisions.group(store.marks(rev.sheet_id), scheme)
+    groups = revisions.group(store.marks(rev.sheet_id), revisions.scheme_of(rev.document))
+    found = revisions.find(groups, rev.number)
+    index = found[0].issue if found else 0  # how many issues were signed before this revision
     version = fp.program_version()
     fprint = fp.fingerprint(analysis, version)
     meta = calc_record.Meta(
@@ -471,10 +464,10 @@ def compare(request: Request, sheet_id: int, a: int | None, b: int | None) -> di
     store = _store(request)
     latest = store.latest(sheet_id)
     groups = revisions.group(store.marks(sheet_id), revisions.scheme_of(latest.document))
-    numbers = {m.number for g in groups for m in g.saves}
-    if b is None or b not in numbers:
+    names = revisions.labels(groups)  # every save by its number
+    if b is None or b not in names:
         b = latest.number
-    if a is None or a not in numbers:
+    if a is None or a not in names:
         before = [g for g in groups if g.number < b]
         signed = [g for g in before if g.frozen]
         a = (signed or before or groups)[-1].number
@@ -484,17 +477,16 @@ def compare(request: Request, sheet_id: int, a: int | None, b: int | None) -> di
     header = doc_b.get("header") if isinstance(doc_b.get("header"), dict) else {}
     system = header.get("units") if header.get("units") in ("SI", "US") else "SI"
     choices = list(reversed(groups))
+    shown = {g.number for g in choices}
     for n in (a, b):  # a save inside a revision (from an address) is offered as itself
-        if n not in {g.number for g in choices}:
-            found = revisions.find(groups, n)
-            if found:
-                choices.append(revisions.Group([m for m in found[0].saves if m.number == n],
-                                               revisions.save_label(groups, n)))
+        found = revisions.find(groups, n) if n not in shown else None
+        if found:
+            choices.append(revisions.Group([m for m in found[0].saves if m.number == n], names[n]))
     return {
         "sheet": store.sheet(sheet_id),
         "choices": choices,
-        "label_a": revisions.save_label(groups, a),
-        "label_b": revisions.save_label(groups, b),
+        "label_a": names[a],
+        "label_b": names[b],
         "a": rev_a,
         "b": rev_b,
         "changes": calc_record.input_changes(rev_a.document, doc_b),

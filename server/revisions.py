@@ -52,10 +52,6 @@ class Group:
         return self.saves[-1].number
 
     @property
-    def first(self) -> int:
-        return self.saves[0].number
-
-    @property
     def frozen(self) -> bool:
         return self.saves[-1].frozen
 
@@ -66,10 +62,6 @@ class Group:
     @property
     def started(self) -> str:
         return self.saves[0].created
-
-    @property
-    def author(self) -> str:
-        return self.saves[-1].author
 
     def notes(self, limit: int = 3) -> tuple[list[str], int]:
         """The distinct notes of its saves, oldest first, at most ``limit``; and how many more there are."""
@@ -141,18 +133,28 @@ def find(groups: list[Group], number: int) -> tuple[Group, int] | None:
     return None
 
 
-def save_label(groups: list[Group], number: int) -> str:
-    """How a save is named to a person: its revision's label, and which save of it when not the last.
+def labels(groups: list[Group]) -> dict[int, str]:
+    """How each save is named to a person, by save number: its revision's label, and which save of it
+    when a later save of the same revision superseded it.
 
-    >>> gs = group([Mark(1, "", "", "", False, False), Mark(2, "", "", "", False, True)])
-    >>> save_label(gs, 2), save_label(gs, 1), save_label(gs, 9)
-    ('A.1', 'A.1 (save 1 of 2)', 'save 9')
+    >>> labels(group([Mark(1, "", "", "", False, False), Mark(2, "", "", "", False, True)]))
+    {1: 'A.1 (save 1 of 2)', 2: 'A.1'}
     """
-    found = find(groups, number)
-    if found is None:
-        return f"save {number}"
-    g, place = found
-    return g.label if place == len(g.saves) else f"{g.label} (save {place} of {len(g.saves)})"
+    out: dict[int, str] = {}
+    for g in groups:
+        n = len(g.saves)
+        for place, m in enumerate(g.saves, 1):
+            out[m.number] = g.label if place == n else f"{g.label} (save {place} of {n})"
+    return out
+
+
+def save_label(groups: list[Group], number: int) -> str:
+    """One save's name (``labels``), or 'save N' for a number the groups do not hold.
+
+    >>> save_label([], 9)
+    'save 9'
+    """
+    return labels(groups).get(number, f"save {number}")
 
 
 def next_label(groups: list[Group], scheme: str = "letters") -> str:

@@ -349,12 +349,12 @@ class Store(AccountRows):
         digest = digest_of(text)
         with self._write() as con:
             row = con.execute(
-                f"SELECT {_REVISION_COLUMNS} FROM revisions WHERE sheet_id = ? ORDER BY number DESC LIMIT 1",
+                f"SELECT {_REVISION_COLUMNS}, editor FROM revisions WHERE sheet_id = ? ORDER BY number DESC LIMIT 1",
                 (sheet_id,),
             ).fetchone()
             if row is None:
                 raise SheetNotFound(sheet_id)
-            current = _revision(row)
+            current, last_editor = _revision(row[:-1]), row[-1]
             if base != current.number:
                 raise StaleRevision(sheet_id, base, current)
             if digest == current.digest:
@@ -363,8 +363,6 @@ class Store(AccountRows):
             number = current.number + 1
             joins = 0
             if editor and not current.frozen:
-                last_editor = con.execute("SELECT editor FROM revisions WHERE sheet_id = ? AND number = ?",
-                                          (sheet_id, current.number)).fetchone()[0]
                 joins = int(last_editor == editor and current.author == author
                             and revisions.continues(current.created, now))
             con.execute(

@@ -213,11 +213,12 @@ def check_export(data: dict) -> tuple[str, list[Revision], list[dict], dict]:
         problem = json_problem(document)
         if problem:
             raise ImportRefused(f"{where}: the document {problem}.")
-        # The same checks and limits as a sheet saved through the pages or the API.
-        parsed = calc_sheet.parse(document)
-        if not parsed.ok:
-            first = parsed.errors[0]
-            raise ImportRefused(f"{where}: the document does not pass the sheet's checks ({len(parsed.errors)} "
+        # The same checks and limits as a sheet saved through the pages: a value refused refuses the file;
+        # a value only not given yet (a new element still asking for it) is what the pages store too.
+        mistakes = calc_sheet.parse(document).mistakes
+        if mistakes:
+            first = mistakes[0]
+            raise ImportRefused(f"{where}: the document does not pass the sheet's checks ({len(mistakes)} "
                                 f"error(s); the first: {first.path or 'the sheet'} {first.message}).")
         text = dump_document(document)
         if digest_of(text) != r.get("digest"):

@@ -53,6 +53,22 @@ class CheckSettings:
         "surge_closure_time": SRC_PRACTICE + " (screening takes a stop at once, the worst case; give the valve's closure time)",
     }
 
+    #: What each limit is called, on the form and in the record alike.
+    LABELS = {
+        "velocity_max": "Highest velocity",
+        "velocity_max_suction": "Highest velocity in a pump's suction",
+        "velocity_min": "Lowest velocity",
+        "npsh_margin_ratio": "NPSH margin ratio, NPSHA / NPSHR at least",
+        "npsh_margin_min": "NPSH margin, NPSHA − NPSHR at least",
+        "bep_low": "Preferred flow, low end (of best-efficiency flow)",
+        "bep_high": "Preferred flow, high end (of best-efficiency flow)",
+        "k_uncertainty": "Fitting and valve K, ± for the range of the answer",
+        "roughness_low": "Roughness, low end of the range",
+        "roughness_high": "Roughness, high end of the range",
+        "surge_allowance": "Surge allowance where surge is not calculated",
+        "surge_closure_time": "Fastest closure of a valve or turbine",
+    }
+
     #: Where each default comes from in a few words, for the hint beside each limit on the form
     #: (``SOURCES`` says it in full).
     SHORT_SOURCES = {

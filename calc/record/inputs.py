@@ -84,17 +84,9 @@ def inputs(c: Context) -> list[Table]:
     return tables_out
 
 
-#: The check limits as the record names them, with the SI unit each is held in ("" a plain number).
-_LIMITS = (("velocity_max", "Highest velocity", "m/s"), ("velocity_max_suction", "Highest velocity, pump suction", "m/s"),
-           ("velocity_min", "Lowest velocity", "m/s"), ("npsh_margin_ratio", "NPSH margin ratio NPSHA/NPSHR, at least", ""),
-           ("npsh_margin_min", "NPSH margin NPSHA − NPSHR, at least", "m"),
-           ("bep_low", "Preferred flow, low end (of best-efficiency flow)", ""),
-           ("bep_high", "Preferred flow, high end (of best-efficiency flow)", ""),
-           ("k_uncertainty", "Fitting and valve K, ± (range of the answer)", ""),
-           ("roughness_low", "Roughness, low end (range of the answer)", ""),
-           ("roughness_high", "Roughness, high end (range of the answer)", ""),
-           ("surge_allowance", "Surge allowance where surge is not calculated", "Pa"),
-           ("surge_closure_time", "Fastest closure of a valve or turbine", "s"))
+#: The SI unit each check limit is held in ("" a plain number); its name is CheckSettings.LABELS'.
+_LIMIT_UNITS = {"velocity_max": "m/s", "velocity_max_suction": "m/s", "velocity_min": "m/s", "npsh_margin_min": "m",
+                "surge_allowance": "Pa", "surge_closure_time": "s"}
 
 
 def _check_limits(c: Context, head, align) -> Table:
@@ -103,7 +95,8 @@ def _check_limits(c: Context, head, align) -> Table:
     settings = c.doc.get("settings") if isinstance(c.doc.get("settings"), dict) else {}
     typed = settings.get("checks") if isinstance(settings.get("checks"), dict) else {}
     rows = []
-    for key, label, unit in _LIMITS:
+    for key, label in CheckSettings.LABELS.items():
+        unit = _LIMIT_UNITS.get(key, "")
         v = getattr(s, key)
         if isinstance(v, tuple):
             value = f"× {sub(v[1])} each run's" if v[0] == "factor" else f"{si(v[1])} m every run"

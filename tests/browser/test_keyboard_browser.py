@@ -48,7 +48,9 @@ def _slow_solves(live, seconds: float):
 
 def _quiet(page) -> None:
     page.wait_for_load_state("networkidle")
-    page.wait_for_function("!document.querySelector('#busy.htmx-request')")
+    # A function, not a bare expression: Playwright polls a bare expression with eval, which the
+    # page's policy (script-src 'self') refuses whenever the first look does not already pass.
+    page.wait_for_function("() => !document.querySelector('#busy.htmx-request')")
     page.wait_for_timeout(800)  # anything queued behind the last answer has gone too
 
 

@@ -117,7 +117,7 @@ def test_reload_with_an_invalid_field_keeps_the_invalid_text(page, live):
     expect(page.locator(".stale-mark")).to_have_count(0)
     expect(page.locator("#unapplied")).to_have_text("")
     assert _doc(live, sheet_id)["elements"][i]["length"] == longer
-    page.wait_for_function(f"localStorage.getItem('headsheet:draft:{sheet_id}') === null")
+    page.wait_for_function(f"() => localStorage.getItem('headsheet:draft:{sheet_id}') === null")
     page.reload()
     expect(page.locator(f"#f-elements-{i}-length")).to_have_value(longer)
     expect(page.locator("#form-message")).to_have_text("")

@@ -316,3 +316,23 @@ def test_an_export_signed_by_a_trusted_installation_keeps_its_sign_off(tmp_path,
         assert {s["status"] for s in _signatures(cb, forged, 1)} == {"imported"}
         assert cb.get(f"/api/sheets/{forged}/revisions/1/record").json()["signed"] is False
     assert oct((tmp_path / "a" / transfer.KEY_FILE).stat().st_mode & 0o777) == "0o600"
+
+
+def test_a_sheet_still_asking_for_values_exports_and_imports(client, app):
+    # The pages store a blank sheet that asks for its values (calc.model.sheet.Missing); its export must
+    # come back in, while a value refused (not merely not given yet) still refuses the file.
+    response = client.post("/sheets", data={}, follow_redirects=False)
+    assert response.status_code == 303
+    sheet_id = int(response.headers["location"].rsplit("/", 1)[1])
+    stored = client.get(f"/api/sheets/{sheet_id}").json()["document"]
+    parsed = calc_sheet.parse(stored)
+    assert parsed.requests and not parsed.mistakes
+    raw = client.get(f"/sheets/{sheet_id}/export.json").content
+    new_id = transfer.import_sheet(app.state.store, raw)
+    assert _history(client, new_id) == _history(client, sheet_id)
+
+    def refused(doc):
+        doc["liquid"]["temperature"] = "hot"
+
+    with pytest.raises(transfer.ImportRefused, match="does not pass the sheet's checks"):
+        transfer.import_sheet(app.state.store, json.dumps(_reexport(client, sheet_id, refused)))
