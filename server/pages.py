@@ -16,7 +16,6 @@ from fastapi import Request
 from fastapi.responses import RedirectResponse, Response
 from starlette.concurrency import run_in_threadpool
 
-from calc import record as calc_record
 from calc.model import sheet as calc_sheet
 from server import editing, edits, revisions
 from server.form import FormView, anchor, describe, slot_paths
