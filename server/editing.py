@@ -337,7 +337,7 @@ def removal_words(doc: dict, target: str) -> str:
 
     >>> doc = {"elements": [{"kind": "pipe", "label": "Suction", "curve": []}, {"kind": "pump", "label": ""}]}
     >>> removal_words(doc, "elements.0"), removal_words(doc, "elements.1"), removal_words(doc, "elements.0.curve.2")
-    ('pipe run Suction', 'pump (element 2)', 'curve point 3 of Suction')
+    ('pipe run «Suction»', 'pump (element 2)', 'curve point 3 of «Suction»')
     """
     parts = split_path(target) or ()
     if len(parts) < 2 or parts[0] != "elements" or not isinstance(parts[1], int):
@@ -348,8 +348,8 @@ def removal_words(doc: dict, target: str) -> str:
     label = " ".join(label.split())
     if len(parts) == 2:
         name = ELEMENT_NAMES.get(element.get("kind"), "element")
-        return f"{name} {label}" if label else f"{name} (element {parts[1] + 1})"
-    owner = label or f"element {parts[1] + 1}"
+        return f"{name} «{label}»" if label else f"{name} (element {parts[1] + 1})"
+    owner = f"«{label}»" if label else f"element {parts[1] + 1}"
     if len(parts) == 4 and isinstance(parts[3], int):
         return f"{ITEM_NAMES.get(str(parts[2]), 'item')} {parts[3] + 1} of {owner}"
     return f"an item of {owner}"

@@ -98,11 +98,11 @@ def test_a_removed_element_comes_back_with_undo(page, live):
     page.locator(f"#b-remove-elements-{i}").focus()
     page.keyboard.press("Enter")
     notice = page.locator("#undo-notice")
-    expect(notice).to_contain_text(f"Removed pipe run {label}.")
+    expect(notice).to_contain_text(f"Removed pipe run «{label}».")
     expect(notice).to_have_attribute("role", "status")
     assert len(_doc(live, sheet_id)["elements"]) == len(before["elements"]) - 1
     # The screen reader is told what went, once the answer is in.
-    expect(page.locator("#announce")).to_contain_text(f"Removed pipe run {label}.")
+    expect(page.locator("#announce")).to_contain_text(f"Removed pipe run «{label}».")
     shot(page, "41-removed-with-undo")
     page.locator("#b-undo").focus()
     page.keyboard.press("Enter")

@@ -32,6 +32,11 @@ def test_the_sheet_page_shows_every_plot_with_a_download_link(client):
     assert '<script src="/static/js/plots.js" defer></script>' in html
     # The plots come after the headline figures and before the checks.
     assert html.index('id="plots"') < html.index('id="findings"')
+    # They name their revision as the results do (this demo numbers its issues: 0.1), not by its save number.
+    label = client.get(f"/api/sheets/{sid}/revisions").json()["revisions"][0]["label"]
+    assert label == "0.1"
+    assert f'<h3 id="plots-title">Plots <small>at revision {label}</small>' in html
+    assert f"for revision {label}" in html
 
 
 def test_a_plot_downloads_as_an_svg_file(client):

@@ -49,7 +49,7 @@ def test_an_element_removed_comes_back_where_it_was_with_htmx(client, sheet_form
     response = client.post(f"/sheets/{sheet}", data={**sheet_form(sheet), "action": f"remove:elements.{i}"},
                            headers=HX)
     assert response.status_code == 200
-    assert _notice(response.text) == f"Removed pipe run {label}."
+    assert _notice(response.text) == f"Removed pipe run «{label}»."
     assert len(_doc(client, sheet)["elements"]) == len(before["elements"]) - 1
     # What the page now holds: the fields redrawn, the new base, the notice's own hidden fields.
     form = form_fields(response.text)
@@ -70,7 +70,7 @@ def test_a_curve_row_removed_comes_back_in_its_row(client, sheet_form):
     response = client.post(f"/sheets/{sheet}", data={**sheet_form(sheet), "action": f"remove:elements.{p}.curve.1"},
                            headers=HX)
     owner = before["elements"][p]["label"]
-    assert _notice(response.text) == f"Removed curve point 2 of {owner}."
+    assert _notice(response.text) == f"Removed curve point 2 of «{owner}»."
     assert len(_doc(client, sheet)["elements"][p]["curve"]) == len(before["elements"][p]["curve"]) - 1
     form = form_fields(response.text)
     client.post(f"/sheets/{sheet}", data={**form, "action": _undo_button(response.text)}, headers=HX)
