@@ -117,10 +117,15 @@ def _form_editor(url: str, name: str, path: str, value, acked: list, refusals: l
                 fields = form_fields(http.get("/sheets/1").text)  # reload, as the banner offers
 
 
-def _run(threads, seconds: float) -> None:
+def _run(threads, seconds: float, done, limit: float = 30.0) -> None:
+    """Let the editors race for ``seconds``, and on until ``done()`` (both have saved and one was refused),
+    for at most ``limit`` seconds more: on a loaded machine 2.5 s may hold too few posts to collide."""
     for t in threads:
         t.start()
     time.sleep(seconds)
+    end = time.monotonic() + limit
+    while time.monotonic() < end and not done():
+        time.sleep(0.1)
 
 
 def test_two_api_clients_in_a_tight_loop_lose_no_update(app):
@@ -138,7 +143,8 @@ def test_two_api_clients_in_a_tight_loop_lose_no_update(app):
         threads = [threading.Thread(target=_api_editor, args=(live.url, n, f, acked, refusals, stop))
                    for n, f in (("ann", ann), ("bob", bob))]
         try:
-            _run(threads, 2.5)
+            # acked holds (revision, digest, name, i)
+            _run(threads, 2.5, lambda: refusals and {a[2] for a in acked} == {"ann", "bob"})
         finally:
             stop.set()
             for t in threads:
@@ -178,7 +184,8 @@ def test_two_browsers_posting_the_form_in_a_tight_loop_lose_no_update(app):
                                                         acked, refusals, stop)),
         ]
         try:
-            _run(threads, 2.5)
+            # acked holds (revision, path, value, name)
+            _run(threads, 2.5, lambda: refusals and {a[3] for a in acked} == {"ann", "bob"})
         finally:
             stop.set()
             for t in threads:

@@ -67,9 +67,9 @@ def test_acknowledged_edits_survive_sigkill_at_random_moments(tmp_path):
             sheet_id = http.post("/api/sheets", json={"document": doc}).json()["id"]
             acked_api[1] = digest_of(dump_document(doc))
             while kills < KILLS:
-                # A kill at a random moment, most likely in the middle of some request.
+                # A kill at a random moment once edits flow (the first one acknowledged), most likely in
+                # the middle of some request; timed from then, a slow start on a loaded machine eats none of it.
                 timer = threading.Timer(rng.uniform(0.2, 1.0), server.kill)
-                timer.start()
                 try:
                     base = http.get(f"/api/sheets/{sheet_id}").json()["revision"]
                     fields = form_fields(http.get(f"/sheets/{sheet_id}").text)
@@ -89,9 +89,12 @@ def test_acknowledged_edits_survive_sigkill_at_random_moments(tmp_path):
                             base = int(re.search(r'id="base" value="(\d+)"', r.text).group(1))
                             acked_form[base] = doc["header"]["purpose"]
                             doc = http.get(f"/api/sheets/{sheet_id}").json()["document"]
+                        if timer.ident is None:  # not started yet
+                            timer.start()
                 except httpx.TransportError:
                     pass  # killed: the edit in flight was never acknowledged, so it may or may not be there
-                timer.join()
+                if timer.ident is not None:
+                    timer.join()
                 kills += 1
                 server.start()
         server.kill()
@@ -115,7 +118,7 @@ def test_acknowledged_edits_survive_sigkill_at_random_moments(tmp_path):
     FIGURES["crash: edits acknowledged"] += acknowledged
     FIGURES["crash: SIGKILLs"] += kills
     FIGURES["crash: acknowledged edits lost"] += len(lost)
-    assert acknowledged > 3 * KILLS and kills == KILLS + 1
+    assert acknowledged >= 2 * KILLS and kills == KILLS + 1
     assert lost == []
 
 

@@ -269,19 +269,19 @@ def clip_box(xs, ys, x0: float, x1: float, y0: float, y1: float) -> list[np.ndar
     if ok.all() and x.min() >= x0 and x.max() <= x1 and y.min() >= y0 and y.max() <= y1:
         return [np.column_stack([x, y])]
     px, py = x[:-1], y[:-1]
-    dx, dy = x[1:] - px, y[1:] - py
     valid = ok[:-1] & ok[1:]
     t0 = np.zeros_like(px)
     t1 = np.ones_like(px)
-    with np.errstate(all="ignore"):
+    with np.errstate(all="ignore"):  # segments with a NaN or infinite end are masked out by ``valid``
+        dx, dy = x[1:] - px, y[1:] - py
         for p, q in ((-dx, px - x0), (dx, x1 - px), (-dy, py - y0), (dy, y1 - py)):
             r = q / p
             valid &= ~((p == 0) & (q < 0))
             t0 = np.where(p < 0, np.maximum(t0, r), t0)
             t1 = np.where(p > 0, np.minimum(t1, r), t1)
+        a = np.column_stack([px + t0 * dx, py + t0 * dy])
+        b = np.column_stack([px + t1 * dx, py + t1 * dy])
     seen = valid & (t0 <= t1)
-    a = np.column_stack([px + t0 * dx, py + t0 * dy])
-    b = np.column_stack([px + t1 * dx, py + t1 * dy])
     joins = np.zeros_like(seen)
     joins[1:] = seen[:-1] & seen[1:] & (t1[:-1] >= 1.0) & (t0[1:] <= 0.0)
     carried = np.zeros_like(seen)
