@@ -116,10 +116,12 @@ def reconcile(stored: dict, typed: dict, parse: Callable = calc_sheet.parse, ref
     """
     for ref in ([reference] if reference is not None else []) + [stored]:
         cand = copy.deepcopy(typed)
-        asked = waiting(ref, parse)
+        asked: set[str] | None = None  # what ``ref`` asks for: parsed only when a request needs it
         for _ in range(MAX_ROUNDS):
             parsed = parse(cand)
-            wrong = [e for e in parsed.errors if not (calc_sheet.is_request(e) and e.path in asked)]
+            if asked is None and parsed.requests:
+                asked = waiting(ref, parse)
+            wrong = [e for e in parsed.errors if not (calc_sheet.is_request(e) and e.path in (asked or ()))]
             if not wrong:
                 return cand, parsed
             moved = [_revert(cand, ref, e.path, whole) for e in wrong]
