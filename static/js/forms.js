@@ -221,14 +221,23 @@
 
   function slots() { return form.querySelectorAll(".field-msg"); }
   function words(el) { return el ? (el.textContent || "").replace(/\s+/g, " ").trim() : ""; }
-  function controlOf(slot) { return slot.id ? form.querySelector('[aria-describedby~="' + slot.id + '"]') : null; }
+  // slot id -> the control it describes, read in one pass over the form (a selector per slot, run on
+  // every answer, cost tens of milliseconds on a long sheet).
+  function controls() {
+    var out = {};
+    Array.prototype.forEach.call(form.querySelectorAll("[aria-describedby]"), function (el) {
+      el.getAttribute("aria-describedby").split(/\s+/).forEach(function (id) { if (id && !out[id]) out[id] = el; });
+    });
+    return out;
+  }
   function nameOf(el) {
     if (!el) return "";
     return el.getAttribute("aria-label") || (el.labels && el.labels.length ? words(el.labels[0]) : "");
   }
-  function markInvalid() {
+  function markInvalid(byId) {
+    byId = byId || controls();
     Array.prototype.forEach.call(slots(), function (slot) {
-      var el = controlOf(slot);
+      var el = slot.id ? byId[slot.id] : null;
       if (!el) return;
       if (words(slot) !== "" && !slot.querySelector(".request")) el.setAttribute("aria-invalid", "true");
       else el.removeAttribute("aria-invalid");
@@ -244,11 +253,12 @@
   }
   function listen() {
     var seen = {};
+    var byId = controls();
     Array.prototype.forEach.call(slots(), function (slot) {
       var text = words(slot);
       seen[slot.id] = text;
       if (text && heard[slot.id] !== text) {
-        var name = nameOf(controlOf(slot));
+        var name = nameOf(slot.id ? byId[slot.id] : null);
         toSay.push(name ? name + ": " + text : text);
       }
     });
@@ -258,7 +268,7 @@
       toSay.unshift(words(undo.querySelector("span")) + " Undo, under the sheet's title, puts it back.");
     }
     lastUndo = undo;
-    markInvalid();
+    markInvalid(byId);
     sayLater();
   }
   Array.prototype.forEach.call(slots(), function (slot) { heard[slot.id] = words(slot); });
