@@ -4,17 +4,48 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from calc.model.cases import BASE_NAME, Change
 from calc.model.elements import Line
 from calc.model.settings import CheckSettings
 from calc.model.sheet import Parsed, parse
-from calc.review import checks, uncertainty
+from calc.review import checks, governing, uncertainty
+from calc.review.summary import headline as summary_of
 from calc.steady.series import Solution, _json_safe, solve
 from calc.units import InputError
 
 
 @dataclass
+class CaseResult:
+    """One operating case solved: its name, what it changes from the base (none for the base itself),
+    the line, its solution, findings, range of the answer and summary figures (`calc.review.summary`)."""
+
+    name: str
+    line: Line
+    solution: Solution
+    findings: list
+    band: dict | None
+    summary: dict | None
+    changes: list[Change] = field(default_factory=list)
+    note: str = ""
+
+    def to_dict(self) -> dict:
+        return _json_safe({
+            "name": self.name, "note": self.note,
+            "changes": [{"field": c.case_path, "what": c.what, "value": c.value} for c in self.changes],
+            "solution": self.solution.to_dict(), "findings": [f.to_dict() for f in self.findings],
+            "band": self.band, "summary": self.summary,
+        })
+
+
+@dataclass
 class Analysis:
-    """The parsed line, its solution, findings and uncertainty band; ``errors`` when the sheet does not parse."""
+    """The parsed line, its solution, findings and uncertainty band; ``errors`` when the sheet does not parse.
+
+    ``line``, ``solution`` and ``band`` are the base sheet's; ``cases`` holds every case solved, the base
+    first (a sheet without cases has the base alone), and ``findings`` all cases' findings merged, each
+    check once from its governing case (`calc.review.governing`); ``governing`` the governing case of each
+    check the case table answers.
+    """
 
     doc: dict | None
     line: Line | None
@@ -23,24 +54,50 @@ class Analysis:
     errors: list[InputError] = field(default_factory=list)
     band: dict | None = None
     check_settings: CheckSettings | None = None
+    cases: list[CaseResult] = field(default_factory=list)
+    governing: list[dict] = field(default_factory=list)
 
     @property
     def ok(self) -> bool:
         return not self.errors
 
+    @property
+    def has_cases(self) -> bool:
+        """Whether the sheet has operating cases beside its base inputs."""
+        return len(self.cases) > 1
+
+    def case(self, name: str | None) -> CaseResult | None:
+        """The case of that name (the base for None or its name), or None."""
+        if name is None:
+            return self.cases[0] if self.cases else None
+        return next((c for c in self.cases if c.name.casefold() == name.casefold()), None)
+
     def to_dict(self) -> dict:
-        return {
+        out = {
             "errors": [{"path": e.path, "message": e.message} for e in self.errors],
             "solution": self.solution.to_dict() if self.solution else None,
             "findings": _json_safe([f.to_dict() for f in self.findings]),
             "band": _json_safe(self.band),
             "check_settings": _json_safe(self.check_settings.to_dict()) if self.check_settings else None,
         }
+        if self.has_cases:
+            out["cases"] = [c.to_dict() for c in self.cases]
+            out["governing"] = _json_safe(self.governing)
+        return out
 
 
 def analyse(doc: dict) -> Analysis:
-    """Parse, solve, band and review a sheet document; never raises on bad input."""
+    """Parse, solve, band and review a sheet document and each of its cases; never raises on bad input."""
     return analyse_parsed(parse(doc), doc)
+
+
+def solve_case(name: str, line: Line, settings: CheckSettings, changes=(), note: str = "") -> CaseResult:
+    """One case: solve, band, review and summarise its line."""
+    solution = solve(line)
+    band = uncertainty.band(line, solution, settings)
+    findings = checks.review(line, solution, settings, band)
+    summary = summary_of(line, solution.to_dict(), settings) if solution.design is not None else None
+    return CaseResult(name, line, solution, findings, band, summary, list(changes), note)
 
 
 def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:
@@ -49,7 +106,11 @@ def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:
         return Analysis(doc, None, None, errors=parsed.errors)
     line = parsed.line
     settings = line.settings.get("checks") or CheckSettings()
-    solution = solve(line)
-    band = uncertainty.band(line, solution, settings)
-    findings = checks.review(line, solution, settings, band)
-    return Analysis(doc, line, solution, findings, band=band, check_settings=settings)
+    results = [solve_case(BASE_NAME, line, settings)]
+    results += [solve_case(c.name, c.line, settings, c.read.changes, c.read.note) for c in parsed.cases]
+    base = results[0]
+    findings = governing.merge([governing.CaseFindings(r.name, r.findings) for r in results])
+    rows = (governing.governing([governing.CaseSummary(r.name, r.line, r.summary) for r in results], settings)
+            if len(results) > 1 else [])
+    return Analysis(doc, line, base.solution, findings, band=base.band, check_settings=settings,
+                    cases=results, governing=rows)

@@ -45,18 +45,79 @@ def cmd_solve(args) -> int:
 
     doc, line = _load(args.file)
     a = analyse(doc)
-    sol = a.solution
+    system = a.line.header.get("units", "SI")
+    title = doc.get("header", {}).get("title", "")
+    if args.case is not None:
+        case = a.case(args.case)
+        if case is None:
+            names = ", ".join(repr(c.name) for c in a.cases)
+            sys.exit(f"headsheet: {args.file} has no case {args.case!r} (its cases: {names})")
+        if args.json:
+            json.dump(case.to_dict(), sys.stdout, indent=2, allow_nan=False)
+            print()
+            return 0 if case.solution.points else 1
+        print(format_solution(case.solution, system, f"{title} ({case.name})" if title else case.name))
+        print(format_changes(case))
+        print(format_findings(case.findings, args.all))
+        return 0 if case.solution.points else 1
     if args.json:
-        data = sol.to_dict()
+        data = a.solution.to_dict()
         extra = a.to_dict()
         data["findings"], data["band"] = extra["findings"], extra["band"]
+        if a.has_cases:
+            data["cases"], data["governing"] = extra["cases"], extra["governing"]
         json.dump(data, sys.stdout, indent=2, allow_nan=False)
         print()
-        return 0 if sol.points else 1
-    system = a.line.header.get("units", "SI")
-    print(format_solution(sol, system, doc.get("header", {}).get("title", "")))
+        return 0 if all(c.solution.points for c in a.cases) else 1
+    if not a.has_cases:
+        print(format_solution(a.solution, system, title))
+    else:
+        print(format_case_table(a, system, title))
+        for c in a.cases:
+            print()
+            print(format_solution(c.solution, system, f"Case: {c.name}"))
+            print(format_changes(c))
     print(format_findings(a.findings, args.all))
-    return 0 if sol.points else 1
+    return 0 if all(c.solution.points for c in a.cases) else 1
+
+
+def format_changes(case) -> str:
+    """What a case changes from the base sheet, one line each ('' for the base)."""
+    if not case.changes:
+        return ""
+    return "\n".join(["Changed from the base:"] + [f"  {c.what}: {c.value}" for c in case.changes])
+
+
+def format_case_table(a, system: str = "SI", title: str = "") -> str:
+    """The case table: per case its flow, each machine's head and power, the extremes of pressure and velocity;
+    then the governing case of each check."""
+    out = [title, "=" * len(title)] if title else []
+    out.append(f"{len(a.cases)} cases (the base and {len(a.cases) - 1} more):")
+    out.append(f"  {'case':<24} {'flow':>12} {'lowest p (abs)':>15} {'highest V':>11}  machines")
+    for c in a.cases:
+        sol, sm = c.solution, c.summary
+        if sol.design is None or not sm:
+            out.append(f"  {c.name[:24]:<24} {'no operating point':>12}: {sol.message}")
+            continue
+        low = sm.get("pressure_low") or {}
+        fast = sm.get("velocity_high") or {}
+        machines = "; ".join(
+            f"{m['label']} {_u(m['head'], 'head', system)}"
+            + (f", {_u(m['power_shaft'], 'power', system)}" if m.get("power_shaft") is not None else "")
+            for m in sm.get("machines") or [])
+        out.append(f"  {c.name[:24]:<24} {_u(sol.design['Q'], 'flow', system):>12} "
+                   f"{_u(low['pressure_abs'], 'pressure', system) if low else '–':>15} "
+                   f"{_u(fast['V'], 'velocity', system) if fast else '–':>11}  {machines}")
+    if a.governing:
+        out.append("")
+        out.append("Governing case of each check:")
+        for r in a.governing:
+            shown = _u(r["value"], r["quantity"], system) if r["quantity"] else fmt(r["value"], 3)
+            limit = "" if r["limit"] is None else (
+                f"; limit {_u(r['limit'], r['quantity'], system) if r['quantity'] else fmt(r['limit'], 3)}")
+            state = "" if r["within"] is None else ("; within" if r["within"] else "; NOT within")
+            out.append(f"  {r['check']}: {r['case']}, {shown} ({r['where']}){limit}{state}")
+    return "\n".join(out)
 
 
 def format_findings(findings, everything: bool = False) -> str:
@@ -192,6 +253,8 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
     s.add_argument("file")
     s.add_argument("--json", action="store_true", help="the full result in SI base units, as JSON")
     s.add_argument("--all", action="store_true", help="also print the general cautions and information findings")
+    s.add_argument("--case", default=None, metavar="NAME",
+                   help="solve only this operating case ('Base' for the sheet's own inputs); default every case")
     s.set_defaults(func=cmd_solve)
     s = sub.add_parser("schema", help="print the JSON Schema of the sheet document")
     s.set_defaults(func=cmd_schema)

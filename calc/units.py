@@ -191,6 +191,25 @@ def parse_quantity(text: object, kind: Kind, path: str) -> float:
         raise InputError(path, text, _no_unit_message(f"{text:g}", kind))
     if not isinstance(text, str) or not text.strip():
         raise InputError(path, text, f"is empty: enter {kind.name}, e.g. {kind.example}")
+    key = (text, kind.si)
+    value = _PARSED.get(key)
+    if value is None:
+        value = _parse_text(text, kind, path)
+        if len(_PARSED) >= PARSED_KEPT:
+            _PARSED.clear()
+        _PARSED[key] = value
+    return value
+
+
+#: Texts parsed to SI values, by (text, SI unit): a sheet holds the same few strings over and over,
+#: every case re-reads them and the unit library takes some 170 microseconds a string. Only good
+#: values are kept (an error's message depends on the field); the store is emptied when full.
+_PARSED: dict[tuple[str, str], float] = {}
+PARSED_KEPT = 20000
+
+
+def _parse_text(text: str, kind: Kind, path: str) -> float:
+    """`parse_quantity` of a non-empty string, through the unit library."""
     if len(text) > 64:
         raise InputError(path, text[:64] + "…", "is too long for a value with its unit")
     text_in = text

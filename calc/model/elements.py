@@ -366,7 +366,13 @@ class Turbine:
 
 @dataclass
 class Pump:
-    """A pump: head from a curve fitted through its points (affinity laws for speed), or a fixed head."""
+    """A pump, or a group of identical pumps: head from a curve fitted through one unit's points (affinity
+    laws for speed), or a fixed head.
+
+    A group of ``units`` identical units (``standby`` of them kept in reserve) has ``running`` of them in
+    service, in ``parallel`` (each carries Q / running at the group's head) or in ``series`` (each adds
+    its head at the whole flow). The typed curves are one unit's; every method here gives the group's.
+    """
 
     label: str
     mode: str
@@ -377,13 +383,39 @@ class Pump:
     speed_ratio: float = 1.0
     efficiency: float | None = None
     kind: str = "pump"
+    units: int = 1
+    standby: int = 0
+    running: int = 1
+    arrangement: str = "parallel"
 
-    def pump_head(self, Q):
-        """Head the pump adds at Q: H(Q) = n^2 H1(Q/n) by the affinity laws."""
+    @property
+    def is_group(self) -> bool:
+        return self.units > 1
+
+    @property
+    def in_parallel(self) -> int:
+        """How many running units share the flow (1 for a series group)."""
+        return self.running if self.arrangement == "parallel" else 1
+
+    @property
+    def in_series(self) -> int:
+        """How many running units add their head in turn (1 for a parallel group)."""
+        return self.running if self.arrangement == "series" else 1
+
+    def unit_flow(self, Q):
+        """The flow through each running unit."""
+        return Q / self.in_parallel
+
+    def unit_head(self, Q):
+        """One unit's head at the group's flow Q: n^2 H1(q/n), q the unit's flow (affinity laws)."""
         if self.mode == "head":
             return self.fixed_head if np.isscalar(Q) else np.full_like(Q, self.fixed_head)
         n = self.speed_ratio
-        return n * n * self.curve(Q / n)
+        return n * n * self.curve(self.unit_flow(Q) / n)
+
+    def pump_head(self, Q):
+        """Head the pump (group) adds at Q: a unit's head, times the units in series."""
+        return self.in_series * self.unit_head(Q)
 
     def head(self, Q: float, fluid: Fluid) -> float:
         return -float(self.pump_head(Q))
@@ -392,19 +424,23 @@ class Pump:
         return -self.pump_head(Q)
 
     def eta(self, Q: float) -> float | None:
-        """Efficiency at Q (affinity: eta(Q) = eta1(Q/n)); held within 0 to 1 where the curve is carried on."""
+        """Efficiency at the group's flow Q (each unit at its own flow; affinity: eta(q) = eta1(q/n)); held
+        within 0 to 1 where the curve is carried on."""
         if self.efficiency_curve is not None:
-            return min(max(float(self.efficiency_curve(Q / self.speed_ratio)), 0.0), 1.0)
+            return min(max(float(self.efficiency_curve(self.unit_flow(Q) / self.speed_ratio)), 0.0), 1.0)
         return self.efficiency
 
     def npsh_required(self, Q: float) -> float | None:
+        """NPSH the group's inlet needs at Q: a parallel unit's at its share of the flow, or the first unit's
+        of a series group (the later units take their suction from the one before)."""
         if self.npshr_curve is None:
             return None
         n = self.speed_ratio
-        return float(n * n * self.npshr_curve(Q / n))
+        return float(n * n * self.npshr_curve(self.unit_flow(Q) / n))
 
     def best_efficiency_flow(self) -> float | None:
-        """Flow of the highest typed efficiency, scaled by speed (Q ~ n); None unless it lies inside the data.
+        """The group's flow with each unit at its highest typed efficiency, scaled by speed (Q ~ n); None
+        unless it lies inside the data.
 
         At the first or last typed point the efficiency is still rising past the data, so the
         best-efficiency flow is not known: `best_efficiency_note` says which.
@@ -412,7 +448,7 @@ class Pump:
         if self.efficiency_curve is None:
             return None
         Q, _, where = self.efficiency_curve.peak()
-        return Q * self.speed_ratio if where == "inside" else None
+        return Q * self.speed_ratio * self.in_parallel if where == "inside" else None
 
     def best_efficiency_note(self) -> str:
         if self.efficiency_curve is None:
@@ -432,12 +468,16 @@ class Pump:
                "power_hydraulic": P_h, "efficiency": eta,
                "power_shaft": P_h / eta if eta and eta > 0 else None,
                "npsh_required": self.npsh_required(Q), "speed_ratio": self.speed_ratio}
+        if self.is_group:
+            out.update(units=self.units, standby=self.standby, running=self.running,
+                       arrangement=self.arrangement, unit_flow=float(self.unit_flow(Q)),
+                       unit_head=float(self.unit_head(Q)))
         if self.curve is not None:
             lo, hi = self.curve.Q_range
-            n = self.speed_ratio
-            out["in_curve_range"] = lo * n <= Q <= hi * n
-            out["curve_range"] = [lo * n, hi * n]
-            out["beyond_curve_limit"] = self.curve.beyond_limit(Q / n)
+            n, k = self.speed_ratio, self.in_parallel
+            out["in_curve_range"] = lo * n * k <= Q <= hi * n * k
+            out["curve_range"] = [lo * n * k, hi * n * k]
+            out["beyond_curve_limit"] = self.curve.beyond_limit(self.unit_flow(Q) / n)
         return out
 
 

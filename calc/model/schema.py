@@ -5,13 +5,18 @@ from __future__ import annotations
 from calc import friction
 from calc.model.implied import ENTRANCE_KEYS
 from calc.model.sheet import (
+    ARRANGEMENTS,
+    CASE_ELEMENT_FIELDS,
     FORMAT,
     HEADER_FIELDS,
+    MAX_CASE_NAME,
+    MAX_CASES,
     MAX_ELEMENTS,
     MAX_FITTINGS,
     MAX_LABEL,
     MAX_POINTS,
     MAX_TEXT,
+    MAX_UNITS,
     RESTRAINTS,
     VERSION,
 )
@@ -24,6 +29,7 @@ def _q(kind_name: str) -> dict:
 _RATIO = {"type": ["string", "number", "null"], "description": "a plain number or a percentage"}
 
 _KEY = {"type": ["string", "number", "null"]}
+_COUNT = {"type": ["integer", "number", "string", "null"]}
 
 
 def _group(properties: dict, **extra) -> dict:
@@ -50,7 +56,11 @@ _ELEMENTS = {
     "pump": _group({
         "kind": {"const": "pump"}, "id": _ID, "label": _LABEL, "mode": {"enum": ["curve", "head", "", None]},
         "speed_ratio": _RATIO, "efficiency": _RATIO, "head": _q("a length"),
-        "curve": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/curve_point"}}}),
+        "curve": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/curve_point"}},
+        "units": _COUNT | {"description": f"identical units installed (1 to {MAX_UNITS}; default 1)"},
+        "standby": _COUNT | {"description": "of them, units kept in reserve (default 0)"},
+        "arrangement": {"enum": [*ARRANGEMENTS, "", None]},
+        "running": _COUNT | {"description": "units running (default: all but the standby units)"}}),
     "valve": _group({"kind": {"const": "valve"}, "id": _ID, "label": _LABEL, "K": _RATIO, "diameter": _q("a length")}),
 }
 
@@ -91,6 +101,7 @@ SCHEMA = {
             "type": "object", "required": ["kind"], "properties": {"kind": {"enum": list(_ELEMENTS)}},
             "allOf": [{"if": {"properties": {"kind": {"const": kind}}, "required": ["kind"]},
                        "then": {"$ref": f"#/$defs/{kind}"}} for kind in _ELEMENTS]}},
+        "cases": {"type": ["array", "null"], "maxItems": MAX_CASES, "items": {"$ref": "#/$defs/case"}},
     },
     "$defs": {
         # A node keeps the keys of the kinds it had before (the form never deletes a key), so the
@@ -108,6 +119,18 @@ SCHEMA = {
         "fitting": _group({"type": {"type": "string"}, "count": {"type": ["integer", "number", "string", "null"]},
                            "label": _LABEL, "K": _RATIO, "K1": _RATIO, "Kinf": _RATIO, "Ki": _RATIO, "Kd": _RATIO},
                           required=["type"]),
+        # An operating case: the inputs it changes from the base sheet (empty: as the base).
+        "case": _group({
+            "name": {"type": ["string", "null"], "maxLength": MAX_CASE_NAME},
+            "note": {"type": ["string", "null"], "maxLength": MAX_TEXT},
+            "start": _group({"elevation": _q("a length"), "pressure": _q("a gauge pressure")}),
+            "end": _group({"elevation": _q("a length"), "pressure": _q("a gauge pressure")}),
+            "liquid": _group({"temperature": _q("a temperature")}),
+            "pipes": _group({"condition": {"enum": ["new", "aged", "", None]}, "roughness": _q("a length")}),
+            "elements": {"type": ["array", "null"], "maxItems": MAX_ELEMENTS, "items": _group(
+                {"id": _ID, **{k: {"type": ["string", "number", "null"]}
+                               for k in dict.fromkeys(k for f in CASE_ELEMENT_FIELDS.values() for k in f)}})},
+        }, required=["name"]),
         "profile_point": _group({"chainage": _q("a length"), "elevation": _q("a length")}),
         "curve_point": _group({"flow": _q("a flow"), "head": _q("a length"), "efficiency": _RATIO,
                                "npsh_required": _q("a length")}),

@@ -179,6 +179,10 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
         rows.append(_typed(c, e, "head", LENGTH, "Head H"))
         rows.append(_typed(c, e, "speed_ratio", RATIO, "Speed ratio n"))
         rows.append(_typed(c, e, "efficiency", RATIO, "Efficiency η"))
+        if el.is_group:
+            rows.append(["Identical units: installed, standby, running", f"{el.units}, {el.standby}, {el.running}",
+                         f"{el.running} running in {el.arrangement}",
+                         "typed" if str(e.get("running", "")).strip() else "typed (running: the duty units)"])
     elif isinstance(el, Valve):
         rows.append(_typed(c, e, "K", RATIO, "Loss coefficient K"))
         r = _typed(c, e, "diameter", LENGTH, "Diameter D")

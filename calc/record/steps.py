@@ -209,27 +209,40 @@ def _pump_steps(c: Context, title: str, el: Pump, d: dict, Q: float, rho: float)
     H = d["head"]
     steps = []
     n = el.speed_ratio
+    k_par, k_ser = el.in_parallel, el.in_series
+    q_unit = Q / k_par
+    if k_par > 1:
+        steps.append(Step("Q_u", f"flow through each of the {k_par} units running in parallel", "Q_u = Q/N",
+                          f"= {sub(Q)} / {k_par}", num(q_unit), "m³/s", q_unit))
+    Qs = "Q_u" if k_par > 1 else "Q"
     if el.mode == "head":
-        steps.append(Step("H_p", "head added (typed)", "H_p", "", num(H), "m", H))
+        H_unit = el.fixed_head
+        steps.append(Step("H_u" if k_ser > 1 else "H_p", "head added (typed)", "H", "", num(H_unit), "m", H_unit))
     else:
-        q = Q / n
+        q = q_unit / n
         H1 = float(el.curve(q))
         if n != 1.0:
-            steps.append(Step("Q₁", "flow at the curve's own speed", "Q₁ = Q/n", f"= {sub(Q)} / {sub(n)}",
+            steps.append(Step("Q₁", "flow at the curve's own speed", f"Q₁ = {Qs}/n", f"= {sub(q_unit)} / {sub(n)}",
                               num(q), "m³/s", q))
-        steps += _curve_steps(c, "H₁", "head", el.curve, q, H1, "m", "Q₁")
+        steps += _curve_steps(c, "H₁", "head", el.curve, q, H1, "m", "Q₁" if n != 1.0 else Qs)
+        H_unit = n * n * H1
         if n != 1.0:
-            steps.append(Step("H_p", "head at this speed", "H_p = n² H₁", f"= {sub(n)}² × {sub(H1)}", num(H), "m", H))
+            steps.append(Step("H_u" if k_ser > 1 else "H_p", "head at this speed", "n² H₁", f"= {sub(n)}² × {sub(H1)}",
+                              num(H_unit), "m", H_unit))
+    if k_ser > 1:
+        steps.append(Step("H_p", f"head of the {k_ser} units running in series", "H_p = N H_u",
+                          f"= {k_ser} × {sub(H_unit)}", num(H), "m", H))
     steps.append(Step("P_h", "hydraulic power", "P_h = ρ g Q H_p", f"= {sub(rho)} × 9.80665 × {sub(Q)} × {sub(H)}",
                       num(d["power_hydraulic"]), "W", d["power_hydraulic"]))
     eta = d.get("efficiency")
     if eta:
         if el.efficiency_curve is not None:
-            steps += _curve_steps(c, "η", "efficiency", el.efficiency_curve, Q / n, eta, "–", "Q₁")
+            steps += _curve_steps(c, "η", "efficiency", el.efficiency_curve, q_unit / n, eta, "–",
+                                  "Q₁" if n != 1.0 else Qs)
         steps.append(Step("P", "shaft power", "P = P_h/η", f"= {sub(d['power_hydraulic'])} / {sub(eta)}",
                           num(d["power_shaft"]), "W", d["power_shaft"]))
     if d.get("npsh_required") is not None:
-        steps.append(Step("NPSH_r", "NPSH required (fitted curve)", "NPSH_r = n² NPSH₁(Q/n)", "",
+        steps.append(Step("NPSH_r", "NPSH required (fitted curve)", f"NPSH_r = n² NPSH₁({Qs}/n)", "",
                           num(d["npsh_required"]), "m", d["npsh_required"]))
     notes = []
     if el.curve is not None:

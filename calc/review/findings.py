@@ -54,6 +54,8 @@ class Finding:
     source: str = ""         # where the limit comes from, or 'common practice'
     element: int | None = None
     chainage: float | None = None
+    case: str | None = None  # on a sheet with cases: the case it comes from (calc.review.governing.merge)
+    cases: tuple = ()        # ... and every case where the check spoke
 
     def to_dict(self) -> dict:
         return asdict(self)

@@ -32,8 +32,11 @@ SCAN_MARGIN = 3.0
 H_SCAN_MIN = 1.0
 #: The scan starts this many decades below its top.
 SCAN_DECADES = 9.0
-#: Grid points of the scan; extrema between points are refined, so this only sets the cost.
+#: Grid points of the scan over SCAN_DECADES (a wider scan gets as many per decade); extrema between
+#: points are refined, so this only sets the cost.
 SCAN_POINTS = 48
+#: The scan reaches down to this fraction of the least flow the line could carry (`scan_range`).
+LOW_FRACTION = 0.1
 
 
 @dataclass
@@ -177,9 +180,9 @@ def driving_head(line: Line) -> float:
     for el in line.elements:
         if isinstance(el, Pump):
             if el.mode == "head":
-                H += max(el.fixed_head, 0.0)
+                H += max(el.fixed_head, 0.0) * el.in_series
             else:
-                H += max(max(el.curve.y), 0.0) * el.speed_ratio ** 2
+                H += max(max(el.curve.y), 0.0) * el.speed_ratio ** 2 * el.in_series
     return H
 
 
@@ -194,18 +197,34 @@ def scan_range(line: Line) -> tuple[float, float]:
         if node.nozzle_diameter:
             diameters.append(node.nozzle_diameter)
     D_min = min(diameters) if diameters else 1.0
-    H = max(driving_head(line), H_SCAN_MIN)
+    H_drive = driving_head(line)
+    H = max(H_drive, H_SCAN_MIN)
     Q_hi = SCAN_MARGIN * math.sqrt(2.0 * G * H) * math.pi * D_min * D_min / 4.0
-    return Q_hi * 10.0 ** (-SCAN_DECADES), Q_hi
+    Q_lo = Q_hi * 10.0 ** (-SCAN_DECADES)
+    if H_drive > 0.0:
+        # The bottom reaches below the least flow the line can carry, so no root lies under it: a flow
+        # is at least what the driving head pushes through the runs in laminar flow with no other loss
+        # (Hagen-Poiseuille, h = 128 nu L Q / (pi g D^4), losses only add to it), and a turbine at set
+        # power P needs at least P / (rho g H_drive), since its net head is less than H_drive.
+        nu = line.liquid.mu / line.liquid.rho
+        r_lam = sum(128.0 * nu * el.L / (math.pi * G * el.D ** 4) for el in line.elements if isinstance(el, PipeRun))
+        if r_lam > 0.0:
+            Q_lo = min(Q_lo, LOW_FRACTION * H_drive / r_lam)
+        for el in line.elements:
+            if isinstance(el, Turbine) and el.mode == "power":
+                Q_lo = min(Q_lo, LOW_FRACTION * el.power / (line.liquid.rho * G * H_drive))
+    return Q_lo, Q_hi
 
 
 # ----------------------------------------------------------------------------- roots
 
-def find_roots(f, f_array, Q_lo: float, Q_hi: float, n: int = SCAN_POINTS):
+def find_roots(f, f_array, Q_lo: float, Q_hi: float, n: int | None = None):
     """Every root of f on [Q_lo, Q_hi]: log-grid scan, extremum refinement, then brentq per bracket.
 
     Returns the roots, the log, and the scan (grid, values) for reuse.
     """
+    if n is None:
+        n = max(SCAN_POINTS, math.ceil(SCAN_POINTS * math.log10(Q_hi / Q_lo) / SCAN_DECADES))
     grid = np.geomspace(Q_lo, Q_hi, n)
     with np.errstate(all="ignore"):
         E = f_array(grid)
@@ -439,9 +458,15 @@ def explain_no_point(line: Line, static: float, machines: list[dict], Q_lo: floa
                            "at the flow stated (lower the set power or the losses)"),
                 "max_power": m.get("power_max"), "Q_at_max": m.get("Q_at_max")}
     E_lo = residual(line, Q_lo)
-    if E_lo <= 0.0:
+    if E_lo <= 0.0 and driving_head(line) <= 0.0:
         return {"reason": ("the head at the start does not exceed the head at the end plus the machines' "
                            "heads even at no flow: the water would run backwards (add or raise a pump)"),
+                "max_power": None, "Q_at_max": None}
+    if E_lo <= 0.0:
+        return {"reason": (f"the line's losses and the heads its turbines take use up the driving head even at "
+                           f"{Q_lo:.3g} m3/s, a tenth of the flow that head could push through the runs in laminar "
+                           "flow with no other loss: check the fittings, valves and turbines for a value far too "
+                           "large"),
                 "max_power": None, "Q_at_max": None}
     return {"reason": (f"head is still left over at {Q_hi:.4g} m3/s, {SCAN_MARGIN:g} times the flow the whole "
                        "driving head could push through the narrowest bore without any loss: check the diameters, "

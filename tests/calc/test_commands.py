@@ -120,3 +120,46 @@ def test_output_cut_short_by_its_reader_is_no_traceback():
     err = proc.stderr.read()
     assert proc.wait(timeout=60) == 0
     assert "Traceback" not in err
+
+
+def _sheet_with_cases(tmp_path) -> Path:
+    from calc.model.sheet import ensure_ids
+
+    doc = ensure_ids(load("pumped-main.json"))
+    doc["cases"] = [{"name": "Tank full", "end": {"elevation": "124 m"}},
+                    {"name": "Aged main", "pipes": {"condition": "aged"}}]
+    path = tmp_path / "cases.json"
+    path.write_text(json.dumps(doc))
+    return path
+
+
+def test_solve_prints_every_case_and_the_governing_cases(tmp_path, capsys):
+    path = _sheet_with_cases(tmp_path)
+    assert main(["solve", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "3 cases (the base and 2 more)" in out
+    assert "Case: Tank full" in out and "Case: Aged main" in out and "end: surface elevation: 124 m" in out
+    assert "Governing case of each check:" in out
+
+
+def test_solve_one_case_by_name_agrees_with_the_whole_run(tmp_path, capsys):
+    path = _sheet_with_cases(tmp_path)
+    assert main(["solve", str(path), "--json"]) == 0
+    every = json.loads(capsys.readouterr().out)
+    assert [c["name"] for c in every["cases"]] == ["Base", "Tank full", "Aged main"]
+    assert main(["solve", str(path), "--case", "aged main", "--json"]) == 0
+    one = json.loads(capsys.readouterr().out)
+    assert one["name"] == "Aged main" and one["changes"][0]["value"] == "aged"
+    sol = one["solution"]
+    whole = every["cases"][2]["solution"]
+    assert sol["points"][sol["design_index"]]["Q"] == whole["points"][whole["design_index"]]["Q"]
+    # a fuller tank means less flow from the same pump
+    q = {c["name"]: c["solution"]["points"][c["solution"]["design_index"]]["Q"] for c in every["cases"]}
+    assert q["Tank full"] < q["Base"] and q["Aged main"] < q["Base"]
+
+
+def test_an_unknown_case_is_refused_with_the_names(tmp_path, capsys):
+    path = _sheet_with_cases(tmp_path)
+    with pytest.raises(SystemExit) as e:
+        main(["solve", str(path), "--case", "Flood"])
+    assert "no case 'Flood'" in str(e.value) and "'Tank full'" in str(e.value)

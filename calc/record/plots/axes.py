@@ -202,12 +202,27 @@ def nice_ticks(lo: float, hi: float, n: int = 6) -> list[float]:
     return a.ticks
 
 
+_SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+
+
 def tick_text(t: float, step: float) -> str:
     """A tick value with as many decimals as its step needs (1-2-5 steps need no more than the step's).
 
     >>> tick_text(0.30000000000000004, 0.1), tick_text(-0.0, 5.0), tick_text(1500.0, 500.0)
     ('0.3', '0', '1500')
+
+    On steps of 100 000 or more, or finer than 1e-4, a tick is a power of ten, never a row of digits:
+
+    >>> tick_text(2.5e18, 5e17), tick_text(1.5e6, 5e5), tick_text(2e-5, 1e-5), tick_text(0.0, 1e6)
+    ('2.5×10¹⁸', '1.5×10⁶', '2×10⁻⁵', '0')
     """
+    if step > 0 and (step >= 1e5 or step < 1e-4) and t != 0:
+        power = math.floor(math.log10(abs(t)) + 1e-9)
+        digits = max(0, power - math.floor(math.log10(step) + 1e-9))
+        mantissa = f"{t / 10.0 ** power:.{digits}f}"
+        if mantissa.lstrip("-") == "10" + ("." + "0" * digits if digits else ""):  # rounded up a decade
+            mantissa, power = mantissa.replace("10", "1", 1), power + 1
+        return f"{mantissa}×10{str(power).translate(_SUPERSCRIPT)}"
     decimals = max(0, -math.floor(math.log10(step) + 1e-9)) if step > 0 else 0
     text = f"{t:.{decimals}f}"
     return "0" if text.strip("-0.") == "" else text

@@ -263,8 +263,9 @@ def head_flow_plot(systems: list[S.SystemCurve], machines: list[S.CurveSeries], 
         _draw_curve(chart, m, colour, u, kx, ky, _name(m.name, m.kind), u.h, el_what)
     if any(m.typed for m in machines):
         chart.key("Typed curve points", MACHINE_COLOURS[0], kind="ring")
-    if len(machines) > 1:
-        total = sum(m.y for m in machines)
+    counted = [m for m in machines if m.in_total]
+    if len(counted) > 1:
+        total = sum(m.y for m in counted)
         chart.line(machines[0].Q * kx, total * ky, COLOURS["total"], 1.6, "7 4",
                    title="All machines together")
         chart.key("All machines together", COLOURS["total"], "7 4")
@@ -341,7 +342,7 @@ def efficiency_plot(analysis, system: str = "SI") -> Plot | None:
                       "best-efficiency flow", COLOURS["band"], kind="band")
         _draw_curve(chart, c, colour, u, u.kq, 100.0, name, "%", "efficiency")
         if q_bep:
-            eta = float(np.clip(pump.efficiency_curve(q_bep / pump.speed_ratio), 0, 1))
+            eta = float(np.clip(pump.efficiency_curve(pump.unit_flow(q_bep) / pump.speed_ratio), 0, 1))
             chart.marker(q_bep * u.kq, eta * 100, colour, "square",
                          f"{name}: best efficiency {eta * 100:.1f} % at {u.flow(q_bep)}", "BEP", cls="point bep",
                          priority=1)

@@ -55,22 +55,31 @@ class CurveSeries:
     typed: list[tuple[float, float]] = field(default_factory=list)
     typed_range: tuple[float, float] | None = None
     kind: str = "pump"
+    in_total: bool = True  # False for one unit of a group, drawn beside the group's own curve
 
 
 def flow_top(analysis) -> float:
     """The highest flow worth showing [m3/s]: past every operating point, the turbine's best, the pump's data."""
     sol = analysis.solution
-    line = analysis.line
-    cands = [1.3 * max(p["Q"] for p in sol.points)] if sol.points else []
-    for m in sol.machines:
-        if m.get("Q_at_max"):
-            cands.append(1.25 * m["Q_at_max"])
-    for el in line.elements:
-        if isinstance(el, Pump) and el.curve is not None:
-            cands.append(1.1 * el.curve.Q_range[1] * el.speed_ratio)
+    cands = []
+    for line, solution in _cases(analysis):
+        if solution.points:
+            cands.append(1.3 * max(p["Q"] for p in solution.points))
+        for m in solution.machines:
+            if m.get("Q_at_max"):
+                cands.append(1.25 * m["Q_at_max"])
+        for el in line.elements:
+            if isinstance(el, Pump) and el.curve is not None:
+                cands.append(1.1 * el.curve.Q_range[1] * el.speed_ratio * el.in_parallel)
     if not cands:
         cands.append(sol.log.get("scan", {}).get("Q_max", 1.0) / 100.0)
     return max(cands)
+
+
+def _cases(analysis) -> list[tuple[Line, object]]:
+    """(line, solution) of every case of the analysis, the base first (the base alone without cases)."""
+    cases = getattr(analysis, "cases", None) or []
+    return [(c.line, c.solution) for c in cases] or [(analysis.line, analysis.solution)]
 
 
 def flows(q_end: float) -> np.ndarray:
@@ -89,13 +98,27 @@ def sign_of(line: Line) -> float:
 
 
 def system_curves(analysis, Q: np.ndarray) -> list[SystemCurve]:
-    """Every system curve of the sheet on the flows ``Q``, with its operating points (one case today).
+    """Every system curve of the sheet on the flows ``Q``: one per operating case, each with its design
+    point named by the case, or for a sheet without cases the one curve with every operating point.
 
     With pumps, the head the line needs from them, H_sys(Q) = H_end - H_start + sum of line losses; with
     turbines, the head left for them; with neither, the line's losses (met by the static head).
     """
-    line = analysis.line
-    sol = analysis.solution
+    cases = getattr(analysis, "cases", None) or []
+    if len(cases) > 1:
+        # One curve per case, each with its design point named by the case.
+        out = []
+        for c in cases:
+            one = system_curve(c.line, c.solution, Q, c.name)
+            one.points = [Mark(m.Q, m.y, c.name, m.title) for m, p in zip(one.points, c.solution.points)
+                          if p.get("is_design")]
+            out.append(one)
+        return out
+    return [system_curve(analysis.line, analysis.solution, Q, "System")]
+
+
+def system_curve(line: Line, sol, Q: np.ndarray, name: str) -> SystemCurve:
+    """One line's system curve on the flows ``Q``, with its operating points."""
     fluid = line.fluid
     with np.errstate(all="ignore"):
         E = residual_array(line, Q)
@@ -111,7 +134,7 @@ def system_curves(analysis, Q: np.ndarray) -> list[SystemCurve]:
         need = p["head_start"] - p["head_end"] - losses
         y = -need if sign < 0 else need if sign > 0 else static - need
         points.append(Mark(p["Q"], y, point_label(k, p), ""))
-    return [SystemCurve("System", Q, H, points)]
+    return SystemCurve(name, Q, H, points)
 
 
 def point_label(k: int, p: dict) -> str:
@@ -120,19 +143,28 @@ def point_label(k: int, p: dict) -> str:
 
 
 def _curve_series(name: str, index: int, curve: Curve, Q: np.ndarray, n: float, power: float,
-                  lo: float | None = None, hi: float | None = None, kind: str = "pump") -> CurveSeries:
-    """A typed curve scaled by the affinity laws: y(Q) = n^power y1(Q / n), held within [lo, hi].
+                  lo: float | None = None, hi: float | None = None, kind: str = "pump", flow_units: int = 1,
+                  head_units: int = 1) -> CurveSeries:
+    """A typed curve scaled by the affinity laws and a group's units: y(Q) = m n^power y1(Q / (k n)), held
+    within [lo, hi], with k units sharing the flow (parallel) and m adding their y (series heads).
 
     The ends of the typed flows join the flows drawn, so that the solid part ends and the dashed
     part starts exactly at the first and last typed points.
     """
-    q0, q1 = curve.Q_range[0] * n, curve.Q_range[1] * n
+    k = flow_units * n
+    q0, q1 = curve.Q_range[0] * k, curve.Q_range[1] * k
     Q = np.union1d(Q, [q for q in (q0, q1) if Q[0] < q < Q[-1]])
-    y = n ** power * np.asarray(curve(Q / n), dtype=float)
+    y = head_units * n ** power * np.asarray(curve(Q / k), dtype=float)
     if lo is not None or hi is not None:
         y = np.clip(y, lo, hi)
-    typed = [(q * n, v * n ** power) for q, v in zip(curve.Q, curve.y)]
+    typed = [(q * k, head_units * v * n ** power) for q, v in zip(curve.Q, curve.y)]
     return CurveSeries(name, index, Q, y, typed, (q0, q1), kind)
+
+
+def group_name(el: Pump) -> str:
+    """'P1' for a single pump; 'P1, 2 in parallel' for a group."""
+    base = el.label or "pump"
+    return f"{base}, {el.running} in {el.arrangement}" if el.is_group else base
 
 
 def machine_curves(line: Line, Q: np.ndarray) -> list[CurveSeries]:
@@ -142,9 +174,14 @@ def machine_curves(line: Line, Q: np.ndarray) -> list[CurveSeries]:
     for i, el in enumerate(line.elements):
         if isinstance(el, Pump):
             if el.curve is not None and el.mode != "head":
-                out.append(_curve_series(el.label or "pump", i, el.curve, Q, el.speed_ratio, 2))
+                out.append(_curve_series(group_name(el), i, el.curve, Q, el.speed_ratio, 2,
+                                         flow_units=el.in_parallel, head_units=el.in_series))
+                if el.is_group and el.running > 1:
+                    one = _curve_series(f"{el.label or 'pump'}, one unit", i, el.curve, Q, el.speed_ratio, 2)
+                    one.in_total = False
+                    out.append(one)
             else:
-                out.append(CurveSeries(el.label or "pump", i, Q, np.asarray(el.pump_head(Q), dtype=float)))
+                out.append(CurveSeries(group_name(el), i, Q, np.asarray(el.pump_head(Q), dtype=float)))
         elif isinstance(el, Turbine):
             with np.errstate(all="ignore"):
                 y = np.asarray(el.head_array(Q, fluid), dtype=float)
@@ -157,13 +194,15 @@ def machine_curves(line: Line, Q: np.ndarray) -> list[CurveSeries]:
 
 def efficiency_curves(line: Line, Q: np.ndarray) -> list[CurveSeries]:
     """Each pump's efficiency [-] against flow where an efficiency curve was typed (affinity: eta(Q) = eta1(Q/n))."""
-    return [_curve_series(el.label or "pump", i, el.efficiency_curve, Q, el.speed_ratio, 0, 0.0, 1.0)
+    return [_curve_series(group_name(el), i, el.efficiency_curve, Q, el.speed_ratio, 0, 0.0, 1.0,
+                          flow_units=el.in_parallel)
             for i, el in enumerate(line.elements) if isinstance(el, Pump) and el.efficiency_curve is not None]
 
 
 def npsh_required_curves(line: Line, Q: np.ndarray) -> list[CurveSeries]:
     """Each pump's NPSH required [m] against flow where it was typed (affinity: n^2 NPSHR1(Q/n))."""
-    return [_curve_series(el.label or "pump", i, el.npshr_curve, Q, el.speed_ratio, 2, 0.0, None)
+    return [_curve_series(group_name(el), i, el.npshr_curve, Q, el.speed_ratio, 2, 0.0, None,
+                          flow_units=el.in_parallel)
             for i, el in enumerate(line.elements) if isinstance(el, Pump) and el.npshr_curve is not None]
 
 

@@ -130,6 +130,14 @@ def test_the_published_schema_lists_exactly_the_keys_the_parser_reads():
     assert _props(defs["fitting"]) == set(cs.FITTING_FIELDS)
     assert _props(defs["profile_point"]) == set(cs.PROFILE_POINT_FIELDS)
     assert _props(defs["curve_point"]) == set(cs.CURVE_POINT_FIELDS)
+    case = defs["case"]
+    assert _props(case) == set(cs.CASE_FIELDS)
+    for which in ("start", "end"):
+        assert _props(case["properties"][which]) == set(cs.CASE_NODE_FIELDS)
+    assert _props(case["properties"]["liquid"]) == set(cs.CASE_LIQUID_FIELDS)
+    assert _props(case["properties"]["pipes"]) == set(cs.CASE_PIPES_FIELDS)
+    row = case["properties"]["elements"]["items"]
+    assert _props(row) == {"id"} | {k for f in cs.CASE_ELEMENT_FIELDS.values() for k in f}
 
 
 def test_a_group_switched_on_the_form_keeps_its_other_kinds_keys():

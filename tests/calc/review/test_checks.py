@@ -496,7 +496,7 @@ def test_findings_sorted_worst_first_and_json_safe():
         text = json.dumps(a.to_dict(), allow_nan=False)
         back = json.loads(text)
         assert {"severity", "code", "title", "message", "value", "limit", "quantity", "source", "element",
-                "chainage"} == set(back["findings"][0])
+                "chainage", "case", "cases"} == set(back["findings"][0])
         assert back["band"]["Q_low"] <= back["solution"]["points"][back["solution"]["design_index"]]["Q"]
 
 

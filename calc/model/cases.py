@@ -1,0 +1,198 @@
+"""Operating cases: the base sheet plus named overlays, each changing a few inputs.
+
+A case is read from the document's ``cases`` list (docs/sheet-format.md): its name, and the fields it
+changes from the base sheet: the levels or pressures at the start and end, the liquid's temperature,
+the condition or roughness of every pipe run, and a machine's or valve's setting named by its stable id.
+A field left empty keeps the base value, so a case holds only what differs.
+
+The case's document is the base document with those fields written over it (`overlay`), parsed by the
+same parser as the base (one model per case), so every rule the base obeys holds in every case and a
+case can never describe what a sheet could not. A parse error in the overlaid document is put back at
+the case field that caused it (`CaseRead.field_of`).
+"""
+
+from __future__ import annotations
+
+import copy
+from dataclasses import dataclass, field
+
+from calc.model.fields import (
+    CASE_ELEMENT_FIELDS,
+    CASE_FIELDS,
+    CASE_LIQUID_FIELDS,
+    CASE_NODE_FIELDS,
+    CASE_PIPES_FIELDS,
+    MAX_CASE_NAME,
+    MAX_CASES,
+    MAX_ELEMENTS,
+    MAX_TEXT,
+)
+from calc.model.reader import Reader
+
+#: The name the base sheet goes by beside its cases.
+BASE_NAME = "Base"
+
+
+@dataclass
+class Change:
+    """One input a case changes: where it sits in the case (``cases.1.start.elevation``), where it lands
+    in the sheet document (``start.elevation``, or a tuple of such paths for every pipe run), the value
+    typed, and words for the record ('start: surface elevation')."""
+
+    case_path: str
+    targets: tuple[tuple, ...]
+    value: object
+    what: str
+
+
+@dataclass
+class CaseRead:
+    """A case as read from the document: its name, its place in ``cases``, and its changes."""
+
+    name: str
+    index: int
+    note: str = ""
+    changes: list[Change] = field(default_factory=list)
+
+    @property
+    def path(self) -> str:
+        return f"cases.{self.index}"
+
+    def field_of(self, doc_path: str) -> Change | None:
+        """The change that wrote the document field ``doc_path`` (``elements.2.roughness``), if any."""
+        parts = tuple(int(p) if p.isdigit() else p for p in doc_path.split("."))
+        for c in self.changes:
+            for t in c.targets:
+                if parts[:len(t)] == t or t[:len(parts)] == parts:
+                    return c
+        return None
+
+
+def _blank(v) -> bool:
+    return v is None or (isinstance(v, str) and not v.strip())
+
+
+def read_cases(r: Reader, doc: dict) -> list[CaseRead]:
+    """The ``cases`` of a sheet document, checked for shape (names, known fields, element ids); the values
+    themselves are checked when each case's document is parsed."""
+    raw = r.lst(doc, "cases", "cases", MAX_CASES)
+    elements = doc.get("elements") if isinstance(doc.get("elements"), list) else []
+    elements = elements[:MAX_ELEMENTS]
+    by_id = {e["id"]: (k, e) for k, e in enumerate(elements)
+             if isinstance(e, dict) and isinstance(e.get("id"), str) and e["id"]}
+    pipes = tuple(k for k, e in enumerate(elements) if isinstance(e, dict) and e.get("kind") == "pipe")
+    out: list[CaseRead] = []
+    names: dict[str, int] = {}
+    for i, c in enumerate(raw):
+        path = f"cases.{i}"
+        if not isinstance(c, dict):
+            r.fail(path, c, "must be a group of fields")
+            continue
+        r.known(c, path, CASE_FIELDS, "a case")
+        name = r.text(c, "name", f"{path}.name", MAX_CASE_NAME)
+        if isinstance(name, str):
+            name = name.strip()
+            if not name:
+                r.ask(f"{path}.name", c.get("name"), "give the case a name")
+            elif name.casefold() == BASE_NAME.casefold():
+                r.fail(f"{path}.name", name, f"'{BASE_NAME}' is the name of the sheet's own inputs: choose another")
+            elif name.casefold() in names:
+                r.fail(f"{path}.name", name, f"is the name of case {names[name.casefold()] + 1} too: each case needs "
+                                             "its own name")
+            else:
+                names[name.casefold()] = i
+        note = r.text(c, "note", f"{path}.note", MAX_TEXT) or ""
+        case = CaseRead(name=name or f"case {i + 1}", index=i, note=note)
+        for which in ("start", "end"):
+            group = r.obj(c, which, f"{path}.{which}")
+            r.known(group, f"{path}.{which}", CASE_NODE_FIELDS, f"the {which} in a case")
+            for key in CASE_NODE_FIELDS:
+                if not _blank(group.get(key)):
+                    case.changes.append(Change(f"{path}.{which}.{key}", ((which, key),), group[key],
+                                               f"{which}: {'surface elevation' if key == 'elevation' else key}"))
+        liquid = r.obj(c, "liquid", f"{path}.liquid")
+        r.known(liquid, f"{path}.liquid", CASE_LIQUID_FIELDS, "the liquid in a case")
+        if not _blank(liquid.get("temperature")):
+            case.changes.append(Change(f"{path}.liquid.temperature", (("liquid", "temperature"),),
+                                       liquid["temperature"], "liquid: temperature"))
+        _pipes(r, c, path, pipes, case)
+        _elements(r, c, path, by_id, case)
+        out.append(case)
+    return out
+
+
+def _pipes(r: Reader, c: dict, path: str, pipes: tuple[int, ...], case: CaseRead) -> None:
+    group = r.obj(c, "pipes", f"{path}.pipes")
+    r.known(group, f"{path}.pipes", CASE_PIPES_FIELDS, "the pipe runs in a case")
+    condition, roughness = group.get("condition"), group.get("roughness")
+    if not _blank(condition) and not _blank(roughness):
+        r.fail(f"{path}.pipes.roughness", roughness, "give either a condition or a roughness for every run, not both")
+        return
+    if not _blank(condition):
+        if condition not in ("new", "aged"):
+            r.fail(f"{path}.pipes.condition", condition, "must be one of: new, aged")
+            return
+        # Each run's roughness then comes from its material's table for that condition: a roughness typed
+        # on a run gives way (it is the run's condition that this case changes).
+        targets = tuple(t for k in pipes for t in (("elements", k, "condition"), ("elements", k, "roughness")))
+        case.changes.append(Change(f"{path}.pipes.condition", targets, condition, "every pipe run: condition"))
+    elif not _blank(roughness):
+        targets = tuple(("elements", k, "roughness") for k in pipes)
+        case.changes.append(Change(f"{path}.pipes.roughness", targets, roughness, "every pipe run: roughness"))
+
+
+def _elements(r: Reader, c: dict, path: str, by_id: dict, case: CaseRead) -> None:
+    seen: dict[str, int] = {}
+    for j, row in enumerate(r.lst(c, "elements", f"{path}.elements", MAX_ELEMENTS)):
+        rp = f"{path}.elements.{j}"
+        if not isinstance(row, dict):
+            r.fail(rp, row, "must be a group of fields naming an element by its id")
+            continue
+        ident = row.get("id")
+        values = {k: v for k, v in row.items() if k != "id" and not _blank(v)}
+        if ident not in by_id:
+            if values:
+                r.fail(f"{rp}.id", ident, f"names no element of the line (the ids are: {', '.join(by_id) or 'none'}): "
+                                          "the element was removed or its id changed; remove this row")
+            continue
+        if ident in seen:
+            r.fail(f"{rp}.id", ident, f"is named by row {seen[ident] + 1} of this case too: one row an element")
+            continue
+        seen[ident] = j
+        k, element = by_id[ident]
+        kind = element.get("kind")
+        allowed = CASE_ELEMENT_FIELDS.get(kind, ())
+        r.known(row, rp, ("id",) + allowed, f"a case's row for a {kind}")
+        label = element.get("label") or ident
+        for key in allowed:
+            if key in values:
+                case.changes.append(Change(f"{rp}.{key}", (("elements", k, key),), values[key], f"{label}: {key}"))
+
+
+def overlay(doc: dict, case: CaseRead) -> dict:
+    """The sheet document of one case: the base with the case's changes written over it (the base is
+    not touched; only the groups a change reaches are copied)."""
+    out = dict(doc)
+    out.pop("cases", None)
+    copied: set[tuple] = set()
+
+    def place(path: tuple):
+        node = out
+        for depth, key in enumerate(path[:-1]):
+            prefix = path[:depth + 1]
+            child = node[key]
+            if prefix not in copied:
+                child = copy.copy(child)
+                node[key] = child
+                copied.add(prefix)
+            node = child
+        return node
+
+    for change in case.changes:
+        for target in change.targets:
+            node = place(target)
+            if change.case_path.endswith("pipes.condition") and target[-1] == "roughness":
+                node[target[-1]] = ""
+            else:
+                node[target[-1]] = change.value
+    return out
