@@ -8,8 +8,10 @@ from calc.model.cases import BASE_NAME, Change
 from calc.model.elements import Line
 from calc.model.settings import CheckSettings
 from calc.model.sheet import Parsed, parse
-from calc.review import checks, governing, uncertainty
+from calc.review import checks, governing, machines, uncertainty
+from calc.review.findings import SEVERITIES
 from calc.review.summary import headline as summary_of
+from calc.steady import speed
 from calc.steady.series import Solution, _json_safe, solve
 from calc.units import InputError
 
@@ -27,10 +29,11 @@ class CaseResult:
     summary: dict | None
     changes: list[Change] = field(default_factory=list)
     note: str = ""
+    speeds: list = field(default_factory=list)  # calc.steady.speed.SpeedAnswer of each pump on a target
 
     def to_dict(self) -> dict:
         return _json_safe({
-            "name": self.name, "note": self.note,
+            "name": self.name, "note": self.note, "speeds": [a.to_dict() for a in self.speeds],
             "changes": [{"field": c.case_path, "what": c.what, "value": c.value} for c in self.changes],
             "solution": self.solution.to_dict(), "findings": [f.to_dict() for f in self.findings],
             "band": self.band, "summary": self.summary,
@@ -80,6 +83,8 @@ class Analysis:
             "band": _json_safe(self.band),
             "check_settings": _json_safe(self.check_settings.to_dict()) if self.check_settings else None,
         }
+        if self.cases and self.cases[0].speeds:
+            out["speeds"] = _json_safe([a.to_dict() for a in self.cases[0].speeds])
         if self.has_cases:
             out["cases"] = [c.to_dict() for c in self.cases]
             out["governing"] = _json_safe(self.governing)
@@ -92,12 +97,15 @@ def analyse(doc: dict) -> Analysis:
 
 
 def solve_case(name: str, line: Line, settings: CheckSettings, changes=(), note: str = "") -> CaseResult:
-    """One case: solve, band, review and summarise its line."""
+    """One case: set the speed of each pump on a target, then solve, band, review and summarise its line."""
+    line, speeds = speed.settle(line)
     solution = solve(line)
     band = uncertainty.band(line, solution, settings)
     findings = checks.review(line, solution, settings, band)
+    if speeds:
+        findings = sorted(machines.speed_findings(line, speeds) + findings, key=lambda f: SEVERITIES.index(f.severity))
     summary = summary_of(line, solution.to_dict(), settings) if solution.design is not None else None
-    return CaseResult(name, line, solution, findings, band, summary, list(changes), note)
+    return CaseResult(name, line, solution, findings, band, summary, list(changes), note, speeds)
 
 
 def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:
@@ -112,5 +120,5 @@ def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:
     findings = governing.merge([governing.CaseFindings(r.name, r.findings) for r in results])
     rows = (governing.governing([governing.CaseSummary(r.name, r.line, r.summary) for r in results], settings)
             if len(results) > 1 else [])
-    return Analysis(doc, line, base.solution, findings, band=base.band, check_settings=settings,
+    return Analysis(doc, base.line, base.solution, findings, band=base.band, check_settings=settings,
                     cases=results, governing=rows)

@@ -111,6 +111,15 @@ class SolveOut(BaseModel):
     ok: bool
     errors: list[FieldError]
     solution: dict[str, Any] | None = Field(description="the solution in SI base units (m, m3/s, Pa, W)")
+    findings: list[dict[str, Any]] = Field(default_factory=list,
+                                           description="every check's finding, worst first; on a sheet with "
+                                                       "cases each check once, from its governing case ('case')")
+    band: dict[str, Any] | None = Field(default=None, description="the range of the answer")
+    summary: dict[str, Any] | None = Field(default=None, description="the headline figures, SI")
+    cases: list[dict[str, Any]] | None = Field(default=None, description="on a sheet with operating cases: each "
+                                               "case (the base first) with its changes, solution, findings, range "
+                                               "and summary")
+    governing: list[dict[str, Any]] | None = Field(default=None, description="the governing case of each check")
 
 
 def _store(request: Request) -> Store:
@@ -236,7 +245,14 @@ def solve(request: Request, body: SolveIn) -> Response:
     outcome = solve_parsed(parsed)
     if outcome.failure:
         return _error(422, "Not solved", outcome.failure)
-    return JSONResponse({"ok": True, "errors": [], "solution": outcome.solution})
+    body = {"ok": True, "errors": [], "solution": outcome.solution, "findings": outcome.findings,
+            "band": outcome.band, "summary": outcome.headline}
+    a = outcome.analysis
+    if a is not None and a.has_cases:
+        # Every case solved with its checks (the base first), and the governing case of each check.
+        body["cases"] = [c.to_dict() for c in a.cases]
+        body["governing"] = outcome.governing
+    return JSONResponse(body)
 
 
 def schema() -> dict:

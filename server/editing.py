@@ -20,13 +20,14 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Any
 
+from calc.model import cases as calc_cases
 from calc.model import sheet as calc_sheet
 from calc.units import unit_allowed, unit_text
 
 #: Top-level parts of the document a form field may write to.
-SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements")
+SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements", "cases")
 #: Fields whose value changes which other fields the form shows.
-SWITCH_KEYS = {"kind", "mode", "type", "standard"}
+SWITCH_KEYS = {"kind", "mode", "type", "standard", "speed_control", "units"}
 #: Keys holding a group of fields that a form may create when the document has none yet (a pipe's size,
 #: the settings and their check limits, which most sheets leave at their defaults).
 CREATABLE_GROUPS = {"size", "settings", "checks"}
@@ -35,6 +36,7 @@ LIST_TEMPLATES: dict[str, tuple[dict, int]] = {
     "fittings": (calc_sheet.FITTING_TEMPLATE, calc_sheet.MAX_FITTINGS),
     "profile": (calc_sheet.PROFILE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
     "curve": (calc_sheet.CURVE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
+    "cases": (calc_sheet.CASE_TEMPLATE, calc_sheet.MAX_CASES),
 }
 #: Fields a new pipe run takes from the last one on the sheet: the same pipe carries on. Its length and
 #: end elevation are asked for (a run level with the last one would be a number nobody gave).
@@ -258,6 +260,20 @@ def apply_action(doc: dict, action: str) -> ActionResult:
                     new[key] = copy.deepcopy(same[-1][key])
         elements.append(new)
         return ActionResult(doc, focus=f"elements.{len(elements) - 1}.label")
+    if verb == "preset" and target.startswith("cases:"):
+        cases = doc.get("cases")
+        if cases is None:
+            cases = doc["cases"] = []
+        if not isinstance(cases, list):
+            return ActionResult(doc, message="The sheet's cases cannot take new items.")
+        new_cases, why = calc_cases.preset(doc, target.split(":", 1)[1])
+        if why:
+            return ActionResult(doc, message=why)
+        if len(cases) + len(new_cases) > calc_sheet.MAX_CASES:
+            return ActionResult(doc, message=f"A sheet holds at most {calc_sheet.MAX_CASES} cases.")
+        cases.extend(new_cases)
+        return ActionResult(doc, focus=f"cases.{len(cases) - len(new_cases)}.name",
+                            note=f"Added the cases {' and '.join(repr(c['name']) for c in new_cases)}.")
     parts = split_path(target)
     if parts is None:
         return ActionResult(doc, message="That action is not one this sheet knows.")
@@ -286,7 +302,14 @@ def apply_action(doc: dict, action: str) -> ActionResult:
             return ActionResult(doc, message="That item is not on this sheet any more.")
         list_path = ".".join(str(p) for p in parts[:-1])
         if verb == "remove":
+            dropped = 0
+            if parts[:-1] == ("elements",) and isinstance(items[index], dict):
+                # An element's changes in the cases go with it (a row naming a removed element is an error).
+                dropped = calc_cases.drop_rows(doc, items[index].get("id"))
             del items[index]
+            if dropped:
+                return ActionResult(doc, focus=f"{list_path}.{index - 1}" if index else list_path,
+                                    note=f"Its changes in {dropped} case{'s' if dropped > 1 else ''} went with it.")
             return ActionResult(doc, focus=f"{list_path}.{index - 1}" if index else list_path)
         other = index - 1 if verb == "up" else index + 1
         if not 0 <= other < len(items):
@@ -303,7 +326,7 @@ def apply_action(doc: dict, action: str) -> ActionResult:
 # sheet has moved on, and an item altered on its way never lands.
 
 #: What the items of each list are called in the notice of a removal.
-ITEM_NAMES = {"fittings": "fitting", "profile": "profile point", "curve": "curve point"}
+ITEM_NAMES = {"fittings": "fitting", "profile": "profile point", "curve": "curve point", "cases": "case"}
 
 
 def document_digest(doc: Any) -> str:
@@ -340,6 +363,10 @@ def removal_words(doc: dict, target: str) -> str:
     ('pipe run «Suction»', 'pump (element 2)', 'curve point 3 of «Suction»')
     """
     parts = split_path(target) or ()
+    if len(parts) == 2 and parts[0] == "cases" and isinstance(parts[1], int):
+        case = get_path(doc, parts)
+        name = " ".join(str(case.get("name") or "").split()) if isinstance(case, dict) else ""
+        return f"case «{name}»" if name else f"case {parts[1] + 1}"
     if len(parts) < 2 or parts[0] != "elements" or not isinstance(parts[1], int):
         return "the item"
     element = get_path(doc, parts[:2])

@@ -244,7 +244,7 @@ def edit(stored: dict, drawn_from: dict, fields: dict[str, str], action: str | N
         result = apply_action(typed, action)
         focus, message = result.focus, result.message
         if message is None:
-            switched = True
+            switched, note = True, result.note
             typed = result.doc
             acted = apply_action(stored, action)
             if acted.message is None:

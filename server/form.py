@@ -27,6 +27,7 @@ class Spec:
     default: str = ""  # what an empty select means, e.g. "anchored throughout"
     wide: bool = False
     shows_default: bool = False  # the example is the value an empty field means (a check limit's default)
+    as_base: bool = False  # the example is the base sheet's value, which an empty case field keeps
     detail: str = ""  # the help in full, shown when the pointer rests on the short one
 
 
@@ -77,6 +78,11 @@ OPTIONS = {
     "turbine_mode": lambda: [("power", "set shaft power"), ("head", "fixed head"), ("curve", "head-flow curve")],
     "pump_mode": lambda: [("curve", "head-flow curve"), ("head", "fixed head")],
     "fitting_type": _fitting_types,
+    "speed_control": lambda: [("fixed", "the ratio typed"), ("flow", "solved for a target flow"),
+                              ("head", "solved for a target head")],
+    "arrangement": lambda: [("parallel", "in parallel (flows add)"), ("series", "in series (heads add)")],
+    "case_condition": lambda: [("", "as the base"), ("new", "new: each material's new roughness"),
+                               ("aged", "aged: each material's aged roughness")],
     "entrance": lambda: [(f.key, f.name) for f in tables.fittings() if f.key.startswith("entrance")],
 }
 
@@ -180,14 +186,32 @@ TURBINE = {
     "curve": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="turbine_mode"),
               Spec("efficiency", "Efficiency", "ratio", example="0.85", help="optional; default 1")],
 }
+#: A pump's group: identical units, how many stand by, how they are joined, how many run.
+PUMP_GROUP = [Spec("units", "Identical units", "count", example="1", help="installed; empty: 1; the curve is one unit's"),
+              Spec("standby", "Of them standby", "count", example="0", help="empty: none"),
+              Spec("arrangement", "Units joined", "select", options="arrangement", default="in parallel"),
+              Spec("running", "Units running", "count", example="all duty units",
+                   help="empty: all but the standby units")]
+#: A curve pump's speed: typed, or solved for a target (the target's field by the choice).
+PUMP_SPEED = {
+    "fixed": [],
+    "flow": [Spec("target_flow", "Target flow", example="40 L/s", help="the speed is solved to give it"),
+             Spec("speed_min", "Lowest speed ratio", "ratio", example="0.6", help="optional; checked"),
+             Spec("speed_max", "Highest speed ratio", "ratio", example="1", help="optional; checked")],
+    "head": [Spec("target_head", "Target pump head", example="30 m", help="the speed is solved to give it"),
+             Spec("speed_min", "Lowest speed ratio", "ratio", example="0.6", help="optional; checked"),
+             Spec("speed_max", "Highest speed ratio", "ratio", example="1", help="optional; checked")],
+}
 PUMP = {
     "curve": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="pump_mode"),
-              Spec("speed_ratio", "Speed ratio", "ratio", example="1", help="affinity laws; default 1"),
+              Spec("speed_control", "Speed", "select", options="speed_control", default="the ratio typed"),
+              Spec("speed_ratio", "Speed ratio", "ratio", example="1",
+                   help="affinity laws; default 1; unused when the speed is solved"),
               Spec("efficiency", "Efficiency", "ratio", example="0.75",
-                   help="optional; used when the curve has none")],
+                   help="optional; used when the curve has none"), *PUMP_GROUP],
     "head": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="pump_mode"),
              Spec("head", "Head added to the flow", example="25 m"),
-             Spec("efficiency", "Efficiency", "ratio", example="0.75", help="optional")],
+             Spec("efficiency", "Efficiency", "ratio", example="0.75", help="optional"), *PUMP_GROUP],
 }
 VALVE = [Spec("label", "Label", "text"), Spec("K", "Loss coefficient K", "ratio", example="0.2"),
          Spec("diameter", "Diameter", example="150 mm", help="optional; default the run before it")]
@@ -205,6 +229,27 @@ PUMP_POINT = [Spec("flow", "Flow", example="20 L/s"), Spec("head", "Head", examp
               Spec("npsh_required", "NPSH required", example="3 m")]
 
 ELEMENT_TITLES = {"pipe": "Pipe run", "turbine": "Turbine", "pump": "Pump", "valve": "Valve"}
+
+
+@dataclass(frozen=True)
+class CaseRow:
+    """One input of the case table: what it is, the base sheet's value, and each case's field for it
+    (None where a case has no place for it yet)."""
+
+    label: str
+    base: str
+    cells: tuple
+
+
+@dataclass(frozen=True)
+class CaseColumn:
+    """One case of the case table: its place in ``cases``, its name and note fields, and the rows it
+    holds for elements no longer on the line (``(row path, id)``, each to remove)."""
+
+    index: int
+    name: Field
+    note: Field
+    orphans: tuple
 
 
 def field_id(path: str) -> str:
@@ -274,6 +319,17 @@ def example_in(example: str, system: str, sig: int = 2) -> str:
     except ValueError:
         return example
     return f"{float(f'{value:.{sig}g}'):g} {_US_EXAMPLE_UNITS[unit]}"
+
+
+def _blank(v: Any) -> bool:
+    return v is None or (isinstance(v, str) and not v.strip())
+
+
+def _whole(v: Any) -> int:
+    try:
+        return int(v) if not isinstance(v, bool) and float(v) == int(float(v)) else 0
+    except (TypeError, ValueError, OverflowError):
+        return 0
 
 
 def _shown(value: Any) -> str:
@@ -376,7 +432,12 @@ class FormView:
         if kind == "turbine":
             return self.fields(prefix, TURBINE.get(self.get(f"{prefix}.mode", "power"), TURBINE["power"]))
         if kind == "pump":
-            return self.fields(prefix, PUMP.get(self.get(f"{prefix}.mode", "curve"), PUMP["curve"]))
+            mode = self.get(f"{prefix}.mode", "curve")
+            specs = PUMP.get(mode, PUMP["curve"])
+            if mode != "head":
+                control = self.get(f"{prefix}.speed_control", "fixed")
+                specs = specs[:4] + PUMP_SPEED.get(control, []) + specs[4:]
+            return self.fields(prefix, specs)
         if kind == "valve":
             return self.fields(prefix, VALVE)
         return [self.field(prefix, Spec("kind", "Kind", "text")), self.field(prefix, Spec("label", "Label", "text"))]
@@ -455,6 +516,94 @@ class FormView:
             out.append((i, kind if isinstance(kind, str) else "", e if isinstance(e, dict) else {}))
         return out
 
+    # -- the operating cases ------------------------------------------------------------------
+    def case_columns(self) -> list[CaseColumn]:
+        from calc.model.cases import case_elements
+
+        ids = {e["id"] for e in case_elements(self.doc)}
+        out = []
+        for i, case in enumerate(self.items("cases")):
+            case = case if isinstance(case, dict) else {}
+            rows = case.get("elements") if isinstance(case.get("elements"), list) else []
+            orphans = tuple((f"cases.{i}.elements.{j}", str(r.get("id"))) for j, r in enumerate(rows)
+                            if isinstance(r, dict) and r.get("id") not in ids)
+            out.append(CaseColumn(i, self.field(f"cases.{i}", Spec("name", f"Case {i + 1} name", "text")),
+                                  self.field(f"cases.{i}", Spec("note", f"Case {i + 1} note", "text")), orphans))
+        return out
+
+    def case_rows(self) -> list[CaseRow]:
+        """The case table's rows: each input a case may change, with the base value and a field per case."""
+        from calc.model.cases import case_elements
+
+        cases = self.items("cases")
+        rows: list[CaseRow] = []
+
+        def add(label: str, base: Any, cell_path, spec: Spec, words: str = "") -> None:
+            # ``words`` stands for a base that is no one value (each run's own roughness): shown in the base
+            # column, while the cells' placeholders give an example.
+            base_text = _shown(base) if not isinstance(base, (dict, list)) else ""
+            cells = []
+            for i, _case in enumerate(cases):
+                where = cell_path(i)
+                if where is None:
+                    cells.append(None)
+                    continue
+                prefix, key = where.rsplit(".", 1)
+                cells.append(self.field(prefix, Spec(key, f"{label}, case {i + 1}", spec.kind,
+                                                     example=base_text or spec.example, options=spec.options,
+                                                     as_base=bool(base_text))))
+            rows.append(CaseRow(label, words or base_text, tuple(cells)))
+
+        for which, title in (("start", "Start"), ("end", "End")):
+            kind = self.get(f"{which}.kind", "reservoir")
+            level = "water surface elevation" if kind == "reservoir" else "jet centre elevation" if kind == "jet" \
+                else "elevation"
+            add(f"{title}: {level}", self.get(f"{which}.elevation"), lambda i, w=which: f"cases.{i}.{w}.elevation",
+                Spec("elevation", "", example="100 m"))
+            if kind != "jet":
+                what = "pressure on the surface (gauge)" if kind == "reservoir" else "pressure (gauge)"
+                add(f"{title}: {what}", self.get(f"{which}.pressure") or "0 kPa",
+                    lambda i, w=which: f"cases.{i}.{w}.pressure", Spec("pressure", "", example="0 kPa"))
+        if self.get("liquid.kind", "water") == "water":
+            add("Water temperature", self.get("liquid.temperature"), lambda i: f"cases.{i}.liquid.temperature",
+                Spec("temperature", "", example="12 degC"))
+        add("Every pipe run: condition", None, lambda i: f"cases.{i}.pipes.condition",
+            Spec("condition", "", "select", options="case_condition"), "as set on each run")
+        add("Every pipe run: roughness", None, lambda i: f"cases.{i}.pipes.roughness",
+            Spec("roughness", "", example="1 mm"), "each run's own")
+        specs = {"pump": [("running", "units running", "count"), ("speed_ratio", "speed ratio", "ratio")],
+                 "turbine": [("power", "shaft power", "qty"), ("head", "head taken", "qty")],
+                 "valve": [("K", "loss coefficient K", "ratio")]}
+        for e in case_elements(self.doc):
+            kind, mode = e["kind"], e.get("mode")
+            for key, words, field_kind in specs[kind]:
+                if kind == "pump" and key == "running" and not _whole(e.get("units")) > 1:
+                    continue
+                if kind == "turbine" and mode != ("power" if key == "power" else "head"):
+                    continue
+                base = e.get(key)
+                if kind == "pump" and key == "running" and _blank(base):
+                    base = str(max(_whole(e.get("units")) - _whole(e.get("standby")), 1))
+                if kind == "pump" and key == "speed_ratio" and _blank(base):
+                    base = "1"
+
+                def where(i, ident=e["id"], key=key):
+                    rows = get_path(self.doc, f"cases.{i}.elements")
+                    j = next((j for j, r in enumerate(rows) if isinstance(r, dict) and r.get("id") == ident), None) \
+                        if isinstance(rows, list) else None
+                    return None if j is None else f"cases.{i}.elements.{j}.{key}"
+                add(f"{e.get('label') or e['id']}: {words}", base, where,
+                    Spec(key, "", field_kind, example={"power": "40 kW", "head": "60 m"}.get(key, "1")))
+        return rows
+
+    def case_fields(self) -> list[Field]:
+        out = []
+        for c in self.case_columns():
+            out += [c.name, c.note]
+        for r in self.case_rows():
+            out += [f for f in r.cells if f is not None]
+        return out
+
     def all_fields(self) -> list[Field]:
         """Every field the sheet form shows, in page order (the templates call the same methods)."""
         out = self.header() + self.liquid() + self.site() + self.node("start")
@@ -470,13 +619,13 @@ class FormView:
             if specs:
                 for j, _pt in enumerate(self.items(f"elements.{i}.curve")):
                     out += self.fields(f"elements.{i}.curve.{j}", specs)
-        return out + self.node("end") + self.checks()
+        return out + self.node("end") + self.case_fields() + self.checks()
 
 
 # -- where a message goes, and how to name a field in words -------------------------------------
 
 _LABELS: dict[str, str] = {}
-for _specs in [HEADER, SITE, SETTINGS, CHECKS, PIPE, VALVE, PROFILE_POINT, PUMP_POINT, TURBINE_POINT,
+for _specs in [HEADER, SITE, SETTINGS, CHECKS, PIPE, VALVE, PROFILE_POINT, PUMP_POINT, TURBINE_POINT, *PUMP_SPEED.values(),
                *LIQUID.values(), *NODE.values(), *TURBINE.values(), *PUMP.values(), *FITTING.values()]:
     for _s in _specs:
         _LABELS.setdefault(_s.key.split(".")[-1], _s.label)
@@ -484,7 +633,7 @@ _LABELS.update({"checks": "check limits", "kind": "kind", "type": "fitting", "co
                 "nominal": "nominal size", "class": "class", "size": "size", "fittings": "fittings",
                 "profile": "profile", "curve": "curve points", "mode": "given as"})
 _SECTIONS = {"header": "Header", "liquid": "Liquid", "site": "Site", "settings": "Settings", "start": "Start",
-             "end": "End", "elements": "Elements", "format": "Sheet format", "version": "Sheet format version"}
+             "end": "End", "elements": "Elements", "cases": "Cases", "format": "Sheet format", "version": "Sheet format version"}
 _ITEMS = {"fittings": "fitting", "profile": "profile point", "curve": "curve point"}
 
 
@@ -500,7 +649,16 @@ def describe(doc: dict, path: str) -> str:
         shown = {f.path: f.spec.label for f in FormView(doc).node(parts[0])}
         if path in shown:
             return f"{words[0]} › {shown[path]}"
-    if parts[0] == "elements" and len(parts) > 1 and parts[1].isdigit():
+    if parts[0] == "cases" and len(parts) > 1 and parts[1].isdigit():
+        name = get_path(doc, f"cases.{parts[1]}.name")
+        name = name.strip() if isinstance(name, str) and name.strip() else None
+        words = [f"Case {int(parts[1]) + 1}" + (f" ({name})" if name else "")]
+        if len(parts) > 3 and parts[2] == "elements" and parts[3].isdigit():
+            ident = get_path(doc, f"cases.{parts[1]}.elements.{parts[3]}.id")
+            words.append(f"{ident}" if isinstance(ident, str) else f"row {int(parts[3]) + 1}")
+            parts = parts[:2] + parts[4:]
+        i = 2
+    elif parts[0] == "elements" and len(parts) > 1 and parts[1].isdigit():
         label = get_path(doc, f"elements.{parts[1]}.label")
         label = label if isinstance(label, str) and label.strip() else None
         words = [f"Element {int(parts[1]) + 1}" + (f" ({label})" if label else "")]
@@ -519,7 +677,10 @@ def describe(doc: dict, path: str) -> str:
 def slot_paths(form: "FormView") -> tuple[set[str], set[str]]:
     """Paths with a message slot on the form: (the fields, the groups and lists)."""
     fields = {f.path for f in form.all_fields()}
-    paths = {"header", "liquid", "site", "settings", "settings.checks", "start", "end", "elements"}
+    paths = {"header", "liquid", "site", "settings", "settings.checks", "start", "end", "elements", "cases"}
+    for i, _case in enumerate(form.items("cases")):
+        paths.update({f"cases.{i}", f"cases.{i}.elements", f"cases.{i}.pipes", f"cases.{i}.start",
+                      f"cases.{i}.end", f"cases.{i}.liquid"})
     for i, element in enumerate(form.items("elements")):
         paths.add(f"elements.{i}")
         if isinstance(element, dict) and element.get("kind") == "pipe":

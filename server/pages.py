@@ -275,7 +275,7 @@ def sheet_context(request: Request, state: SheetState, shown_before: set[str] | 
 def stored_document(rev: Revision) -> dict:
     """A stored revision's document as the form edits it: every element with its stable id (a sheet
     stored without ids gets them by order, the same each time, so two such revisions match)."""
-    return calc_sheet.ensure_ids(rev.document)
+    return calc_sheet.form_ready(rev.document)
 
 
 def history_of(store: Store, sheet_id: int, document: Any = None) -> list[revisions.Group]:
@@ -384,7 +384,7 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
         base = None
     action = form.get("action") or None
     fields = {k: v for k, v in form.items() if editing.split_path(k) is not None}
-    drawn_from = calc_sheet.ensure_ids(edits.form_document(form.get("doc"), stored))
+    drawn_from = calc_sheet.form_ready(edits.form_document(form.get("doc"), stored))
     restored_note = None
     if action == "restore" and base is not None and 0 < base < latest.number:
         # What this browser kept of a page reloaded after the sheet moved on: its entries go onto the
@@ -410,8 +410,8 @@ def _apply_edit(request: Request, sheet_id: int, form: dict[str, str], author: s
     edit = edits.edit(stored, drawn_from, fields, action, paste_text=form.get("paste", ""),
                         units=placeholder_units, undo_item=form.get("undo_item", ""),
                         undo_check=form.get("undo_check", ""))
-    calc_sheet.ensure_ids(edit.keep)  # an element added (or copied) gets its id as it is stored
-    calc_sheet.ensure_ids(edit.display)
+    calc_sheet.form_ready(edit.keep)  # an element added (or copied) gets its id as it is stored
+    calc_sheet.form_ready(edit.display)
     saved = False
     if edit.keep != stored:
         try:

@@ -13,7 +13,7 @@ from typing import Any
 from calc import analysis as calc_analysis
 from calc.model import sheet as calc_sheet
 from calc.review.findings import SEVERITIES
-from calc.review.summary import ZERO, headline, method_name, snap, static_figure  # noqa: F401  (the panel's names)
+from calc.review.summary import ZERO, case_figures, headline, method_name, snap, static_figure  # noqa: F401  (the panel's names)
 from calc.steady.series import _json_safe
 from calc.units import fmt, to_display
 from server.store import digest_of, dump_document
@@ -32,6 +32,9 @@ class Outcome:
     failure: str | None = None  # the solver broke on a parsed line: a program fault, said plainly
     analysis: Any = None  # calc.analysis.Analysis: what the plots are drawn from (server/plot_routes.py)
     headline: dict | None = None  # `headline()`: the figures the panel leads with, SI
+    cases: list = field(default_factory=list)  # calc.review.summary.case_figures() rows on a sheet with cases, else empty
+    case_names: list = field(default_factory=list)
+    governing: list = field(default_factory=list)  # calc.review.governing.governing() rows, SI
 
     @property
     def ok(self) -> bool:
@@ -54,7 +57,9 @@ def solve_parsed(parsed: Any) -> Outcome:
         return Outcome(solution=solution, findings=_json_safe([f.to_dict() for f in a.findings]),
                        band=_json_safe(a.band),
                        headline=_json_safe(a.cases[0].summary or headline(a.line, solution, a.check_settings)),
-                       analysis=a)
+                       analysis=a, cases=_json_safe(case_figures(a)) if a.has_cases else [],
+                       case_names=[c.name for c in a.cases] if a.has_cases else [],
+                       governing=_json_safe(a.governing))
     except Exception as exc:  # a fault in the solver must not take the page down with it
         log.exception("solver failed")
         return Outcome(failure=f"The solver stopped with an internal fault ({type(exc).__name__}: {exc}). "

@@ -22,6 +22,7 @@ from calc.model.fields import (
     CASE_LIQUID_FIELDS,
     CASE_NODE_FIELDS,
     CASE_PIPES_FIELDS,
+    CASE_TEMPLATE,
     MAX_CASE_NAME,
     MAX_CASES,
     MAX_ELEMENTS,
@@ -196,3 +197,122 @@ def overlay(doc: dict, case: CaseRead) -> dict:
             else:
                 node[target[-1]] = change.value
     return out
+
+
+# ----------------------------------------------------------------------------- the form's shape
+
+def case_elements(doc: dict) -> list[dict]:
+    """The elements of a sheet a case can change (machines and valves with an id), in flow order."""
+    elements = doc.get("elements") if isinstance(doc, dict) else None
+    return [e for e in (elements or []) if isinstance(e, dict) and e.get("kind") in CASE_ELEMENT_FIELDS
+            and isinstance(e.get("id"), str) and e["id"]]
+
+
+def ensure_rows(doc: dict) -> dict:
+    """Give every case of ``doc`` each field a case may hold (empty) and one row for each element a case
+    can change, in place, and return ``doc``.
+
+    The sheet form writes a case's value into a field that is there, so each needs one; a row for an
+    element no longer on the line is dropped when it holds nothing, and kept (the parser names it)
+    when it holds a value. Cases keep every other key as they are.
+    """
+    cases = doc.get("cases") if isinstance(doc, dict) else None
+    if not isinstance(cases, list):
+        return doc
+    elements = case_elements(doc)
+    ids = {e["id"] for e in elements}
+    for case in cases:
+        if not isinstance(case, dict):
+            continue
+        for key, template in CASE_TEMPLATE.items():
+            if key == "elements":
+                continue
+            if isinstance(template, dict):
+                group = case.setdefault(key, {})
+                if isinstance(group, dict):
+                    for k in template:
+                        group.setdefault(k, "")
+            else:
+                case.setdefault(key, template)
+        rows = case.get("elements")
+        if not isinstance(rows, list):
+            if rows is not None:
+                continue  # not a list: the parser says so, and the form leaves it
+            rows = case["elements"] = []
+        rows[:] = [row for row in rows if not isinstance(row, dict) or row.get("id") in ids
+                   or any(not _blank(v) for k, v in row.items() if k != "id")]
+        have = {row.get("id") for row in rows if isinstance(row, dict)}
+        for e in elements:
+            if e["id"] not in have:
+                rows.append({"id": e["id"], **{k: "" for k in CASE_ELEMENT_FIELDS[e["kind"]]}})
+            else:
+                row = next(r for r in rows if isinstance(r, dict) and r.get("id") == e["id"])
+                for k in CASE_ELEMENT_FIELDS[e["kind"]]:
+                    row.setdefault(k, "")
+    return doc
+
+
+def drop_rows(doc: dict, ident) -> int:
+    """Take the rows naming element ``ident`` out of every case of ``doc``, in place; how many held a value."""
+    held = 0
+    for case in doc.get("cases") or []:
+        rows = case.get("elements") if isinstance(case, dict) else None
+        if not isinstance(rows, list):
+            continue
+        keep = [r for r in rows if not (isinstance(r, dict) and r.get("id") == ident)]
+        held += any(any(not _blank(v) for k, v in r.items() if k != "id")
+                    for r in rows if isinstance(r, dict) and r.get("id") == ident)
+        rows[:] = keep
+    return held
+
+
+#: The usual starting sets of cases, offered in one click: (key, what the button says, the cases' names).
+PRESETS = {
+    "levels": ("Low and high levels", ("Low levels", "High levels")),
+    "condition": ("New and aged pipe", ("New pipe", "Aged pipe")),
+    "standby": ("Duty units, and duty plus standby", ("Duty units only", "Duty plus standby")),
+}
+
+
+def preset(doc: dict, key: str) -> tuple[list[dict], str | None]:
+    """The cases of a starting set for ``doc`` (to add to its cases), or [] and why none can be made.
+
+    The levels copy the base's levels into both cases for the designer to change (no level is invented);
+    the pipe condition sets every run new and aged; the standby set runs each pump group's duty units,
+    then all its units.
+    """
+    if key not in PRESETS:
+        return [], "That set of cases is not one this sheet knows."
+    names = PRESETS[key][1]
+    taken = {str(c.get("name", "")).strip().casefold() for c in doc.get("cases") or [] if isinstance(c, dict)}
+    if any(n.casefold() in taken for n in names):
+        return [], f"The sheet already has a case named '{next(n for n in names if n.casefold() in taken)}'."
+    out = [copy.deepcopy(CASE_TEMPLATE) | {"name": n} for n in names]
+    for c in out:
+        for part in ("start", "end", "liquid", "pipes"):
+            c[part] = copy.deepcopy(CASE_TEMPLATE[part])
+    if key == "levels":
+        for c in out:
+            for which in ("start", "end"):
+                node = doc.get(which) if isinstance(doc.get(which), dict) else {}
+                c[which]["elevation"] = node.get("elevation", "")
+        out[0]["note"] = "the lowest start level and highest end level the line must work at: give them"
+        out[1]["note"] = "the highest start level and lowest end level: give them"
+    elif key == "condition":
+        out[0]["pipes"]["condition"], out[1]["pipes"]["condition"] = "new", "aged"
+    elif key == "standby":
+        groups = [e for e in case_elements(doc) if e.get("kind") == "pump" and _whole(e.get("standby")) > 0]
+        if not groups:
+            return [], ("No pump has standby units: give a pump more than one unit and some standby units first.")
+        for e in groups:
+            units, standby = _whole(e.get("units")) or 1, _whole(e.get("standby"))
+            out[0]["elements"].append({"id": e["id"], "speed_ratio": "", "running": max(units - standby, 1)})
+            out[1]["elements"].append({"id": e["id"], "speed_ratio": "", "running": units})
+    return out, None
+
+
+def _whole(v) -> int:
+    try:
+        return int(v) if not isinstance(v, bool) and float(v) == int(float(v)) else 0
+    except (TypeError, ValueError, OverflowError):
+        return 0

@@ -387,6 +387,12 @@ class Pump:
     standby: int = 0
     running: int = 1
     arrangement: str = "parallel"
+    #: "fixed" (run at ``speed_ratio``), or "flow" / "head": the speed is solved for ``target`` (m3/s or m)
+    #: by `calc.steady.speed.settle`, which sets ``speed_ratio`` and ``speed_solved``.
+    speed_control: str = "fixed"
+    target: float | None = None
+    speed_limits: tuple = (None, None)  # the lowest and highest speed ratio the user allows
+    speed_solved: bool = False
 
     @property
     def is_group(self) -> bool:

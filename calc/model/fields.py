@@ -20,6 +20,8 @@ MAX_COUNT = 1000
 #: The most identical units a pump group may have.
 MAX_UNITS = 20
 ARRANGEMENTS = ("parallel", "series")
+#: How a pump's speed is set: typed (``speed_ratio``), or solved for a target flow or head.
+SPEED_CONTROLS = ("fixed", "flow", "head")
 
 HEADER_FIELDS = ("project", "calc_number", "title", "purpose")
 NODE_KINDS = {"start": ("reservoir", "pressure"), "end": ("reservoir", "pressure", "jet")}
@@ -39,8 +41,9 @@ ELEMENT_TEMPLATES = {
     "turbine": {"kind": "turbine", "label": "Turbine", "mode": "power", "power": "", "efficiency": "", "head": "",
                 "curve": copy.deepcopy(_EMPTY_CURVE)},
     "pump": {"kind": "pump", "label": "Pump", "mode": "curve", "speed_ratio": "", "efficiency": "", "head": "",
-             "curve": copy.deepcopy(_EMPTY_CURVE), "units": 1, "standby": 0, "arrangement": "parallel",
-             "running": ""},
+             "curve": copy.deepcopy(_EMPTY_CURVE), "units": "", "standby": "", "arrangement": "parallel",
+             "running": "", "speed_control": "fixed", "target_flow": "", "target_head": "", "speed_min": "",
+             "speed_max": ""},
     "valve": {"kind": "valve", "label": "Valve", "K": "", "diameter": ""},
 }
 
@@ -66,7 +69,7 @@ ELEMENT_FIELDS = {
              "wall_thickness", "end_elevation", "rating", "restraint", "profile", "fittings"),
     "turbine": ("kind", "id", "label", "mode", "power", "efficiency", "head", "curve"),
     "pump": ("kind", "id", "label", "mode", "speed_ratio", "efficiency", "head", "curve", "units", "standby",
-             "arrangement", "running"),
+             "arrangement", "running", "speed_control", "target_flow", "target_head", "speed_min", "speed_max"),
     "valve": ("kind", "id", "label", "K", "diameter"),
 }
 ELEMENT_NAMES = {"pipe": "a pipe run", "turbine": "a turbine", "pump": "a pump", "valve": "a valve"}
@@ -90,7 +93,7 @@ CASE_LIQUID_FIELDS = ("temperature",)
 CASE_PIPES_FIELDS = ("condition", "roughness")
 #: What a case may change on an element of each kind (besides ``id``, which names the element).
 CASE_ELEMENT_FIELDS = {
-    "pump": ("speed_ratio", "running"),
+    "pump": ("speed_ratio", "running", "target_flow", "target_head"),
     "turbine": ("power", "head"),
     "valve": ("K",),
 }

@@ -17,6 +17,7 @@ from calc.model.fields import (
     PROFILE_POINT_FIELDS,
     RESTRAINTS,
     SIZE_FIELDS,
+    SPEED_CONTROLS,
 )
 from calc.model.reader import Reader
 from calc.units import FLOW, LENGTH, POWER, PRESSURE, RATIO, Kind
@@ -258,10 +259,39 @@ def pump(r: Reader, e: dict, path: str):
             eta_c = optional_curve(r, Q, etas, path, "efficiency")
             npsh_c = optional_curve(r, Q, npshs, path, "NPSH required")
     group = pump_group(r, e, path)
-    if len(r.errors) > n_err or group is None:
+    speed = pump_speed(r, e, path, mode)
+    if len(r.errors) > n_err or group is None or speed is None:
         return None
     return Pump(label=label, mode=mode, fixed_head=head, curve=curve, efficiency_curve=eta_c,
-                npshr_curve=npsh_c, speed_ratio=n, efficiency=eta, **group)
+                npshr_curve=npsh_c, speed_ratio=n, efficiency=eta, **group, **speed)
+
+
+def pump_speed(r: Reader, e: dict, path: str, mode: str) -> dict | None:
+    """How a pump's speed is set: typed, or solved for a target flow or head within the limits given."""
+    control = r.choice(e, "speed_control", f"{path}.speed_control", SPEED_CONTROLS, "fixed")
+    if control is None:
+        return None
+    lo = r.qty(e, "speed_min", f"{path}.speed_min", RATIO, required=False, lo=0.0, lo_open=True, hi=3.0,
+               what="the lowest speed ratio")
+    hi = r.qty(e, "speed_max", f"{path}.speed_max", RATIO, required=False, lo=0.0, lo_open=True, hi=3.0,
+               what="the highest speed ratio")
+    if lo is not None and hi is not None and lo >= hi:
+        r.fail(f"{path}.speed_max", e.get("speed_max"), "must be above the lowest speed ratio")
+        return None
+    target = None
+    if control != "fixed" and mode == "head":
+        r.fail(f"{path}.speed_control", control, "a pump given as a fixed head has no speed to solve: "
+                                                 "give its head-flow curve")
+        return None
+    if control == "flow":
+        target = r.qty(e, "target_flow", f"{path}.target_flow", FLOW, lo=0.0, lo_open=True, what="the target flow",
+                       ask="give the flow the pump's speed is to be set for")
+    elif control == "head":
+        target = r.qty(e, "target_head", f"{path}.target_head", LENGTH, lo=0.0, lo_open=True, span="head",
+                       what="the target head", ask="give the head the pump's speed is to be set for")
+    if control != "fixed" and target is None:
+        return None
+    return {"speed_control": control, "target": target, "speed_limits": (lo, hi)}
 
 
 def whole(r: Reader, e: dict, key: str, path: str, lo: int, hi: int, default: int | None, what: str):

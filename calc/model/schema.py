@@ -18,6 +18,7 @@ from calc.model.sheet import (
     MAX_TEXT,
     MAX_UNITS,
     RESTRAINTS,
+    SPEED_CONTROLS,
     VERSION,
 )
 
@@ -60,7 +61,9 @@ _ELEMENTS = {
         "units": _COUNT | {"description": f"identical units installed (1 to {MAX_UNITS}; default 1)"},
         "standby": _COUNT | {"description": "of them, units kept in reserve (default 0)"},
         "arrangement": {"enum": [*ARRANGEMENTS, "", None]},
-        "running": _COUNT | {"description": "units running (default: all but the standby units)"}}),
+        "running": _COUNT | {"description": "units running (default: all but the standby units)"},
+        "speed_control": {"enum": [*SPEED_CONTROLS, "", None]}, "target_flow": _q("a flow"),
+        "target_head": _q("a length"), "speed_min": _RATIO, "speed_max": _RATIO}),
     "valve": _group({"kind": {"const": "valve"}, "id": _ID, "label": _LABEL, "K": _RATIO, "diameter": _q("a length")}),
 }
 

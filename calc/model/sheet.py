@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from calc import friction
 from calc.model import implied
 from calc.model import read_elements as read
-from calc.model.cases import CaseRead, overlay, read_cases
+from calc.model.cases import CaseRead, ensure_rows, overlay, read_cases
 from calc.model.elements import Line, Node
 from calc.model.fields import *  # noqa: F401,F403  (the format's keys, templates and limits, for the callers)
 from calc.model.fields import (
@@ -50,6 +50,12 @@ from calc.units import (
     parse_quantity,
 )
 from calc.water import custom_liquid, water
+
+
+def form_ready(doc: dict) -> dict:
+    """``doc`` as the sheet form saves it, in place: every element with its stable id (`ensure_ids`) and
+    every case with a row for each element it can change (`calc.model.cases.ensure_rows`)."""
+    return ensure_rows(ensure_ids(doc))
 
 
 def blank_sheet() -> dict:
@@ -241,13 +247,20 @@ def _case_error(case: CaseRead, error: InputError, doc: dict) -> InputError:
     change = case.field_of(error.path)
     message = error.message
     parts = error.path.split(".")
+    if change is None:
+        # A base value this case's change makes wrong (the start's connection above a lowered surface):
+        # the change in the same group is the cause, and the message names the base value it clashes with.
+        change = next((c for c in case.changes if any(t[0] == parts[0] and t[0] != "elements" for t in c.targets)),
+                      None)
+        if change is not None:
+            message = f"with this, the base's {error.path.replace('.', ' ').replace('_', ' ')} {message}"
     if parts[0] == "elements" and len(parts) > 1 and parts[1].isdigit():
         element = doc["elements"][int(parts[1])]
         name = (element.get("label") if isinstance(element, dict) else None) or f"element {int(parts[1]) + 1}"
         if change is None or len(change.targets) > 1:
             message = f"{name}: {message}"
     path = change.case_path if change is not None else case.path
-    if change is None:
+    if change is None and not message.startswith("with this"):
         message = f"in case '{case.name}', {error.path}: {message}"
     return type(error)(path, error.value, message)
 

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
+from calc.record import cases, inputs, method, plots, results, scope, steps
 from calc.record import fingerprint as fp
-from calc.record import inputs, method, plots, results, scope, steps
 from calc.record.context import Context
 from calc.record.parts import ROLE_TITLES, ROLES, Meta, Record, Signature, revision_label
 from calc.record.sources import CAUTIONS, DISCLAIMER
@@ -74,6 +74,7 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
         solver_notes=list(analysis.solution.warnings),
         uncertainty=results.uncertainty(b),
         references=b.refs.items,
+        cases=cases.cases(b),
         **common,
     )
 

@@ -76,7 +76,20 @@ def key_results(analysis) -> dict:
         })
     machines = [{"index": m["index"], "power_max": _num(m.get("power_max")), "Q_at_max": _num(m.get("Q_at_max"))}
                 for m in sol.machines if m["kind"] == "turbine"]
-    return {"status": sol.status, "design_index": sol.design_index, "points": points, "machines": machines}
+    out = {"status": sol.status, "design_index": sol.design_index, "points": points, "machines": machines}
+    if getattr(analysis, "has_cases", False):
+        # Each case's design point (a sheet without cases keeps the fingerprint it always had).
+        out["cases"] = [_case_results(c) for c in analysis.cases[1:]]
+    return out
+
+
+def _case_results(case) -> dict:
+    p = case.solution.design
+    if p is None:
+        return {"name": case.name, "status": case.solution.status}
+    return {"name": case.name, "status": case.solution.status, "Q": _num(p["Q"]),
+            "machines": [{"index": d["index"], "head": _num(d["head"]), "power_shaft": _num(d.get("power_shaft"))}
+                         for d in p["elements"] if d["kind"] in ("pump", "turbine")]}
 
 
 def canonical(obj) -> str:

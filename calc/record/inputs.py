@@ -179,6 +179,13 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
         rows.append(_typed(c, e, "head", LENGTH, "Head H"))
         rows.append(_typed(c, e, "speed_ratio", RATIO, "Speed ratio n"))
         rows.append(_typed(c, e, "efficiency", RATIO, "Efficiency η"))
+        if e.get("speed_control") in ("flow", "head"):
+            key = "target_flow" if e.get("speed_control") == "flow" else "target_head"
+            rows.append(_typed(c, e, key, FLOW if key == "target_flow" else LENGTH,
+                               "Target flow Q_t (speed solved for it)" if key == "target_flow"
+                               else "Target pump head H_t (speed solved for it)"))
+            rows.append(_typed(c, e, "speed_min", RATIO, "Lowest speed ratio allowed"))
+            rows.append(_typed(c, e, "speed_max", RATIO, "Highest speed ratio allowed"))
         if el.is_group:
             rows.append(["Identical units: installed, standby, running", f"{el.units}, {el.standby}, {el.running}",
                          f"{el.running} running in {el.arrangement}",

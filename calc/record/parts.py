@@ -152,6 +152,7 @@ class Record:
     program: str
     version: str
     errors: list[dict] = field(default_factory=list)
+    cases: list[Table] = field(default_factory=list)  # calc.record.cases: empty without operating cases
 
     @property
     def signed(self) -> bool:

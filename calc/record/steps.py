@@ -211,6 +211,13 @@ def _pump_steps(c: Context, title: str, el: Pump, d: dict, Q: float, rho: float)
     n = el.speed_ratio
     k_par, k_ser = el.in_parallel, el.in_series
     q_unit = Q / k_par
+    answer = next((a for a in (c.a.cases[0].speeds if c.a.cases else []) if a.index == d["index"]), None)
+    if el.speed_solved and answer is not None:
+        need = "H_req = −E′(Q_t), the head the line without the pump needs at Q_t" if answer.target == "flow" \
+            else "H_req = H_t, the target head, at the flow where the line needs it"
+        steps.append(Step("n", f"speed ratio solved for the target {answer.target} ({need})",
+                          "N_s n² H₁(Q/(N_p n)) = H_req", f"= {sub(answer.H)} m at Q = {sub(answer.Q)} m³/s; "
+                          f"Brent's method, {answer.iterations} iterations", num(n), "–", n))
     if k_par > 1:
         steps.append(Step("Q_u", f"flow through each of the {k_par} units running in parallel", "Q_u = Q/N",
                           f"= {sub(Q)} / {k_par}", num(q_unit), "m³/s", q_unit))

@@ -183,3 +183,38 @@ def turbine_findings(line: Line, solution: Solution, point: dict) -> list[Findin
             "against the turbine's and generator's rating, the closure time against the pipeline period 2L/a, "
             "and the overspeed protection.", None, None, None, SRC_PRACTICE, i))
     return out
+
+
+#: Source of the speed a pump must run at: the affinity laws (Karassik et al., Pump Handbook, 4th ed.
+#: 2008). They hold well near the curve's own speed and less well far below it (common practice).
+SRC_AFFINITY = "affinity laws, H ~ n², Q ~ n (Karassik et al., Pump Handbook, 4th ed. 2008)"
+
+
+def speed_findings(line: Line, answers) -> list[Finding]:
+    """The speed each pump on a target must run at (`calc.steady.speed`), and whether the limits allow it."""
+    u = shown_in(line)
+    out = []
+    for a in answers:
+        goal = (f"{u(a.value, 'flow', '.3g')}" if a.target == "flow" else f"a head of {u(a.value, 'head', '.3g')}")
+        if a.n is None:
+            out.append(Finding("error", "pump-speed", f"{a.label}: no speed gives {goal}",
+                               f"No speed of {a.label} gives {goal}: {a.reason}. The line is shown at the curve's "
+                               "own speed.", None, None, None, SRC_AFFINITY, a.index))
+            continue
+        lo, hi = a.limits
+        limits = ("" if lo is None and hi is None else
+                  f" (limits {'' if lo is None else f'{lo:.3g}'}{' to ' if lo is not None and hi is not None else ''}"
+                  f"{'' if hi is None else f'{hi:.3g}'} of it)")
+        words = (f"{a.label} must run at {a.n:.4g} of its curve's speed for {goal}: "
+                 f"{u(a.Q, 'flow', '.4g')} at {u(a.H, 'head', '.4g')}{limits}.")
+        if a.within is False:
+            side = "below the lowest" if lo is not None and a.n < lo else "above the highest"
+            out.append(Finding("warning", "pump-speed", f"{a.label}: speed outside its limits",
+                               f"{words} That is {side} speed allowed: the target cannot be met within the limits; "
+                               "change the target, the pump or the line.",
+                               a.n, lo if lo is not None and a.n < lo else hi, None, SRC_AFFINITY, a.index))
+        else:
+            out.append(Finding("info", "pump-speed", f"{a.label}: speed for its target", words
+                               + ("" if a.within else " No speed limits were given; give them to have them checked."),
+                               a.n, None, None, SRC_AFFINITY, a.index))
+    return out

@@ -141,7 +141,9 @@ def _pump_duty(line, point: dict, d: dict, s: CheckSettings) -> dict:
     Q = point["Q"]
     duty = {"kind": "pump", "index": i, "label": label(line, i), "Q": Q, "head": d["head"],
             "power_shaft": d["power_shaft"], "power_hydraulic": d["power_hydraulic"],
-            "efficiency": d["efficiency"], "bep": None, "npsh": None}
+            "efficiency": d["efficiency"], "bep": None, "npsh": None, "group": None}
+    if "units" in d:
+        duty["group"] = {k: d[k] for k in ("units", "standby", "running", "arrangement", "unit_flow", "unit_head")}
     Q_bep = pump.best_efficiency_flow() if pump.mode == "curve" else None
     if Q_bep and Q_bep > 0:
         share = Q / Q_bep
@@ -187,3 +189,64 @@ def _turbine_duty(line, solution: dict, point: dict, d: dict, machine_heads: flo
     return duty
 
 
+
+
+# ----------------------------------------------------------------------------- the case table
+
+def _where(at: dict | None) -> str:
+    if not at:
+        return ""
+    return f"{at['label']} {at['part']}".strip() if at.get("part") else str(at.get("label") or "")
+
+
+def case_figures(a) -> list[dict]:
+    """The case table of an analysis, one row per figure and one value per case (SI, with the display kind
+    ('flow', 'head', ..., 'percent' for a fraction, 'text') and where), for the results panel and the record:
+    the flow, each machine's duty, the extremes of pressure and velocity. A case with no operating
+    point shows why in its first row."""
+    rows: list[dict] = []
+
+    def row(label, kind, pick, where=None, cls=""):
+        values, places = [], []
+        for c in a.cases:
+            sm = c.summary
+            values.append(pick(c, sm) if sm else None)
+            places.append(where(c, sm) if sm and where else "")
+        if any(v is not None for v in values):
+            rows.append({"label": label, "kind": kind, "values": values, "where": places, "cls": cls})
+
+    rows.append({"label": "Changes from the base", "kind": "text", "cls": "changes", "where": [""] * len(a.cases),
+                 "values": ["; ".join(f"{ch.what} {ch.value}" for ch in c.changes) or ("–" if k == 0 else
+                            "none: the same as the base") for k, c in enumerate(a.cases)]})
+    rows.append({"label": "Result", "kind": "text", "cls": "status", "where": [""] * len(a.cases),
+                 "values": [c.solution.message if c.solution.design is None else "" for c in a.cases]})
+    if all(not v for v in rows[-1]["values"]):
+        rows.pop()
+    row("Flow", "flow", lambda c, sm: c.solution.design["Q"])
+    first = next((c.summary for c in a.cases if c.summary), None) or {}
+    for m in first.get("machines") or []:
+        i, name = m["index"], m["label"]
+
+        def duty(sm, key, i=i):
+            d = next((d for d in sm.get("machines") or [] if d["index"] == i), None)
+            return None if d is None else d.get(key)
+
+        if m["kind"] == "pump":
+            row(f"{name}: head added", "head", lambda c, sm, d=duty: d(sm, "head"))
+            row(f"{name}: shaft power", "power", lambda c, sm, d=duty: d(sm, "power_shaft"))
+            row(f"{name}: efficiency", "percent", lambda c, sm, d=duty: d(sm, "efficiency"))
+            row(f"{name}: of best-efficiency flow", "percent",
+                lambda c, sm, d=duty: (d(sm, "bep") or {}).get("share"))
+            row(f"{name}: NPSH margin", "head", lambda c, sm, d=duty: (d(sm, "npsh") or {}).get("margin"))
+        else:
+            row(f"{name}: net head", "head", lambda c, sm, d=duty: d(sm, "head"))
+            row(f"{name}: shaft power", "power", lambda c, sm, d=duty: d(sm, "power_shaft"))
+            row(f"{name}: efficiency", "percent", lambda c, sm, d=duty: d(sm, "efficiency"))
+            row(f"{name}: gross head lost in the line", "percent", lambda c, sm, d=duty: d(sm, "loss_share"))
+    row("Highest pressure", "pressure", lambda c, sm: (sm.get("pressure_high") or {}).get("pressure"),
+        lambda c, sm: _where(sm.get("pressure_high")))
+    row("Lowest pressure (absolute)", "pressure", lambda c, sm: (sm.get("pressure_low") or {}).get("pressure_abs"),
+        lambda c, sm: _where(sm.get("pressure_low")))
+    row("Highest velocity", "velocity", lambda c, sm: (sm.get("velocity_high") or {}).get("V"),
+        lambda c, sm: (sm.get("velocity_high") or {}).get("label", ""))
+    return rows
