@@ -11,8 +11,8 @@ from calc.model.sheet import Parsed, parse
 from calc.review import checks, governing, machines, uncertainty
 from calc.review.findings import SEVERITIES
 from calc.review.summary import headline as summary_of
-from calc.steady import speed
 from calc.steady.series import Solution, _json_safe, solve
+from calc.steady.settle import settle
 from calc.units import InputError
 
 
@@ -30,10 +30,12 @@ class CaseResult:
     changes: list[Change] = field(default_factory=list)
     note: str = ""
     speeds: list = field(default_factory=list)  # calc.steady.speed.SpeedAnswer of each pump on a target
+    set_flows: list = field(default_factory=list)  # calc.steady.settle.TurbineFlow of each set-flow turbine
 
     def to_dict(self) -> dict:
         return _json_safe({
             "name": self.name, "note": self.note, "speeds": [a.to_dict() for a in self.speeds],
+            "set_flows": [t.to_dict() for t in self.set_flows],
             "changes": [{"field": c.case_path, "what": c.what, "value": c.value} for c in self.changes],
             "solution": self.solution.to_dict(), "findings": [f.to_dict() for f in self.findings],
             "band": self.band, "summary": self.summary,
@@ -98,14 +100,16 @@ def analyse(doc: dict) -> Analysis:
 
 def solve_case(name: str, line: Line, settings: CheckSettings, changes=(), note: str = "") -> CaseResult:
     """One case: set the speed of each pump on a target, then solve, band, review and summarise its line."""
-    line, speeds = speed.settle(line)
+    line, settled = settle(line)
     solution = solve(line)
     band = uncertainty.band(line, solution, settings)
     findings = checks.review(line, solution, settings, band)
-    if speeds:
-        findings = sorted(machines.speed_findings(line, speeds) + findings, key=lambda f: SEVERITIES.index(f.severity))
+    extra = machines.speed_findings(line, settled.speeds) + machines.set_flow_findings(line, settled.turbines)
+    if extra:
+        findings = sorted(extra + findings, key=lambda f: SEVERITIES.index(f.severity))
     summary = summary_of(line, solution.to_dict(), settings) if solution.design is not None else None
-    return CaseResult(name, line, solution, findings, band, summary, list(changes), note, speeds)
+    return CaseResult(name, line, solution, findings, band, summary, list(changes), note, settled.speeds,
+                      settled.turbines)
 
 
 def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:

@@ -75,7 +75,8 @@ OPTIONS = {
                           ("aged", "aged: the material's aged roughness")],
     "restraint": lambda: [("anchored", "anchored throughout"), ("anchored_upstream", "anchored upstream only"),
                           ("expansion_joints", "expansion joints throughout")],
-    "turbine_mode": lambda: [("power", "set shaft power"), ("head", "fixed head"), ("curve", "head-flow curve")],
+    "turbine_mode": lambda: [("power", "set shaft power"), ("flow", "set flow"), ("head", "fixed head"),
+                             ("curve", "head-flow curve")],
     "pump_mode": lambda: [("curve", "head-flow curve"), ("head", "fixed head")],
     "fitting_type": _fitting_types,
     "speed_control": lambda: [("fixed", "the ratio typed"), ("flow", "solved for a target flow"),
@@ -158,7 +159,9 @@ NODE = {
     "jet": [Spec("elevation", "Jet centre elevation", example="318 m"),
             Spec("nozzle_diameter", "Nozzle diameter", example="80 mm", help="optional; default the last run's bore"),
             Spec("velocity_coefficient", "Nozzle velocity coefficient Cv", "ratio", example="0.98",
-                 help="optional; 0.98 with a nozzle, 1 from the open pipe end")],
+                 help="optional; 0.98 with a nozzle, 1 from the open pipe end"),
+            Spec("impulse_efficiency", "Impulse turbine efficiency", "ratio", example="0.88",
+                 help="optional: the jet drives an impulse turbine of this efficiency on the net head")],
 }
 PIPE = [
     Spec("label", "Label", "text"),
@@ -179,7 +182,11 @@ PIPE = [
 TURBINE = {
     "power": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="turbine_mode"),
               Spec("power", "Shaft power", example="40 kW"),
-              Spec("efficiency", "Efficiency", "ratio", example="0.85 or 85 %")],
+              Spec("efficiency", "Efficiency", "ratio", example="0.85 or 85 %",
+                   help="or an efficiency curve below")],
+    "flow": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="turbine_mode"),
+             Spec("flow", "Set flow", example="120 L/s", help="it takes the head the line leaves it"),
+             Spec("efficiency", "Efficiency", "ratio", example="0.85", help="or an efficiency curve below")],
     "head": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="turbine_mode"),
              Spec("head", "Head taken from the flow", example="60 m"),
              Spec("efficiency", "Efficiency", "ratio", example="0.85", help="optional; default 1")],
@@ -223,7 +230,10 @@ FITTING = {
            Spec("Kd", "Kd", "ratio", example="4"), Spec("label", "Label", "text")],
 }
 PROFILE_POINT = [Spec("chainage", "Chainage", example="210 m"), Spec("elevation", "Elevation", example="385 m")]
-TURBINE_POINT = [Spec("flow", "Flow", example="100 L/s"), Spec("head", "Head", example="60 m")]
+TURBINE_POINT = [Spec("flow", "Flow", example="100 L/s"), Spec("head", "Head", example="60 m"),
+                 Spec("efficiency", "Efficiency", "ratio", example="0.88")]
+#: A turbine's efficiency at flows, in every mode but a head curve (whose points carry their own).
+TURBINE_ETA_POINT = [Spec("flow", "Flow", example="100 L/s"), Spec("efficiency", "Efficiency", "ratio", example="0.88")]
 PUMP_POINT = [Spec("flow", "Flow", example="20 L/s"), Spec("head", "Head", example="36 m"),
               Spec("efficiency", "Efficiency", "ratio", example="0.7"),
               Spec("npsh_required", "NPSH required", example="3 m")]
@@ -477,6 +487,8 @@ class FormView:
         kind, mode = self.get(f"{prefix}.kind"), self.get(f"{prefix}.mode")
         if kind == "turbine" and mode == "curve":
             return TURBINE_POINT
+        if kind == "turbine":
+            return TURBINE_ETA_POINT
         if kind == "pump" and mode in ("curve", ""):
             return PUMP_POINT
         return None
@@ -571,15 +583,22 @@ class FormView:
             Spec("condition", "", "select", options="case_condition"), "as set on each run")
         add("Every pipe run: roughness", None, lambda i: f"cases.{i}.pipes.roughness",
             Spec("roughness", "", example="1 mm"), "each run's own")
-        specs = {"pump": [("running", "units running", "count"), ("speed_ratio", "speed ratio", "ratio")],
-                 "turbine": [("power", "shaft power", "qty"), ("head", "head taken", "qty")],
+        specs = {"pump": [("running", "units running", "count"), ("speed_ratio", "speed ratio", "ratio"),
+                          ("target_flow", "target flow", "qty"), ("target_head", "target head", "qty")],
+                 "turbine": [("power", "shaft power", "qty"), ("flow", "set flow", "qty"),
+                             ("head", "head taken", "qty")],
                  "valve": [("K", "loss coefficient K", "ratio")]}
         for e in case_elements(self.doc):
-            kind, mode = e["kind"], e.get("mode")
+            kind, mode = e["kind"], e.get("mode") or ("power" if e["kind"] == "turbine" else "curve")
+            control = e.get("speed_control") or "fixed"
             for key, words, field_kind in specs[kind]:
                 if kind == "pump" and key == "running" and not _whole(e.get("units")) > 1:
                     continue
-                if kind == "turbine" and mode != ("power" if key == "power" else "head"):
+                if kind == "pump" and key == "speed_ratio" and control != "fixed":
+                    continue
+                if kind == "pump" and key.startswith("target_") and key != f"target_{control}":
+                    continue
+                if kind == "turbine" and mode != key and not (mode == "head" and key == "head"):
                     continue
                 base = e.get(key)
                 if kind == "pump" and key == "running" and _blank(base):
@@ -593,7 +612,8 @@ class FormView:
                         if isinstance(rows, list) else None
                     return None if j is None else f"cases.{i}.elements.{j}.{key}"
                 add(f"{e.get('label') or e['id']}: {words}", base, where,
-                    Spec(key, "", field_kind, example={"power": "40 kW", "head": "60 m"}.get(key, "1")))
+                    Spec(key, "", field_kind, example={"power": "40 kW", "head": "60 m", "flow": "100 L/s",
+                                                       "target_flow": "40 L/s", "target_head": "30 m"}.get(key, "1")))
         return rows
 
     def case_fields(self) -> list[Field]:
@@ -625,7 +645,8 @@ class FormView:
 # -- where a message goes, and how to name a field in words -------------------------------------
 
 _LABELS: dict[str, str] = {}
-for _specs in [HEADER, SITE, SETTINGS, CHECKS, PIPE, VALVE, PROFILE_POINT, PUMP_POINT, TURBINE_POINT, *PUMP_SPEED.values(),
+for _specs in [HEADER, SITE, SETTINGS, CHECKS, PIPE, VALVE, PROFILE_POINT, PUMP_POINT, TURBINE_POINT, TURBINE_ETA_POINT,
+               *PUMP_SPEED.values(),
                *LIQUID.values(), *NODE.values(), *TURBINE.values(), *PUMP.values(), *FITTING.values()]:
     for _s in _specs:
         _LABELS.setdefault(_s.key.split(".")[-1], _s.label)

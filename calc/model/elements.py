@@ -206,6 +206,8 @@ class Node:
     #: A jet's velocity coefficient Cv = V_jet / sqrt(2 g H) at the nozzle [-]: the nozzle loses
     #: (1/Cv² - 1) V²/2g. 1 for a jet from the open pipe end.
     velocity_coefficient: float = 1.0
+    #: A jet that drives an impulse turbine: the turbine's efficiency on the net head at the nozzle [-].
+    impulse_efficiency: float | None = None
 
     @property
     def pipe_elevation(self) -> float:
@@ -322,10 +324,11 @@ class PipeRun:
 
 @dataclass
 class Turbine:
-    """A turbine: takes head P/(eta rho g Q) at a set shaft power, a fixed head, or head from a curve."""
+    """A turbine: takes head P/(eta rho g Q) at a set shaft power, the head the line leaves it at a set
+    flow, a fixed head, or head from a curve; its efficiency a typed value or a curve eta(Q)."""
 
     label: str
-    mode: str
+    mode: str  # power | flow | head | curve
     efficiency: float = 1.0
     power: float | None = None
     fixed_head: float | None = None
@@ -333,34 +336,52 @@ class Turbine:
     kind: str = "turbine"
     #: False when no efficiency was typed and 1 is assumed (head or curve mode): a finding says so.
     efficiency_given: bool = True
+    #: eta(Q) through typed points (any mode); when given it replaces ``efficiency``.
+    efficiency_curve: Curve | None = None
+    #: The set flow (mode "flow"); `calc.steady.settle` gives ``fixed_head`` the head the line leaves there.
+    flow_set: float | None = None
+
+    def eta(self, Q):
+        """Efficiency at Q: the typed curve (held within 0 to 1 where it is carried on), else the typed value."""
+        if self.efficiency_curve is None:
+            return self.efficiency if np.isscalar(Q) else np.full_like(Q, self.efficiency)
+        return np.clip(self.efficiency_curve(Q), 0.0, 1.0) if not np.isscalar(Q) else \
+            min(max(float(self.efficiency_curve(Q)), 0.0), 1.0)
 
     def head(self, Q: float, fluid: Fluid) -> float:
         if self.mode == "power":
             if Q <= 0.0:
                 return math.inf
-            return self.power / (self.efficiency * fluid.liquid.rho * G * Q)
-        if self.mode == "head":
+            eta = self.eta(Q)
+            return self.power / (eta * fluid.liquid.rho * G * Q) if eta > 0 else math.inf
+        if self.mode in ("head", "flow"):
             return self.fixed_head
         return float(self.curve(Q))
 
     def head_array(self, Q: np.ndarray, fluid: Fluid) -> np.ndarray:
         if self.mode == "power":
-            return self.power / (self.efficiency * fluid.liquid.rho * G * Q)
-        if self.mode == "head":
+            with np.errstate(divide="ignore"):
+                return self.power / (self.eta(Q) * fluid.liquid.rho * G * Q)
+        if self.mode in ("head", "flow"):
             return np.full_like(Q, self.fixed_head)
         return self.curve(Q)
 
     def detail(self, Q: float, fluid: Fluid) -> dict:
         H = self.head(Q, fluid)
         P_h = fluid.liquid.rho * G * Q * H
+        eta = float(self.eta(Q))
         out = {"kind": "turbine", "label": self.label, "mode": self.mode, "head": H,
-               "head_change": H, "power_hydraulic": P_h, "efficiency": self.efficiency,
-               "power_shaft": self.efficiency * P_h}
-        if self.curve is not None:
-            lo, hi = self.curve.Q_range
-            out["in_curve_range"] = lo <= Q <= hi
-            out["curve_range"] = [lo, hi]
-            out["beyond_curve_limit"] = self.curve.beyond_limit(Q)
+               "head_change": H, "power_hydraulic": P_h, "efficiency": eta,
+               "power_shaft": eta * P_h}
+        for name, c in (("curve", self.curve), ("efficiency_curve", self.efficiency_curve)):
+            if c is not None:
+                lo, hi = c.Q_range
+                out["in_curve_range" if name == "curve" else "in_efficiency_range"] = lo <= Q <= hi
+                out["curve_range" if name == "curve" else "efficiency_range"] = [lo, hi]
+                if name == "curve":
+                    out["beyond_curve_limit"] = c.beyond_limit(Q)
+                else:
+                    out["beyond_efficiency_limit"] = c.beyond_limit(Q)
         return out
 
 

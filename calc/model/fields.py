@@ -22,6 +22,8 @@ MAX_UNITS = 20
 ARRANGEMENTS = ("parallel", "series")
 #: How a pump's speed is set: typed (``speed_ratio``), or solved for a target flow or head.
 SPEED_CONTROLS = ("fixed", "flow", "head")
+#: How a turbine is given: its shaft power, its flow, the head it takes, or a head-flow curve.
+TURBINE_MODES = ("power", "flow", "head", "curve")
 
 HEADER_FIELDS = ("project", "calc_number", "title", "purpose")
 NODE_KINDS = {"start": ("reservoir", "pressure"), "end": ("reservoir", "pressure", "jet")}
@@ -39,7 +41,7 @@ ELEMENT_TEMPLATES = {
              "material": "steel-commercial", "condition": "new", "roughness": "", "end_elevation": "",
              "profile": [], "fittings": []},
     "turbine": {"kind": "turbine", "label": "Turbine", "mode": "power", "power": "", "efficiency": "", "head": "",
-                "curve": copy.deepcopy(_EMPTY_CURVE)},
+                "flow": "", "curve": copy.deepcopy(_EMPTY_CURVE)},
     "pump": {"kind": "pump", "label": "Pump", "mode": "curve", "speed_ratio": "", "efficiency": "", "head": "",
              "curve": copy.deepcopy(_EMPTY_CURVE), "units": "", "standby": "", "arrangement": "parallel",
              "running": "", "speed_control": "fixed", "target_flow": "", "target_head": "", "speed_min": "",
@@ -61,13 +63,14 @@ CHECK_FIELDS = ("velocity_max", "velocity_max_suction", "velocity_min", "npsh_ma
                 "bep_low", "bep_high", "k_uncertainty", "roughness_low", "roughness_high", "surge_allowance",
                 "surge_closure_time")
 NODE_FIELDS = {"start": ("kind", "elevation", "pressure", "outlet_elevation", "entrance"),
-               "end": ("kind", "elevation", "pressure", "nozzle_diameter", "velocity_coefficient")}
+               "end": ("kind", "elevation", "pressure", "nozzle_diameter", "velocity_coefficient",
+                       "impulse_efficiency")}
 #: The keys of each element kind; a key of another kind is refused with a message naming that kind
 #: (an element's kind never changes on the form, so no element gathers another kind's keys).
 ELEMENT_FIELDS = {
     "pipe": ("kind", "id", "label", "length", "diameter", "size", "material", "condition", "roughness",
              "wall_thickness", "end_elevation", "rating", "restraint", "profile", "fittings"),
-    "turbine": ("kind", "id", "label", "mode", "power", "efficiency", "head", "curve"),
+    "turbine": ("kind", "id", "label", "mode", "power", "efficiency", "head", "flow", "curve"),
     "pump": ("kind", "id", "label", "mode", "speed_ratio", "efficiency", "head", "curve", "units", "standby",
              "arrangement", "running", "speed_control", "target_flow", "target_head", "speed_min", "speed_max"),
     "valve": ("kind", "id", "label", "K", "diameter"),
@@ -94,7 +97,7 @@ CASE_PIPES_FIELDS = ("condition", "roughness")
 #: What a case may change on an element of each kind (besides ``id``, which names the element).
 CASE_ELEMENT_FIELDS = {
     "pump": ("speed_ratio", "running", "target_flow", "target_head"),
-    "turbine": ("power", "head"),
+    "turbine": ("power", "flow", "head"),
     "valve": ("K",),
 }
 CASE_TEMPLATE = {"name": "", "note": "", "start": {"elevation": "", "pressure": ""},

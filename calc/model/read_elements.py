@@ -18,6 +18,7 @@ from calc.model.fields import (
     RESTRAINTS,
     SIZE_FIELDS,
     SPEED_CONTROLS,
+    TURBINE_MODES,
 )
 from calc.model.reader import Reader
 from calc.units import FLOW, LENGTH, POWER, PRESSURE, RATIO, Kind
@@ -216,27 +217,64 @@ def optional_curve(r: Reader, Q, ys, path, what):
 def turbine(r: Reader, e: dict, path: str):
     n_err = len(r.errors)
     label = r.text(e, "label", f"{path}.label", MAX_LABEL) or ""
-    mode = r.choice(e, "mode", f"{path}.mode", ("power", "head", "curve"), "power")
-    need_eta = mode == "power"
-    eta = r.qty(e, "efficiency", f"{path}.efficiency", RATIO, required=need_eta, default=1.0,
-                lo=0.0, lo_open=True, hi=1.0, what="the efficiency",
-                ask="give the turbine's efficiency (its shaft power over the power it takes from the flow)")
-    power = head = curve = None
-    if mode == "power":
-        power = r.qty(e, "power", f"{path}.power", POWER, lo=0.0, lo_open=True, what="the shaft power",
-                      ask="give the shaft power the turbine is to give")
-    elif mode == "head":
-        head = r.qty(e, "head", f"{path}.head", LENGTH, lo=0.0, lo_open=True, what="the head", span="head",
-                     ask="give the head the turbine takes from the flow")
-    elif mode == "curve":
+    mode = r.choice(e, "mode", f"{path}.mode", TURBINE_MODES, "power")
+    power = head = curve = flow = eta_curve = None
+    if mode == "curve":
         pts = curve_points(r, e, path, "head", LENGTH)
         if pts:
             curve = Curve(pts[0], pts[1])
+            eta_curve = optional_curve(r, pts[0], pts[2], path, "efficiency")
+    elif mode is not None:
+        eta_curve = efficiency_points(r, e, path)
+    need_eta = mode in ("power", "flow") and eta_curve is None
+    eta = r.qty(e, "efficiency", f"{path}.efficiency", RATIO, required=need_eta, default=1.0,
+                lo=0.0, lo_open=True, hi=1.0, what="the efficiency",
+                ask="give the turbine's efficiency (its shaft power over the power it takes from the flow), "
+                    "or its efficiency at two or more flows in the table")
+    if mode == "power":
+        power = r.qty(e, "power", f"{path}.power", POWER, lo=0.0, lo_open=True, what="the shaft power",
+                      ask="give the shaft power the turbine is to give")
+    elif mode == "flow":
+        flow = r.qty(e, "flow", f"{path}.flow", FLOW, lo=0.0, lo_open=True, what="the set flow",
+                     ask="give the flow the turbine is set to pass")
+    elif mode == "head":
+        head = r.qty(e, "head", f"{path}.head", LENGTH, lo=0.0, lo_open=True, what="the head", span="head",
+                     ask="give the head the turbine takes from the flow")
     if len(r.errors) > n_err:
         return None
-    given = not r.blank(e.get("efficiency"))
-    return Turbine(label=label, mode=mode, efficiency=eta, power=power, fixed_head=head, curve=curve,
-                   efficiency_given=given)
+    given = not r.blank(e.get("efficiency")) or eta_curve is not None
+    return Turbine(label=label, mode=mode, efficiency=eta if eta is not None else 1.0, power=power, fixed_head=head,
+                   curve=curve, efficiency_given=given, efficiency_curve=eta_curve, flow_set=flow)
+
+
+def efficiency_points(r: Reader, e: dict, path: str):
+    """A turbine's efficiency curve eta(Q) from its table's points that carry an efficiency (any mode but a
+    head curve, whose points carry their own); None when no point carries one."""
+    pts = e.get("curve")
+    if not isinstance(pts, list) or len(pts) > MAX_POINTS:
+        return None
+    Q, eta = [], []
+    for j, pt in enumerate(pts):
+        pp = f"{path}.curve.{j}"
+        if not isinstance(pt, dict) or r.blank(pt.get("efficiency")):
+            continue  # a point without an efficiency is no point of this curve (a head curve's, kept on a mode switch)
+        q = r.qty(pt, "flow", f"{pp}.flow", FLOW, lo=0.0, what="the flow", ask="give the point's flow")
+        y = r.qty(pt, "efficiency", f"{pp}.efficiency", RATIO, lo=0.0, hi=1.0, what="the efficiency",
+                  ask="give the efficiency at the point's flow")
+        if q is not None and y is not None:
+            if q in Q:
+                r.fail(f"{pp}.flow", pt.get("flow"), f"repeats the flow of point {Q.index(q) + 1}: give each point "
+                                                     "its own flow")
+                return None
+            Q.append(q)
+            eta.append(y)
+    if not Q:
+        return None
+    if len(Q) < 2:
+        r.fail(f"{path}.curve", "1 point", "the efficiency curve needs two or more points of different flow")
+        return None
+    order = sorted(range(len(Q)), key=Q.__getitem__)
+    return Curve([Q[k] for k in order], [eta[k] for k in order])
 
 
 def pump(r: Reader, e: dict, path: str):

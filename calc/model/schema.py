@@ -19,6 +19,7 @@ from calc.model.sheet import (
     MAX_UNITS,
     RESTRAINTS,
     SPEED_CONTROLS,
+    TURBINE_MODES,
     VERSION,
 )
 
@@ -51,8 +52,8 @@ _ELEMENTS = {
         "profile": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/profile_point"}},
         "fittings": {"type": ["array", "null"], "maxItems": MAX_FITTINGS, "items": {"$ref": "#/$defs/fitting"}}}),
     "turbine": _group({
-        "kind": {"const": "turbine"}, "id": _ID, "label": _LABEL, "mode": {"enum": ["power", "head", "curve", "", None]},
-        "power": _q("a power"), "efficiency": _RATIO, "head": _q("a length"),
+        "kind": {"const": "turbine"}, "id": _ID, "label": _LABEL, "mode": {"enum": [*TURBINE_MODES, "", None]},
+        "power": _q("a power"), "efficiency": _RATIO, "head": _q("a length"), "flow": _q("a flow"),
         "curve": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/curve_point"}}}),
     "pump": _group({
         "kind": {"const": "pump"}, "id": _ID, "label": _LABEL, "mode": {"enum": ["curve", "head", "", None]},
@@ -116,7 +117,7 @@ SCHEMA = {
         "end": _group({
             "kind": {"enum": ["reservoir", "pressure", "jet", "", None]}, "elevation": _q("a length"),
             "pressure": _q("a gauge pressure"), "nozzle_diameter": _q("a length"),
-            "velocity_coefficient": _RATIO}, required=["elevation"]),
+            "velocity_coefficient": _RATIO, "impulse_efficiency": _RATIO}, required=["elevation"]),
         **_ELEMENTS,
         "size": _group({"standard": _KEY, "nominal": _KEY, "class": _KEY}),
         "fitting": _group({"type": {"type": "string"}, "count": {"type": ["integer", "number", "string", "null"]},

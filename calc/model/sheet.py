@@ -389,7 +389,7 @@ def _node(r: Reader, d: dict, which: str, liquid):
                             f"is above the water surface ({d.get('elevation')}): a pipe leaving the reservoir there "
                             "draws air, not water, so the line cannot run; put the connection at or below the surface")
         entrance = r.choice(d, "entrance", f"{which}.entrance", ENTRANCE_KEYS, ENTRANCE_KEYS[0])
-    nozzle = None
+    nozzle = impulse = None
     cv = 1.0
     if kind == "jet":
         nozzle = r.qty(d, "nozzle_diameter", f"{which}.nozzle_diameter", LENGTH, required=False, span="bore",
@@ -397,8 +397,10 @@ def _node(r: Reader, d: dict, which: str, liquid):
         # A nozzle loses a little head; a jet from the open pipe end, none beyond its velocity head.
         cv = r.qty(d, "velocity_coefficient", f"{which}.velocity_coefficient", RATIO, required=False,
                    default=NOZZLE_CV if nozzle else 1.0, lo=0.5, hi=1.0, what="the velocity coefficient")
+        impulse = r.qty(d, "impulse_efficiency", f"{which}.impulse_efficiency", RATIO, required=False,
+                        lo=0.0, lo_open=True, hi=1.0, what="the impulse turbine's efficiency")
     if kind is None or z is None or p is None or cv is None:
         return None
     return Node(kind=kind, elevation=z, pressure=p if kind != "jet" else 0.0,
                 outlet_elevation=outlet, nozzle_diameter=nozzle, entrance=entrance or ENTRANCE_KEYS[0],
-                velocity_coefficient=cv)
+                velocity_coefficient=cv, impulse_efficiency=impulse)

@@ -171,10 +171,15 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
     if isinstance(el, (Turbine, Pump)):
         title += f", {el.mode} mode"
     if isinstance(el, Turbine):
-        rows.append(_typed(c, e, "power", POWER, "Shaft power P"))
-        rows.append(_typed(c, e, "head", LENGTH, "Head H"))
-        rows.append(_typed(c, e, "efficiency", RATIO, "Efficiency η")
-                    or ["Efficiency η", "", "1", "default (hydraulic power only)"])
+        if el.mode == "power":
+            rows.append(_typed(c, e, "power", POWER, "Shaft power P"))
+        if el.mode == "flow":
+            rows.append(_typed(c, e, "flow", FLOW, "Set flow Q"))
+        if el.mode == "head":
+            rows.append(_typed(c, e, "head", LENGTH, "Head H"))
+        if el.efficiency_curve is None:
+            rows.append(_typed(c, e, "efficiency", RATIO, "Efficiency η")
+                        or ["Efficiency η", "", "1", "default (hydraulic power only)"])
     elif isinstance(el, Pump):
         rows.append(_typed(c, e, "head", LENGTH, "Head H"))
         rows.append(_typed(c, e, "speed_ratio", RATIO, "Speed ratio n"))
@@ -195,6 +200,13 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
         r = _typed(c, e, "diameter", LENGTH, "Diameter D")
         rows.append(r or ["Diameter D", "", f"{si(el.D)} m", el.D_source])
     curve = [p for p in (e.get("curve") or []) if isinstance(p, dict)] if e.get("mode") == "curve" else []
+    if isinstance(el, Turbine) and el.mode != "curve":
+        for j, p in enumerate(e.get("curve") or []):
+            if isinstance(p, dict) and as_text(p.get("efficiency")).strip():
+                q = parse_quantity(p.get("flow"), FLOW, "flow")
+                rows.append([f"Efficiency point {j + 1}: flow, efficiency",
+                             f"{as_text(p.get('flow'))}, {as_text(p.get('efficiency'))}",
+                             f"{si(q)} m³/s, {si(parse_quantity(p.get('efficiency'), RATIO, 'efficiency'))}", "typed"])
     for j, p in enumerate(curve):
         q = parse_quantity(p.get("flow"), FLOW, "flow")
         h = parse_quantity(p.get("head"), LENGTH, "head")

@@ -9,6 +9,7 @@ from calc.model.elements import PipeRun, Pump, Turbine, Valve
 from calc.record.context import Context
 from calc.record.parts import Step, StepGroup
 from calc.record.text import num, paren, shown, si, sub
+from calc.review.machines import impulse_duty
 from calc.water import G
 
 
@@ -45,6 +46,18 @@ def steps(c: Context) -> list[StepGroup]:
         elif isinstance(el, Pump):
             groups.append(_pump_steps(c, title, el, d, Q, rho))
     groups.append(_node_steps(c, "end", c.line.end, Q, p["head_end"]))
+    impulse = impulse_duty(c.line, c.sol.static_head, p)
+    if impulse is not None:
+        H, z = impulse["head"], c.line.end.elevation
+        groups.append(StepGroup("Impulse turbine driven by the jet", "impulse", [
+            Step("H_n", "net head at the nozzle (the total head the jet is made from)", "H_n = H_end − z_jet",
+                 f"= {sub(p['head_end'])} − {sub(z)}", num(H), "m", H),
+            Step("P_h", "hydraulic power", "P_h = ρ g Q H_n", f"= {sub(rho)} × 9.80665 × {sub(Q)} × {sub(H)}",
+                 num(impulse["power_hydraulic"]), "W", impulse["power_hydraulic"]),
+            Step("P", "shaft power", "P = η P_h", f"= {sub(impulse['efficiency'])} × {sub(impulse['power_hydraulic'])}",
+                 num(impulse["power_shaft"]), "W", impulse["power_shaft"]),
+        ], ["Net head and efficiency as IEC 60041:1991 (field acceptance tests of hydraulic turbines) defines them for an impulse turbine: the head at the nozzle "
+            "inlet above the jet's centre, the nozzle's own loss inside the turbine's efficiency."]))
     total = sum(d["head_change"] for d in p["elements"])
     E = p["head_start"] - p["head_end"] - total
     groups.append(StepGroup("Energy balance at the operating point", "balance", [
@@ -180,11 +193,17 @@ def _valve_steps(c: Context, title: str, el: Valve, d: dict, Q: float) -> StepGr
 
 def _turbine_steps(c: Context, title: str, el: Turbine, d: dict, Q: float, rho: float) -> StepGroup:
     H = d["head"]
+    eta = d["efficiency"]
     steps = []
+    if el.efficiency_curve is not None:
+        steps += _curve_steps(c, "η", "efficiency", el.efficiency_curve, Q, eta, "–")
     if el.mode == "power":
         steps.append(Step("H_t", "head taken at the set power", "H_t = P/(η ρ g Q)",
-                          f"= {sub(el.power)} / ({sub(el.efficiency)} × {sub(rho)} × 9.80665 × {sub(Q)})",
+                          f"= {sub(el.power)} / ({sub(eta)} × {sub(rho)} × 9.80665 × {sub(Q)})",
                           num(H), "m", H))
+    elif el.mode == "flow":
+        steps.append(Step("H_t", "head the line leaves the turbine at its set flow Q", "H_t = E′(Q)",
+                          "(the energy balance of the line without the turbine, at the set flow)", num(H), "m", H))
     elif el.mode == "head":
         steps.append(Step("H_t", "head taken (typed)", "H_t", "", num(H), "m", H))
     else:
@@ -192,7 +211,7 @@ def _turbine_steps(c: Context, title: str, el: Turbine, d: dict, Q: float, rho: 
     steps.append(Step("P_h", "hydraulic power", "P_h = ρ g Q H_t",
                       f"= {sub(rho)} × 9.80665 × {sub(Q)} × {sub(H)}", num(d["power_hydraulic"]), "W",
                       d["power_hydraulic"]))
-    steps.append(Step("P", "shaft power", "P = η P_h", f"= {sub(el.efficiency)} × {sub(d['power_hydraulic'])}",
+    steps.append(Step("P", "shaft power", "P = η P_h", f"= {sub(eta)} × {sub(d['power_hydraulic'])}",
                       num(d["power_shaft"]), "W", d["power_shaft"]))
     notes = []
     m = next((m for m in c.sol.machines if m["index"] == d["index"]), None)

@@ -136,9 +136,60 @@ def pump_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
     return out
 
 
+def impulse_duty(line, gross: float, point: dict) -> dict | None:
+    """The impulse turbine a free jet drives (an end jet with an efficiency): its net head at the nozzle
+    H_n = H_end - z_jet (the total head the jet is made from, nozzle loss included), hydraulic power
+    rho g Q H_n and shaft power eta rho g Q H_n (net head and efficiency as IEC 60041:1991 defines them)."""
+    end = line.end
+    if end.kind != "jet" or not end.impulse_efficiency:
+        return None
+    Q = point["Q"]
+    H = point["head_end"] - end.elevation
+    P_h = line.liquid.rho * G * Q * H
+    duty = {"kind": "impulse", "index": len(line.elements), "label": "Impulse turbine at the jet", "Q": Q,
+            "head": H, "power_hydraulic": P_h, "efficiency": end.impulse_efficiency,
+            "power_shaft": end.impulse_efficiency * P_h, "gross": gross, "loss": None, "loss_share": None,
+            "power_max": None, "power_share": None, "efficiency_assumed": False,
+            "jet_velocity": None}
+    if gross > 0:
+        duty["loss"] = gross - H
+        duty["loss_share"] = (gross - H) / gross
+    c = end.velocity_head_coefficient()
+    if c > 0:
+        duty["jet_velocity"] = end.velocity_coefficient * (2 * G * H) ** 0.5
+    return duty
+
+
+def impulse_findings(line: Line, solution: Solution, point: dict) -> list[Finding]:
+    """The impulse turbine an end jet drives: its duty, and the share of the gross head the line loses."""
+    d = impulse_duty(line, solution.static_head, point)
+    if d is None:
+        return []
+    u = shown_in(line)
+    out = [Finding("info", "impulse-duty", "Impulse turbine: design point",
+                   f"At {u(d['Q'], 'flow', '.2f')}: net head at the nozzle {u(d['head'], 'head', '.2f')} of "
+                   f"{u(d['gross'], 'head', '.2f')} gross, jet velocity {u(d['jet_velocity'] or 0.0, 'velocity', '.2f')}, "
+                   f"hydraulic power {u(d['power_hydraulic'], 'power', '.2f')}, shaft power "
+                   f"{u(d['power_shaft'], 'power', '.2f')} (efficiency {d['efficiency']:.3f}).",
+                   d["power_shaft"], None, "power", "P = eta rho g Q H_n, H_n the net head at the nozzle inlet (IEC 60041:1991, Field acceptance tests to determine the hydraulic performance of hydraulic turbines, storage pumps and pump-turbines)")]
+    if d["loss_share"] is not None:
+        loss = d["loss_share"]
+        text = (f"The line loses {loss * 100:.1f} % of the gross head ({u(d['loss'], 'head', '.2f')} of "
+                f"{u(d['gross'], 'head', '.2f')}) before the nozzle")
+        if loss > PENSTOCK_LOSS_WARNING:
+            sev, tail = "warning", ": more than about 15 %, which wastes water; a larger bore pays back."
+        elif loss > PENSTOCK_LOSS_CAUTION:
+            sev, tail = "caution", ": above the 5-10 % commonly aimed for."
+        else:
+            sev, tail = "info", "."
+        out.append(Finding(sev, "impulse-head-loss", "Impulse turbine: head lost in the line", text + tail,
+                           loss, PENSTOCK_LOSS_CAUTION, None, SRC_PENSTOCK))
+    return out
+
+
 def turbine_findings(line: Line, solution: Solution, point: dict) -> list[Finding]:
     u = shown_in(line)
-    out = []
+    out = impulse_findings(line, solution, point)
     gross = solution.static_head
     machine_heads = sum(d["head_change"] for d in point["elements"] if d["kind"] in ("pump", "turbine"))
     Q = point["Q"]
@@ -217,4 +268,18 @@ def speed_findings(line: Line, answers) -> list[Finding]:
             out.append(Finding("info", "pump-speed", f"{a.label}: speed for its target", words
                                + ("" if a.within else " No speed limits were given; give them to have them checked."),
                                a.n, None, None, SRC_AFFINITY, a.index))
+    return out
+
+
+def set_flow_findings(line: Line, turbines) -> list[Finding]:
+    """A turbine at a set flow that the line cannot pass that flow to (the head left for it is not positive)."""
+    u = shown_in(line)
+    out = []
+    for t in turbines:
+        if not t.passes:
+            out.append(Finding("error", "turbine-set-flow", f"{t.label}: the line cannot pass its set flow",
+                               f"At the set flow of {u(t.Q, 'flow', '.4g')} the line's losses use up all its head, "
+                               f"{u(-t.head, 'head', '.3g')} more than it has: {t.label} would have to add head, not "
+                               "take it. The line is shown with the turbine taking none; lower the set flow.",
+                               t.head, 0.0, "head", "energy equation of the line at the set flow", t.index))
     return out

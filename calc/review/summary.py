@@ -11,7 +11,7 @@ from calc import friction
 from calc.model.elements import PipeRun, Pump
 from calc.model.settings import CheckSettings
 from calc.review.findings import label
-from calc.review.machines import npsh_available, npsh_margin_needed
+from calc.review.machines import impulse_duty, npsh_available, npsh_margin_needed
 from calc.water import G
 
 #: SI values closer to zero than this are round-off and shown as zero [SI unit of the kind]. The
@@ -132,7 +132,11 @@ def headline(line, solution: dict, settings: CheckSettings | None = None) -> dic
             out["machines"].append(_pump_duty(line, point, d, settings))
         elif d["kind"] == "turbine":
             out["machines"].append(_turbine_duty(line, solution, point, d, machine_heads))
+    impulse = impulse_duty(line, solution["static_head"], point)
+    if impulse is not None:
+        out["machines"].append(impulse)
     return out
+
 
 
 def _pump_duty(line, point: dict, d: dict, s: CheckSettings) -> dict:

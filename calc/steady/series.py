@@ -423,10 +423,10 @@ def max_turbine_power(line: Line, i: int, grid: np.ndarray, E_grid: np.ndarray) 
     far below the figures reported, for two array evaluations instead of dozens of scalar ones.
     """
     el = line.elements[i]
-    k = el.efficiency * line.liquid.rho * G
+    rg = line.liquid.rho * G
     fluid = line.fluid
     with np.errstate(all="ignore"):
-        P = k * grid * (E_grid + el.head_array(grid, fluid))
+        P = el.eta(grid) * rg * grid * (E_grid + el.head_array(grid, fluid))
     P = np.where(np.isfinite(P), P, -np.inf)
     j = int(np.argmax(P))
     if P[j] <= 0.0:
@@ -435,7 +435,7 @@ def max_turbine_power(line: Line, i: int, grid: np.ndarray, E_grid: np.ndarray) 
     for _ in range(2):
         sub = np.linspace(a, b, 17)
         with np.errstate(all="ignore"):
-            Ps = k * sub * residual_array(line, sub, skip=i)
+            Ps = el.eta(sub) * rg * sub * residual_array(line, sub, skip=i)
         Ps = np.where(np.isfinite(Ps), Ps, -np.inf)
         m = min(max(int(np.argmax(Ps)), 1), len(sub) - 2)
         a, b = sub[m - 1], sub[m + 1]
@@ -445,7 +445,7 @@ def max_turbine_power(line: Line, i: int, grid: np.ndarray, E_grid: np.ndarray) 
     Q = float(x1 + 0.5 * (x1 - x0) * (y0 - y2) / denom) if denom < 0 else float(x1)
     Q = min(max(Q, x0), x2)
     H = make_residual(line, skip=i)(Q)
-    return {"power_max": k * Q * H, "Q_at_max": Q, "head_available_at_max": H}
+    return {"power_max": float(el.eta(Q)) * rg * Q * H, "Q_at_max": Q, "head_available_at_max": H}
 
 
 def explain_no_point(line: Line, static: float, machines: list[dict], Q_lo: float, Q_hi: float) -> dict:

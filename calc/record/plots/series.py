@@ -250,4 +250,4 @@ def turbine_power(line: Line, i: int, Q: np.ndarray) -> np.ndarray:
     el = line.elements[i]
     with np.errstate(all="ignore"):
         left = residual_array(line, Q, skip=i)
-    return el.efficiency * line.liquid.rho * G * Q * left
+    return el.eta(Q) * line.liquid.rho * G * Q * left
