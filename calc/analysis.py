@@ -8,7 +8,7 @@ from calc.model.cases import BASE_NAME, Change
 from calc.model.elements import Line
 from calc.model.settings import CheckSettings
 from calc.model.sheet import Parsed, parse
-from calc.review import checks, governing, machines, uncertainty
+from calc.review import checks, governing, machines, uncertainty, valves
 from calc.review.findings import SEVERITIES
 from calc.review.summary import headline as summary_of
 from calc.steady.series import Solution, _json_safe, solve
@@ -31,11 +31,13 @@ class CaseResult:
     note: str = ""
     speeds: list = field(default_factory=list)  # calc.steady.speed.SpeedAnswer of each pump on a target
     set_flows: list = field(default_factory=list)  # calc.steady.settle.TurbineFlow of each set-flow turbine
+    valve_settings: list = field(default_factory=list)  # calc.steady.settle.ValveSetting of each valve on a target
 
     def to_dict(self) -> dict:
         return _json_safe({
             "name": self.name, "note": self.note, "speeds": [a.to_dict() for a in self.speeds],
             "set_flows": [t.to_dict() for t in self.set_flows],
+            "valve_settings": [v.to_dict() for v in self.valve_settings],
             "changes": [{"field": c.case_path, "what": c.what, "value": c.value} for c in self.changes],
             "solution": self.solution.to_dict(), "findings": [f.to_dict() for f in self.findings],
             "band": self.band, "summary": self.summary,
@@ -104,12 +106,13 @@ def solve_case(name: str, line: Line, settings: CheckSettings, changes=(), note:
     solution = solve(line)
     band = uncertainty.band(line, solution, settings)
     findings = checks.review(line, solution, settings, band)
-    extra = machines.speed_findings(line, settled.speeds) + machines.set_flow_findings(line, settled.turbines)
+    extra = (machines.speed_findings(line, settled.speeds) + machines.set_flow_findings(line, settled.turbines)
+             + valves.valve_findings(line, settled.valves))
     if extra:
         findings = sorted(extra + findings, key=lambda f: SEVERITIES.index(f.severity))
     summary = summary_of(line, solution.to_dict(), settings) if solution.design is not None else None
     return CaseResult(name, line, solution, findings, band, summary, list(changes), note, settled.speeds,
-                      settled.turbines)
+                      settled.turbines, settled.valves)
 
 
 def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:

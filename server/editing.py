@@ -27,7 +27,7 @@ from calc.units import unit_allowed, unit_text
 #: Top-level parts of the document a form field may write to.
 SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements", "cases")
 #: Fields whose value changes which other fields the form shows.
-SWITCH_KEYS = {"kind", "mode", "type", "standard", "speed_control", "units"}
+SWITCH_KEYS = {"kind", "mode", "type", "standard", "speed_control", "units", "valve_type", "setting"}
 #: Keys holding a group of fields that a form may create when the document has none yet (a pipe's size,
 #: the settings and their check limits, which most sheets leave at their defaults).
 CREATABLE_GROUPS = {"size", "settings", "checks"}

@@ -81,6 +81,12 @@ OPTIONS = {
     "fitting_type": _fitting_types,
     "speed_control": lambda: [("fixed", "the ratio typed"), ("flow", "solved for a target flow"),
                               ("head", "solved for a target head")],
+    "valve_type": lambda: [("fixed", "a fixed loss (K typed)"), ("check", "check valve"),
+                           ("control", "control valve (Kv or Cv)"), ("prv", "pressure-reducing valve")],
+    "coefficient": lambda: [("Kv", "Kv (m³/h at 1 bar)"), ("Cv", "Cv (US gpm at 1 psi)")],
+    "characteristic": lambda: [("linear", "linear"), ("equal_percentage", "equal percentage")],
+    "valve_setting": lambda: [("opening", "its opening"), ("flow", "a target flow"),
+                              ("pressure", "a downstream pressure")],
     "arrangement": lambda: [("parallel", "in parallel (flows add)"), ("series", "in series (heads add)")],
     "case_condition": lambda: [("", "as the base"), ("new", "new: each material's new roughness"),
                                ("aged", "aged: each material's aged roughness")],
@@ -220,8 +226,24 @@ PUMP = {
              Spec("head", "Head added to the flow", example="25 m"),
              Spec("efficiency", "Efficiency", "ratio", example="0.75", help="optional"), *PUMP_GROUP],
 }
-VALVE = [Spec("label", "Label", "text"), Spec("K", "Loss coefficient K", "ratio", example="0.2"),
-         Spec("diameter", "Diameter", example="150 mm", help="optional; default the run before it")]
+_VALVE_HEAD = [Spec("label", "Label", "text"), Spec("valve_type", "Kind", "select", options="valve_type")]
+_VALVE_BORE = Spec("diameter", "Diameter", example="150 mm", help="optional; default the run before it")
+#: A valve's fields by its kind; a control valve's by what sets it (its opening, a target flow or pressure).
+VALVE = {
+    "fixed": [*_VALVE_HEAD, Spec("K", "Loss coefficient K", "ratio", example="0.2"), _VALVE_BORE],
+    "check": [*_VALVE_HEAD, Spec("K", "Loss coefficient K, open", "ratio", example="2",
+                                 help="it shuts against reverse flow"), _VALVE_BORE],
+    "prv": [*_VALVE_HEAD, Spec("set_pressure", "Set pressure downstream (gauge)", example="3 bar"),
+            Spec("K", "Loss coefficient K, fully open", "ratio", example="3"), _VALVE_BORE],
+    "control": [*_VALVE_HEAD, Spec("coefficient", "Flow coefficient", "select", options="coefficient"),
+                Spec("rated", "Rated Kv or Cv, fully open", "ratio", example="120", help="m³/h at 1 bar, or gpm at 1 psi"),
+                Spec("characteristic", "Inherent characteristic", "select", options="characteristic"),
+                Spec("rangeability", "Rangeability", "ratio", example="50", help="the maker's figure"),
+                Spec("setting", "Set by", "select", options="valve_setting"), _VALVE_BORE],
+}
+VALVE_SETTING = {"opening": Spec("opening", "Opening (relative travel)", "ratio", example="60 %"),
+                 "flow": Spec("target_flow", "Target flow", example="30 L/s", help="it opens to pass it"),
+                 "pressure": Spec("set_pressure", "Set pressure downstream (gauge)", example="3 bar")}
 FITTING = {
     "k": [Spec("K", "K", "ratio", example="0.5"), Spec("label", "Label", "text")],
     "2k": [Spec("K1", "K1", "ratio", example="800"), Spec("Kinf", "K∞", "ratio", example="0.25"),
@@ -329,6 +351,15 @@ def example_in(example: str, system: str, sig: int = 2) -> str:
     except ValueError:
         return example
     return f"{float(f'{value:.{sig}g}'):g} {_US_EXAMPLE_UNITS[unit]}"
+
+
+def _valve_case_keys(e: dict) -> tuple[str, ...]:
+    """What a case may change on a valve of this kind and setting."""
+    vtype = e.get("valve_type") or "fixed"
+    if vtype == "control":
+        return {"opening": ("opening",), "flow": ("target_flow",), "pressure": ("set_pressure",)}.get(
+            e.get("setting") or "opening", ("opening",))
+    return ("set_pressure",) if vtype == "prv" else ("K",)
 
 
 def _blank(v: Any) -> bool:
@@ -449,7 +480,12 @@ class FormView:
                 specs = specs[:4] + PUMP_SPEED.get(control, []) + specs[4:]
             return self.fields(prefix, specs)
         if kind == "valve":
-            return self.fields(prefix, VALVE)
+            vtype = self.get(f"{prefix}.valve_type", "fixed")
+            specs = VALVE.get(vtype, VALVE["fixed"])
+            if vtype == "control":
+                setting = VALVE_SETTING.get(self.get(f"{prefix}.setting", "opening"), VALVE_SETTING["opening"])
+                specs = specs[:-1] + [setting, specs[-1]]
+            return self.fields(prefix, specs)
         return [self.field(prefix, Spec("kind", "Kind", "text")), self.field(prefix, Spec("label", "Label", "text"))]
 
     def bore(self, index: int) -> Bore | None:
@@ -587,7 +623,8 @@ class FormView:
                           ("target_flow", "target flow", "qty"), ("target_head", "target head", "qty")],
                  "turbine": [("power", "shaft power", "qty"), ("flow", "set flow", "qty"),
                              ("head", "head taken", "qty")],
-                 "valve": [("K", "loss coefficient K", "ratio")]}
+                 "valve": [("K", "loss coefficient K", "ratio"), ("opening", "opening", "ratio"),
+                           ("target_flow", "target flow", "qty"), ("set_pressure", "set pressure", "qty")]}
         for e in case_elements(self.doc):
             kind, mode = e["kind"], e.get("mode") or ("power" if e["kind"] == "turbine" else "curve")
             control = e.get("speed_control") or "fixed"
@@ -599,6 +636,8 @@ class FormView:
                 if kind == "pump" and key.startswith("target_") and key != f"target_{control}":
                     continue
                 if kind == "turbine" and mode != key and not (mode == "head" and key == "head"):
+                    continue
+                if kind == "valve" and key not in _valve_case_keys(e):
                     continue
                 base = e.get(key)
                 if kind == "pump" and key == "running" and _blank(base):
@@ -613,7 +652,8 @@ class FormView:
                     return None if j is None else f"cases.{i}.elements.{j}.{key}"
                 add(f"{e.get('label') or e['id']}: {words}", base, where,
                     Spec(key, "", field_kind, example={"power": "40 kW", "head": "60 m", "flow": "100 L/s",
-                                                       "target_flow": "40 L/s", "target_head": "30 m"}.get(key, "1")))
+                                                       "target_flow": "40 L/s", "target_head": "30 m",
+                                                       "opening": "60 %", "set_pressure": "3 bar"}.get(key, "1")))
         return rows
 
     def case_fields(self) -> list[Field]:
@@ -645,7 +685,8 @@ class FormView:
 # -- where a message goes, and how to name a field in words -------------------------------------
 
 _LABELS: dict[str, str] = {}
-for _specs in [HEADER, SITE, SETTINGS, CHECKS, PIPE, VALVE, PROFILE_POINT, PUMP_POINT, TURBINE_POINT, TURBINE_ETA_POINT,
+for _specs in [HEADER, SITE, SETTINGS, CHECKS, PIPE, *VALVE.values(), list(VALVE_SETTING.values()), PROFILE_POINT,
+               PUMP_POINT, TURBINE_POINT, TURBINE_ETA_POINT,
                *PUMP_SPEED.values(),
                *LIQUID.values(), *NODE.values(), *TURBINE.values(), *PUMP.values(), *FITTING.values()]:
     for _s in _specs:

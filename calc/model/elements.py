@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from calc import friction, tables
+from calc.model.valve_law import kv_from_K
 from calc.water import G, Liquid
 
 _INV_2G = 1.0 / (2.0 * G)
@@ -510,13 +511,32 @@ class Pump:
 
 @dataclass
 class Valve:
-    """A valve or other local loss with its own K on the velocity of diameter D."""
+    """A valve or other local loss with its own K on the velocity of diameter D.
+
+    ``valve_type``: "fixed" (K typed), "check" (K typed; shuts against reverse flow), "control" (K from its
+    rated Kvs and inherent characteristic at an opening, `calc.model.valve_law`; or the opening solved for
+    a target flow or downstream pressure), "prv" (a pressure-reducing valve: K typed fully open, holding
+    ``target`` downstream). Valves on a target get their K from `calc.steady.settle` before the solve.
+    """
 
     label: str
     K: float
     D: float
     D_source: str = "typed by the user"
     kind: str = "valve"
+    valve_type: str = "fixed"
+    Kvs: float | None = None            # rated flow coefficient as Kv [m3/h], at full travel
+    coefficient: str = "Kv"             # as typed: Kv or Cv
+    characteristic: str = "linear"
+    rangeability: float | None = None
+    setting: str = "opening"            # opening | flow | pressure
+    opening: float | None = None        # relative travel, 0 to 1 (typed, or solved)
+    target: float | None = None         # a target flow [m3/s] or downstream gauge pressure [Pa]
+    K_open: float | None = None         # K fully open (control: from Kvs; prv: typed)
+
+    @property
+    def on_target(self) -> bool:
+        return self.valve_type == "prv" or (self.valve_type == "control" and self.setting != "opening")
 
     def head(self, Q: float, fluid: Fluid) -> float:
         V = Q / (math.pi * self.D * self.D / 4.0)
@@ -529,8 +549,11 @@ class Valve:
     def detail(self, Q: float, fluid: Fluid) -> dict:
         V = Q / (math.pi * self.D * self.D / 4.0)
         h = self.K * V * V / (2 * G)
-        return {"kind": "valve", "label": self.label, "K": self.K, "D": self.D, "V": V,
-                "velocity_head": V * V / (2 * G), "h": h, "head_change": h}
+        out = {"kind": "valve", "label": self.label, "K": self.K, "D": self.D, "V": V,
+               "velocity_head": V * V / (2 * G), "h": h, "head_change": h, "valve_type": self.valve_type}
+        if self.valve_type == "control":
+            out.update(opening=self.opening, Kv=kv_from_K(self.K, self.D) if self.K > 0 else None, Kvs=self.Kvs)
+        return out
 
 
 Element = PipeRun | Turbine | Pump | Valve

@@ -24,6 +24,10 @@ ARRANGEMENTS = ("parallel", "series")
 SPEED_CONTROLS = ("fixed", "flow", "head")
 #: How a turbine is given: its shaft power, its flow, the head it takes, or a head-flow curve.
 TURBINE_MODES = ("power", "flow", "head", "curve")
+#: Valves: a fixed K, a check valve, a control valve by its flow coefficient, a pressure-reducing valve.
+VALVE_TYPES = ("fixed", "check", "control", "prv")
+#: What sets a control valve: its opening, or a target flow or downstream pressure it is opened to meet.
+VALVE_SETTINGS = ("opening", "flow", "pressure")
 
 HEADER_FIELDS = ("project", "calc_number", "title", "purpose")
 NODE_KINDS = {"start": ("reservoir", "pressure"), "end": ("reservoir", "pressure", "jet")}
@@ -46,7 +50,9 @@ ELEMENT_TEMPLATES = {
              "curve": copy.deepcopy(_EMPTY_CURVE), "units": "", "standby": "", "arrangement": "parallel",
              "running": "", "speed_control": "fixed", "target_flow": "", "target_head": "", "speed_min": "",
              "speed_max": ""},
-    "valve": {"kind": "valve", "label": "Valve", "K": "", "diameter": ""},
+    "valve": {"kind": "valve", "label": "Valve", "valve_type": "fixed", "K": "", "diameter": "", "coefficient": "Kv",
+              "rated": "", "characteristic": "linear", "rangeability": "", "setting": "opening", "opening": "",
+              "target_flow": "", "set_pressure": ""},
 }
 
 #: Every key a sheet document may hold, by where it sits; the parser refuses any other key
@@ -73,7 +79,8 @@ ELEMENT_FIELDS = {
     "turbine": ("kind", "id", "label", "mode", "power", "efficiency", "head", "flow", "curve"),
     "pump": ("kind", "id", "label", "mode", "speed_ratio", "efficiency", "head", "curve", "units", "standby",
              "arrangement", "running", "speed_control", "target_flow", "target_head", "speed_min", "speed_max"),
-    "valve": ("kind", "id", "label", "K", "diameter"),
+    "valve": ("kind", "id", "label", "K", "diameter", "valve_type", "coefficient", "rated", "characteristic",
+              "rangeability", "setting", "opening", "target_flow", "set_pressure"),
 }
 ELEMENT_NAMES = {"pipe": "a pipe run", "turbine": "a turbine", "pump": "a pump", "valve": "a valve"}
 SIZE_FIELDS = ("standard", "nominal", "class")
@@ -98,7 +105,7 @@ CASE_PIPES_FIELDS = ("condition", "roughness")
 CASE_ELEMENT_FIELDS = {
     "pump": ("speed_ratio", "running", "target_flow", "target_head"),
     "turbine": ("power", "flow", "head"),
-    "valve": ("K",),
+    "valve": ("K", "opening", "target_flow", "set_pressure"),
 }
 CASE_TEMPLATE = {"name": "", "note": "", "start": {"elevation": "", "pressure": ""},
                  "end": {"elevation": "", "pressure": ""}, "liquid": {"temperature": ""},

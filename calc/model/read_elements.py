@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from calc import tables
+from calc.model import valve_law
 from calc.model.elements import Curve, Fitting, PipeRun, Pump, Turbine, Valve
 from calc.model.fields import (
     ARRANGEMENTS,
@@ -19,6 +20,8 @@ from calc.model.fields import (
     SIZE_FIELDS,
     SPEED_CONTROLS,
     TURBINE_MODES,
+    VALVE_SETTINGS,
+    VALVE_TYPES,
 )
 from calc.model.reader import Reader
 from calc.units import FLOW, LENGTH, POWER, PRESSURE, RATIO, Kind
@@ -366,7 +369,7 @@ def pump_group(r: Reader, e: dict, path: str) -> dict | None:
 def valve(r: Reader, e: dict, path: str, last_D, pipe_before: bool = False):
     n_err = len(r.errors)
     label = r.text(e, "label", f"{path}.label", MAX_LABEL) or ""
-    K = r.qty(e, "K", f"{path}.K", RATIO, lo=0.0, what="K", ask="give the valve's loss coefficient K")
+    vtype = r.choice(e, "valve_type", f"{path}.valve_type", VALVE_TYPES, "fixed")
     D = r.qty(e, "diameter", f"{path}.diameter", LENGTH, required=False, lo=0.0, lo_open=True,
               what="the diameter", span="bore")
     src = "typed by the user"
@@ -375,6 +378,50 @@ def valve(r: Reader, e: dict, path: str, last_D, pipe_before: bool = False):
             r.ask(f"{path}.diameter", e.get("diameter"),
                   "give the valve's diameter: no pipe run comes before it to take the bore from")
         D, src = last_D, "the pipe run before it"
-    if len(r.errors) > n_err:
+    extra: dict = {"valve_type": vtype or "fixed"}
+    K = None
+    if vtype in ("fixed", "check", "prv"):
+        K = r.qty(e, "K", f"{path}.K", RATIO, lo=0.0, what="K",
+                  ask="give the valve's loss coefficient K" + (" fully open" if vtype == "prv" else ""))
+        if vtype == "prv":
+            extra.update(setting="pressure", K_open=K,
+                         target=r.qty(e, "set_pressure", f"{path}.set_pressure", PRESSURE, lo=-101325.0,
+                                      what="the set pressure (gauge)",
+                                      ask="give the pressure the valve holds downstream (gauge)"))
+    elif vtype == "control":
+        control = control_valve(r, e, path)
+        if control is not None:
+            extra.update(control)
+    if len(r.errors) > n_err or vtype is None:
         return None
-    return Valve(label=label, K=K, D=D, D_source=src)
+    if vtype == "control":
+        # The loss at the opening typed; a valve on a target gets its K when the line is settled.
+        h = extra["opening"] if extra["setting"] == "opening" else 1.0
+        K = valve_law.K_from_kv(extra["Kvs"] * valve_law.phi(h, extra["characteristic"], extra["rangeability"]), D)
+        extra["K_open"] = valve_law.K_from_kv(extra["Kvs"], D)
+    return Valve(label=label, K=K, D=D, D_source=src, **extra)
+
+
+def control_valve(r: Reader, e: dict, path: str) -> dict | None:
+    """A control valve's rated flow coefficient, inherent characteristic and setting."""
+    coefficient = r.choice(e, "coefficient", f"{path}.coefficient", ("Kv", "Cv"), "Kv")
+    rated = r.qty(e, "rated", f"{path}.rated", RATIO, lo=0.0, lo_open=True, hi=1e6,
+                  what="the rated flow coefficient", ask="give the valve's rated Kv or Cv, fully open")
+    characteristic = r.choice(e, "characteristic", f"{path}.characteristic", valve_law.CHARACTERISTICS, "linear")
+    R = r.qty(e, "rangeability", f"{path}.rangeability", RATIO, lo=1.0, lo_open=True, hi=1000.0,
+              what="the rangeability", ask="give the valve's inherent rangeability (its maker's figure, such as 50)")
+    setting = r.choice(e, "setting", f"{path}.setting", VALVE_SETTINGS, "opening")
+    opening = target = None
+    if setting == "opening":
+        opening = r.qty(e, "opening", f"{path}.opening", RATIO, lo=0.0, lo_open=True, hi=1.0,
+                        what="the opening (relative travel)", ask="give the valve's opening, such as 60 %")
+    elif setting == "flow":
+        target = r.qty(e, "target_flow", f"{path}.target_flow", FLOW, lo=0.0, lo_open=True, what="the target flow",
+                       ask="give the flow the valve is to pass")
+    elif setting == "pressure":
+        target = r.qty(e, "set_pressure", f"{path}.set_pressure", PRESSURE, lo=-101325.0,
+                       what="the set pressure (gauge)", ask="give the pressure the valve holds downstream (gauge)")
+    if None in (coefficient, rated, characteristic, R, setting) or (opening is None and target is None):
+        return None
+    return {"coefficient": coefficient, "Kvs": valve_law.kv_from(rated, coefficient), "characteristic": characteristic,
+            "rangeability": R, "setting": setting, "opening": opening, "target": target}

@@ -20,6 +20,8 @@ from calc.model.sheet import (
     RESTRAINTS,
     SPEED_CONTROLS,
     TURBINE_MODES,
+    VALVE_SETTINGS,
+    VALVE_TYPES,
     VERSION,
 )
 
@@ -65,7 +67,13 @@ _ELEMENTS = {
         "running": _COUNT | {"description": "units running (default: all but the standby units)"},
         "speed_control": {"enum": [*SPEED_CONTROLS, "", None]}, "target_flow": _q("a flow"),
         "target_head": _q("a length"), "speed_min": _RATIO, "speed_max": _RATIO}),
-    "valve": _group({"kind": {"const": "valve"}, "id": _ID, "label": _LABEL, "K": _RATIO, "diameter": _q("a length")}),
+    "valve": _group({"kind": {"const": "valve"}, "id": _ID, "label": _LABEL, "K": _RATIO, "diameter": _q("a length"),
+                     "valve_type": {"enum": [*VALVE_TYPES, "", None]}, "coefficient": {"enum": ["Kv", "Cv", "", None]},
+                     "rated": _RATIO | {"description": "the rated Kv (m3/h at 1 bar) or Cv (US gpm at 1 psi), fully open"},
+                     "characteristic": {"enum": ["linear", "equal_percentage", "", None]},
+                     "rangeability": _RATIO, "setting": {"enum": [*VALVE_SETTINGS, "", None]},
+                     "opening": _RATIO | {"description": "relative travel, 0 to 1 or a percentage"},
+                     "target_flow": _q("a flow"), "set_pressure": _q("a gauge pressure")}),
 }
 
 SCHEMA = {

@@ -6,7 +6,7 @@ from calc.model.elements import PipeRun, Pump, Turbine, Valve
 from calc.model.settings import CheckSettings
 from calc.record.context import Context
 from calc.record.parts import Table
-from calc.record.text import _SI_UNIT, as_text, si, sub
+from calc.record.text import _SI_UNIT, as_text, num, si, sub
 from calc.units import DENSITY, FLOW, LENGTH, MODULUS, POWER, PRESSURE, RATIO, TEMPERATURE, VISCOSITY, parse_quantity
 
 
@@ -195,8 +195,28 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
             rows.append(["Identical units: installed, standby, running", f"{el.units}, {el.standby}, {el.running}",
                          f"{el.running} running in {el.arrangement}",
                          "typed" if str(e.get("running", "")).strip() else "typed (running: the duty units)"])
+    elif isinstance(el, Valve) and el.valve_type == "control":
+        title += ", control valve"
+        rows.append(_typed(c, e, "rated", RATIO, f"Rated flow coefficient {el.coefficient}s, fully open"))
+        if el.coefficient == "Cv":
+            rows.append(["Rated Kvs", "", f"{num(el.Kvs)} m³/h", "Kv = 0.865 Cv (IEC 60534-2-1's N1 constants)"])
+        rows.append(["Inherent characteristic, rangeability R", f"{el.characteristic.replace('_', ' ')}, "
+                     f"{as_text(e.get('rangeability'))}", f"Φ0 = 1/R = {num(1 / el.rangeability)}", "typed"])
+        if el.setting == "opening":
+            rows.append(_typed(c, e, "opening", RATIO, "Opening h (relative travel)"))
+        else:
+            rows.append(_typed(c, e, "target_flow" if el.setting == "flow" else "set_pressure",
+                               FLOW if el.setting == "flow" else PRESSURE,
+                               "Target flow (opening solved)" if el.setting == "flow"
+                               else "Set pressure downstream, gauge (opening solved)"))
+        r = _typed(c, e, "diameter", LENGTH, "Diameter D")
+        rows.append(r or ["Diameter D", "", f"{si(el.D)} m", el.D_source])
     elif isinstance(el, Valve):
-        rows.append(_typed(c, e, "K", RATIO, "Loss coefficient K"))
+        if el.valve_type in ("check", "prv"):
+            title += ", check valve" if el.valve_type == "check" else ", pressure-reducing valve"
+        if el.valve_type == "prv":
+            rows.append(_typed(c, e, "set_pressure", PRESSURE, "Set pressure downstream (gauge)"))
+        rows.append(_typed(c, e, "K", RATIO, "Loss coefficient K" + (", fully open" if el.valve_type == "prv" else "")))
         r = _typed(c, e, "diameter", LENGTH, "Diameter D")
         rows.append(r or ["Diameter D", "", f"{si(el.D)} m", el.D_source])
     curve = [p for p in (e.get("curve") or []) if isinstance(p, dict)] if e.get("mode") == "curve" else []

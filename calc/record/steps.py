@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 
 from calc import friction, tables
+from calc.model import valve_law
 from calc.model.elements import PipeRun, Pump, Turbine, Valve
 from calc.record.context import Context
 from calc.record.parts import Step, StepGroup
@@ -181,14 +182,43 @@ def _pipe_steps(c: Context, title: str, el: PipeRun, d: dict, Q: float, nu: floa
 
 def _valve_steps(c: Context, title: str, el: Valve, d: dict, Q: float) -> StepGroup:
     A = math.pi * el.D ** 2 / 4
-    return StepGroup(title, "valve", [
+    steps = [
         Step("V", "velocity in the valve bore", "V = Q / (π D²/4)", f"= {sub(Q)} / (π × {sub(el.D)}² / 4)",
              num(d["V"]), "m/s", d["V"]),
         Step("h_v", "velocity head", "h_v = V²/(2 g)", f"= {sub(d['V'])}² / (2 × 9.80665)",
-             num(d["velocity_head"]), "m", d["velocity_head"]),
-        Step("h", "head taken by the valve", "h = K h_v", f"= {sub(el.K)} × {sub(d['velocity_head'])}",
-             num(d["h"]), "m", d["h"]),
-    ], [f"Bore {sub(A)} m² ({el.D_source})."])
+             num(d["velocity_head"]), "m", d["velocity_head"])]
+    notes = [f"Bore {sub(A)} m² ({el.D_source})."]
+    setting = next((v for v in (c.a.cases[0].valve_settings if c.a.cases else []) if v.index == d["index"]), None)
+    if el.valve_type == "control" and setting is None:
+        phi = valve_law.phi(el.opening, el.characteristic, el.rangeability)
+        law = "Φ = Φ0 + (1 − Φ0) h" if el.characteristic == "linear" else "Φ = R^(h − 1)"
+        steps += [
+            Step("Φ", f"relative flow coefficient at the opening ({el.characteristic.replace('_', ' ')})",
+                 law.replace("h", "h_rel"), f"with h_rel = {sub(el.opening)}, R = {sub(el.rangeability)}", num(phi),
+                 "–", phi),
+            Step("Kv", "flow coefficient at the opening", "Kv = Φ Kvs", f"= {sub(phi)} × {sub(el.Kvs)}",
+                 num(phi * el.Kvs), "m³/h", phi * el.Kvs),
+            Step("K", "loss coefficient from Kv", "K = (2 Δp₀/ρ₀)(3600 A/Kv)²",
+                 f"= 200 × (3600 × {sub(A)} / {sub(phi * el.Kvs)})²", num(el.K), "–", el.K)]
+        notes.append("Kv: m³/h of water (ρ₀ = 1000 kg/m³) at Δp₀ = 1 bar (IEC 60534-1); the inherent characteristic "
+                     "of IEC 60534-2-4:2009.")
+    elif setting is not None:
+        goal = "the target flow" if setting.setting == "flow" else "the set pressure downstream"
+        steps.append(Step("K", f"loss coefficient that meets {goal}", "K = h / h_v",
+                          f"= {sub(setting.head)} / {sub(d['velocity_head'])}" if setting.head else "",
+                          num(el.K), "–", el.K))
+        if el.valve_type == "control" and setting.opening is not None:
+            Kv = valve_law.kv_from_K(el.K, el.D)
+            steps.append(Step("h_rel", "opening (relative travel) for that K",
+                              "Kv = 3600 A √(2 Δp₀ / (ρ₀ K)); h_rel from Φ = Kv/Kvs",
+                              f"Kv = {sub(Kv)} m³/h of {sub(el.Kvs)}", num(setting.opening), "–", setting.opening))
+        notes.append({"set": f"The valve is set to meet {goal} before the line is solved: the head it takes is what "
+                             "the line leaves it there.",
+                      "fully_open": f"It cannot meet {goal}: it stands fully open.",
+                      "no_flow": "At its set pressure no flow reaches the end; shown fully open."}[setting.state])
+    steps.append(Step("h", "head taken by the valve", "h = K h_v", f"= {sub(el.K)} × {sub(d['velocity_head'])}",
+                      num(d["h"]), "m", d["h"]))
+    return StepGroup(title, "valve", steps, notes)
 
 
 def _turbine_steps(c: Context, title: str, el: Turbine, d: dict, Q: float, rho: float) -> StepGroup:

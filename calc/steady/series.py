@@ -21,6 +21,7 @@ from scipy.optimize import brentq, minimize_scalar
 
 from calc import friction
 from calc.model.elements import Line, PipeRun, Pump, Turbine, Valve
+from calc.units import to_display
 from calc.water import G
 
 #: The scan's top is this many times the flow the whole driving head could push through the
@@ -458,6 +459,13 @@ def explain_no_point(line: Line, static: float, machines: list[dict], Q_lo: floa
                            "at the flow stated (lower the set power or the losses)"),
                 "max_power": m.get("power_max"), "Q_at_max": m.get("Q_at_max")}
     E_lo = residual(line, Q_lo)
+    check = next((el for el in line.elements if isinstance(el, Valve) and el.valve_type == "check"), None)
+    if E_lo <= 0.0 and driving_head(line) <= 0.0 and check is not None:
+        held, unit = to_display(-driving_head(line), "head", (line.header or {}).get("units", "SI"))
+        return {"reason": (f"the check valve {check.label or ''} is shut: the head at the end exceeds the head at the "
+                           f"start and the machines' heads by {held:.3g} {unit}, which it holds back, so no "
+                           "water flows (the line needs a pump, or a higher start, to deliver)").replace("  ", " "),
+                "max_power": None, "Q_at_max": None, "check_valve_shut": True}
     if E_lo <= 0.0 and driving_head(line) <= 0.0:
         return {"reason": ("the head at the start does not exceed the head at the end plus the machines' "
                            "heads even at no flow: the water would run backwards (add or raise a pump)"),
