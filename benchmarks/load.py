@@ -39,9 +39,10 @@ import httpx
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
-from server.sharing import MAX_IMPORT  # noqa: E402
 from pdf_limits import largest_sheet  # noqa: E402
 from serving import HOST, form_fields, largest_demo, running_server  # noqa: E402
+
+from server.sharing import MAX_IMPORT  # noqa: E402
 
 ARRIVALS = 3.0  # editors open their sheets at random over the first seconds [s]
 

@@ -14,6 +14,7 @@ import time
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from calc.analysis import analyse  # noqa: E402
 from calc.model.sheet import parse  # noqa: E402
@@ -122,6 +123,35 @@ def main() -> None:
         import json
         doc = json.loads(path.read_text())
         print(f"analyse({path.name}): median {median_time(lambda: analyse(doc), 50) * 1e3:.3f} ms")
+    cases_figures(examples)
+
+
+def cases_figures(examples: Path) -> None:
+    """A sheet with 8 operating cases against the same sheet alone: every case solved with its checks and
+    band. The text-to-value memo of the unit parser is emptied before each timed call, so every call parses
+    as the first edit of a fresh process does (the same strings within one sheet still parse once)."""
+    import json
+
+    from sheet_cases import with_cases
+
+    from calc import units
+
+    def cold(doc):
+        def run():
+            units._PARSED.clear()
+            return analyse(doc)
+        return run
+
+    print("operating cases (target: 8 cases with every case's checks and band in at most 10 ms):")
+    for path in sorted(examples.glob("*.json")):
+        doc = json.loads(path.read_text())
+        eight = with_cases(doc, 8)
+        assert analyse(eight).ok, analyse(eight).errors
+        one = median_time(cold(doc), 30)
+        many = median_time(cold(eight), 30)
+        warm = median_time(lambda: analyse(eight), 30)
+        print(f"  {path.name}: one case {one * 1e3:.2f} ms; 8 cases + base {many * 1e3:.2f} ms "
+              f"({many / one:.1f} x); 8 cases with the parse memo warm {warm * 1e3:.2f} ms")
 
 
 if __name__ == "__main__":

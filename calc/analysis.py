@@ -8,7 +8,7 @@ from calc.model.cases import BASE_NAME, Change
 from calc.model.elements import Line
 from calc.model.settings import CheckSettings
 from calc.model.sheet import Parsed, parse
-from calc.review import checks, governing, machines, uncertainty, valves
+from calc.review import checks, energy, governing, machines, uncertainty, valves
 from calc.review.findings import SEVERITIES
 from calc.review.summary import headline as summary_of
 from calc.steady.series import Solution, _json_safe, solve
@@ -63,6 +63,7 @@ class Analysis:
     check_settings: CheckSettings | None = None
     cases: list[CaseResult] = field(default_factory=list)
     governing: list[dict] = field(default_factory=list)
+    energy: dict | None = None  # calc.review.energy.year(): energy over a year, when the sheet asks for it
 
     @property
     def ok(self) -> bool:
@@ -89,6 +90,8 @@ class Analysis:
         }
         if self.cases and self.cases[0].speeds:
             out["speeds"] = _json_safe([a.to_dict() for a in self.cases[0].speeds])
+        if self.energy is not None:
+            out["energy"] = _json_safe(self.energy)
         if self.has_cases:
             out["cases"] = [c.to_dict() for c in self.cases]
             out["governing"] = _json_safe(self.governing)
@@ -128,4 +131,4 @@ def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:
     rows = (governing.governing([governing.CaseSummary(r.name, r.line, r.summary) for r in results], settings)
             if len(results) > 1 else [])
     return Analysis(doc, base.line, base.solution, findings, band=base.band, check_settings=settings,
-                    cases=results, governing=rows)
+                    cases=results, governing=rows, energy=energy.year(results))

@@ -1,4 +1,5 @@
-"""The calculation commands of `headsheet`: solve a sheet file, print its schema, answer inverse questions.
+"""The calculation commands of `headsheet`: solve a sheet file, print its schema or system curve, answer
+inverse questions.
 
 The console entry point is `server.cli.main`, which registers these beside the server's own commands;
 `calc` itself never imports the server.
@@ -247,6 +248,18 @@ def cmd_size(args) -> int:
     return 0
 
 
+def cmd_curve(args) -> int:
+    from calc.analysis import analyse
+    from calc.record.system_curve import csv_text
+
+    doc, line = _load(args.file)
+    a = analyse(doc)
+    if a.solution is None:
+        sys.exit(f"headsheet: {args.file} does not solve: no system curve")
+    sys.stdout.write(csv_text(a, line.header.get("units", "SI"), str(doc.get("header", {}).get("title") or "")))
+    return 0
+
+
 def add_commands(sub: argparse._SubParsersAction) -> None:
     """Register solve, schema, head and size on the `headsheet` command's subparsers."""
     s = sub.add_parser("solve", help="solve a sheet file and print the operating points")
@@ -256,6 +269,9 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
     s.add_argument("--case", default=None, metavar="NAME",
                    help="solve only this operating case ('Base' for the sheet's own inputs); default every case")
     s.set_defaults(func=cmd_solve)
+    s = sub.add_parser("curve", help="print the system curve (head needed against flow, every case) as CSV")
+    s.add_argument("file")
+    s.set_defaults(func=cmd_curve)
     s = sub.add_parser("schema", help="print the JSON Schema of the sheet document")
     s.set_defaults(func=cmd_schema)
     s = sub.add_parser("head", help="head needed to pass a given flow through the line")

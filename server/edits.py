@@ -52,8 +52,9 @@ def _put(doc: dict, place: tuple, value: Any) -> None:
         parent[key] = copy.deepcopy(value)
 
 
-def _revert(cand: dict, ref: dict, path: str, whole: frozenset = frozenset()) -> bool:
-    """Put back the part of ``cand`` that an error at ``path`` points at, as ``ref`` has it; whether anything changed.
+def _revert(cand: dict, ref: dict, path: str, whole: frozenset = frozenset()) -> tuple | None:
+    """Put back the part of ``cand`` that an error at ``path`` points at, as ``ref`` has it; the place put
+    back (a tuple of keys, () for the whole document), or None when nothing changed.
 
     Along the path, a list whose length differs between the two is where their places stop meaning
     the same: an error in a row that only ``cand`` has leaves out the rows it added; any other error
@@ -69,15 +70,15 @@ def _revert(cand: dict, ref: dict, path: str, whole: frozenset = frozenset()) ->
         if not isinstance(c, list):
             continue
         if isinstance(key, int) and key >= len(c):
-            return False  # that row is left out already
+            return None  # that row is left out already
         if isinstance(r, list) and (len(c) != len(r) or ".".join(map(str, prefix)) in whole):
             if len(c) > len(r) and isinstance(key, int) and key >= len(r) and ".".join(map(str, prefix)) not in whole:
                 del c[len(r):]
-                return True
+                return prefix
             if c == r:
-                return False
+                return None
             c[:] = copy.deepcopy(r)
-            return True
+            return prefix
     for depth in range(len(parts), -1, -1):
         place = parts[:depth]
         c, r = get_path(cand, place), get_path(ref, place)
@@ -90,8 +91,8 @@ def _revert(cand: dict, ref: dict, path: str, whole: frozenset = frozenset()) ->
                 and get_path(ref, place[:-1]) is MISSING:
             place = place[:-1]
             _put(cand, place, MISSING)
-        return True
-    return False
+        return place
+    return None
 
 
 def waiting(ref: dict, parse: Callable = calc_sheet.parse) -> set[str]:
@@ -124,8 +125,18 @@ def reconcile(stored: dict, typed: dict, parse: Callable = calc_sheet.parse, ref
             wrong = [e for e in parsed.errors if not (calc_sheet.is_request(e) and e.path in (asked or ()))]
             if not wrong:
                 return cand, parsed
-            moved = [_revert(cand, ref, e.path, whole) for e in wrong]
-            if not any(moved):
+            moved: list[tuple] = []
+            for e in wrong:
+                parts = split_path(e.path) if e.path else ()
+                parts = parts if parts is not None else ()
+                # An error inside a part this round put back already is stale: the next parse says whether
+                # anything there is still wrong (walking up from it now would put back its whole list).
+                if any(parts[:len(p)] == p for p in moved):
+                    continue
+                place = _revert(cand, ref, e.path, whole)
+                if place is not None:
+                    moved.append(place)
+            if not moved:
                 break
     return copy.deepcopy(stored), parse(stored)
 

@@ -15,6 +15,7 @@ from fastapi.responses import Response
 from starlette.concurrency import run_in_threadpool
 
 from calc.record import plots as calc_plots
+from calc.record import system_curve
 from server import web
 from server.store import Store
 
@@ -79,10 +80,37 @@ async def plot_svg(request: Request, sheet_id: int, number: int, name: str) -> R
                              "X-Content-Type-Options": "nosniff"})
 
 
+def _curve_file(request: Request, sheet_id: int, number: int) -> tuple[str, str] | None:
+    store: Store = request.app.state.store
+    rev = store.revision(sheet_id, number)  # SheetNotFound: the app answers 404
+    document = rev.document
+    outcome = request.app.state.solver.solve(document)
+    if not outcome.ok or outcome.analysis is None or outcome.analysis.solution is None:
+        return None
+    header = document.get("header") if isinstance(document.get("header"), dict) else {}
+    text = system_curve.csv_text(outcome.analysis, units_of(document), str(header.get("title") or ""))
+    return text, _file_name(document, sheet_id, number, "system-curve").replace(".svg", ".csv")
+
+
+async def system_curve_csv(request: Request, sheet_id: int, number: int) -> Response:
+    """GET the system curve of a revision, every case, as CSV (for a supplier)."""
+    found = await run_in_threadpool(_curve_file, request, sheet_id, number)
+    if found is None:
+        return web.error_response(request.url.path, 404, "Not found",
+                                  f"Revision {number} of sheet {sheet_id} has no solution to draw a system curve from.",
+                                  request=request)
+    text, file_name = found
+    return Response(text, media_type="text/csv; charset=utf-8",
+                    headers={"Cache-Control": "no-store", "Content-Disposition": f'attachment; filename="{file_name}"',
+                             "X-Content-Type-Options": "nosniff"})
+
+
 _API_DOCS: dict[str, dict[str, Any]] = {}
 
 ROUTES: list[tuple[str, str, list[str], Any, bool]] = [
     ("/sheets/{sheet_id:int}/revisions/{number:int}/plots/{name}.svg", "plot_svg", ["GET"], plot_svg, False),
+    ("/sheets/{sheet_id:int}/revisions/{number:int}/system-curve.csv", "system_curve_csv", ["GET"],
+     system_curve_csv, False),
 ]
 
 router = web.router_of(ROUTES, _API_DOCS)

@@ -104,6 +104,8 @@ def read_cases(r: Reader, doc: dict) -> list[CaseRead]:
                 names[name.casefold()] = i
         note = r.text(c, "note", f"{path}.note", MAX_TEXT) or ""
         case = CaseRead(name=name or f"case {i + 1}", index=i, note=note)
+        if not _blank(c.get("hours")):
+            case.changes.append(Change(f"{path}.hours", (("energy", "hours"),), c["hours"], "hours a year"))
         for which in ("start", "end"):
             group = r.obj(c, which, f"{path}.{which}")
             r.known(group, f"{path}.{which}", CASE_NODE_FIELDS, f"the {which} in a case")
@@ -181,7 +183,9 @@ def overlay(doc: dict, case: CaseRead) -> dict:
         node = out
         for depth, key in enumerate(path[:-1]):
             prefix = path[:depth + 1]
-            child = node[key]
+            child = node.get(key) if isinstance(node, dict) else node[key]
+            if child is None:  # a group the base leaves out (its energy inputs): the case makes it
+                child = {}
             if prefix not in copied:
                 child = copy.copy(child)
                 node[key] = child

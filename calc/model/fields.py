@@ -60,7 +60,8 @@ ELEMENT_TEMPLATES = {
 #: A group whose kind or mode the form switches keeps the keys of its other kinds or modes (the form
 #: never deletes a key), so those are accepted: the liquid holds the keys of water and of a typed liquid,
 #: the end those of a reservoir, a pressure and a jet, and a fitting the K values of every type.
-SHEET_FIELDS = ("format", "version", "header", "liquid", "site", "settings", "start", "end", "elements", "cases")
+SHEET_FIELDS = ("format", "version", "header", "liquid", "site", "settings", "start", "end", "elements", "cases",
+                "energy")
 HEADER_KEYS = HEADER_FIELDS + ("revision_scheme", "units")
 LIQUID_FIELDS = ("kind", "temperature", "name", "density", "viscosity", "vapour_pressure", "bulk_modulus")
 SITE_FIELDS = ("atmospheric_pressure",)
@@ -96,7 +97,7 @@ MAX_KEY_SHOWN = 40
 #: base sheet. A field left empty keeps the base value; elements are named by their stable id.
 MAX_CASES = 20
 MAX_CASE_NAME = 60
-CASE_FIELDS = ("name", "note", "start", "end", "liquid", "pipes", "elements")
+CASE_FIELDS = ("name", "note", "hours", "start", "end", "liquid", "pipes", "elements")
 CASE_NODE_FIELDS = ("elevation", "pressure")
 CASE_LIQUID_FIELDS = ("temperature",)
 #: For every pipe run at once: its condition (new or aged roughness of its material) or one roughness.
@@ -107,6 +108,13 @@ CASE_ELEMENT_FIELDS = {
     "turbine": ("power", "flow", "head"),
     "valve": ("K", "opening", "target_flow", "set_pressure"),
 }
-CASE_TEMPLATE = {"name": "", "note": "", "start": {"elevation": "", "pressure": ""},
+CASE_TEMPLATE = {"name": "", "note": "", "hours": "", "start": {"elevation": "", "pressure": ""},
                  "end": {"elevation": "", "pressure": ""}, "liquid": {"temperature": ""},
                  "pipes": {"condition": "", "roughness": ""}, "elements": []}
+
+#: Energy over a year (``energy``, calc/model/energy.py): hours a year (each case may change them), the
+#: tariff, the motor efficiency; for a turbine the flow-duration table and the machine's flow range.
+ENERGY_FIELDS = ("hours", "tariff", "currency", "motor_efficiency", "flow_duration", "turbine_flow_min",
+                 "turbine_flow_max")
+FDC_POINT_FIELDS = ("exceedance", "flow")
+FDC_POINT_TEMPLATE = {"exceedance": "", "flow": ""}

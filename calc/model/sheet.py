@@ -14,6 +14,7 @@ from calc.model import implied
 from calc.model import read_elements as read
 from calc.model.cases import CaseRead, ensure_rows, overlay, read_cases
 from calc.model.elements import Line, Node
+from calc.model.energy import read_energy
 from calc.model.fields import *  # noqa: F401,F403  (the format's keys, templates and limits, for the callers)
 from calc.model.fields import (
     CHECK_FIELDS,
@@ -224,12 +225,13 @@ def parse(doc: object) -> Parsed:
                    f"is larger than the bore it is fitted to ({r.length_text(bore)}): a nozzle narrows the flow; "
                    "leave it empty for a jet from the open pipe end")
     del z
+    energy = read_energy(r, doc)
     case_reads = read_cases(r, doc)
     r.report_unknown_left_out()
     if r.errors:
         return Parsed(None, r.errors)
     line = Line(start=start, end=end, elements=elements, liquid=liquid, method=method, p_atm=p_atm,
-                header=hdr, settings={**settings, "checks": check_settings})
+                header=hdr, settings={**settings, "checks": check_settings, "energy": energy})
     parsed = Parsed(implied.complete(line), [])
     for case in case_reads:
         sub = parse(overlay(doc, case))  # the case's document holds no cases of its own

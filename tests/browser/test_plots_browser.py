@@ -63,7 +63,7 @@ def test_the_sheet_page_shows_readable_plots_with_values_on_hover_and_a_download
     shot(page, "30-plots-on-the-sheet")
 
     # The download link gives an SVG file.
-    link = curves.locator("a.plot-download")
+    link = curves.locator("a.plot-download[href$=\".svg\"]")
     with page.expect_download() as info:
         link.click()
     download = info.value

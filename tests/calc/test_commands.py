@@ -163,3 +163,13 @@ def test_an_unknown_case_is_refused_with_the_names(tmp_path, capsys):
     with pytest.raises(SystemExit) as e:
         main(["solve", str(path), "--case", "Flood"])
     assert "no case 'Flood'" in str(e.value) and "'Tank full'" in str(e.value)
+
+
+def test_curve_prints_the_system_curve_of_every_case(tmp_path, capsys):
+    path = _sheet_with_cases(tmp_path)
+    assert main(["curve", str(path)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[1].split(",")[1:] == ["Base: head needed from the pumps (m)", "Tank full: head needed from the pumps (m)",
+                                       "Aged main: head needed from the pumps (m)"]
+    # at no flow the head needed is the static lift: 121.5 m less 52.0 m, and 124 m less 52.0 m
+    assert lines[2].split(",")[:3] == ["0", "69.5", "72"]

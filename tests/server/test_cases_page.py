@@ -167,3 +167,17 @@ def test_the_api_solves_every_case(client):
     assert body["governing"] and body["findings"]
     assert body["cases"][1]["changes"] == [{"field": "cases.0.elements.0.running", "what": "Lift: running",
                                             "value": 1}]
+
+
+def test_the_system_curve_downloads_as_csv_with_every_case(client):
+    doc = _pump_doc()
+    doc["cases"] = [{"name": "Tank high", "end": {"elevation": "98 m"}}]
+    sid = _create(client, form_ready(doc))
+    page = client.get(f"/sheets/{sid}").text
+    link = re.search(r'href="([^"]*system-curve\.csv)"', page).group(1)
+    r = client.get(link)
+    assert r.status_code == 200 and r.headers["content-type"].startswith("text/csv")
+    assert "attachment" in r.headers["content-disposition"]
+    lines = r.text.splitlines()
+    assert lines[1].startswith("Flow (L/s),Base: head needed from the pumps (m),Tank high:")
+    assert client.get(f"/sheets/{sid}/revisions/99/system-curve.csv").status_code == 404

@@ -329,3 +329,18 @@ def test_a_comma_in_a_bare_number_says_what_to_write(typed, shown):
     result = edit(stored, stored, {"elements.0.length": typed}, None, units=placeholder_units)
     assert shown in {e.path: e.message for e in result.errors}["elements.0.length"]
     assert result.keep["elements"][0]["length"] == stored["elements"][0]["length"]
+
+
+def test_an_error_inside_a_part_already_put_back_does_not_take_other_elements_with_it():
+    # Found by the property above: emptying a run's material puts that run back whole (the run would
+    # need a roughness); the error in one of its fittings then lay in a run already as stored, and the
+    # walk up from it put back every element, an efficiency typed on the pump among them.
+    stored = _pumped()
+    p = _pump_index(stored)
+    run = max(i for i, e in enumerate(stored["elements"]) if e["kind"] == "pipe")
+    fields = {f"elements.{run}.fittings.0.type": "", f"elements.{run}.material": "",
+              f"elements.{p}.curve.1.efficiency": ""}
+    result = edit(stored, stored, fields, None)
+    assert result.keep["elements"][p]["curve"][1]["efficiency"] == ""
+    assert result.keep["elements"][run] == stored["elements"][run]
+    assert parse(result.keep).ok
