@@ -78,8 +78,29 @@ def cmd_solve(args) -> int:
             print()
             print(format_solution(c.solution, system, f"Case: {c.name}"))
             print(format_changes(c))
+    if a.energy:
+        print(format_energy(a.energy, system))
     print(format_findings(a.findings, args.all))
     return 0 if all(c.solution.points for c in a.cases) else 1
+
+
+def format_energy(en: dict, system: str = "SI") -> str:
+    """Energy over a year, for the terminal."""
+    out = ["", "Energy over a year:"]
+    for h in en.get("hydro") or []:
+        cf = f"{h['capacity_factor'] * 100:.1f} %" if h["capacity_factor"] is not None else "–"
+        out.append(f"  {h['case']}: turbine {h['energy_Wh'] / 1000:,.0f} kWh a year, capacity factor {cf} "
+                   f"(of {_u(h['P_rated'], 'power', system)} at {_u(h['Q_rated'], 'flow', system)}), "
+                   f"running {h['hours_running']:,.0f} h")
+    for r in en.get("pumping") or []:
+        cost = f", {r['cost']:,.0f} {r['currency']}".rstrip() if r["cost"] is not None else ""
+        out.append(f"  {r['case']}: pumping {r['hours']:,.0f} h at {_u(r['power_input'], 'power', system)}: "
+                   f"{r['energy_Wh'] / 1000:,.0f} kWh{cost}")
+    if en.get("pumping_total"):
+        t = en["pumping_total"]
+        cost = f", {t['cost']:,.0f} {t['currency']}".rstrip() if t["cost"] is not None else ""
+        out.append(f"  Year: {t['hours']:,.0f} h, {t['energy_Wh'] / 1000:,.0f} kWh{cost}")
+    return "\n".join(out)
 
 
 def format_changes(case) -> str:
@@ -223,9 +244,27 @@ def cmd_head(args) -> int:
     return 0
 
 
+def _costs(text: str) -> dict[str, float] | None:
+    """'160=45,200=62.5' -> {'160': 45.0, '200': 62.5}: the cost of a metre of pipe of each nominal size."""
+    if not text:
+        return None
+    out = {}
+    for part in text.split(","):
+        nominal, sep, cost = part.partition("=")
+        try:
+            out[nominal.strip()] = float(cost)
+        except ValueError:
+            sys.exit(f"headsheet: --cost-per-m wants NOMINAL=COST pairs, such as 160=45,200=62 (got {part!r})")
+        if not sep:
+            sys.exit(f"headsheet: --cost-per-m wants NOMINAL=COST pairs, such as 160=45,200=62 (got {part!r})")
+    return out
+
+
 def cmd_size(args) -> int:
     from calc.steady.inverse import smallest_size
 
+    if not args.flow:
+        return cmd_sizes(args)
     doc, line = _load(args.file)
     Q = _flow(args.flow)
     runs = [int(x) for x in args.runs.split(",")] if args.runs else None
@@ -246,6 +285,63 @@ def cmd_size(args) -> int:
     if r.note:
         print(f"  ({r.note})")
     return 0
+
+
+def cmd_sizes(args) -> int:
+    """Every size in a range at once, for every case (`calc.sizing.compare`)."""
+    from calc.sizing import compare
+
+    doc, line = _load(args.file)
+    runs = [int(x) for x in args.runs.split(",")] if args.runs else None
+    try:
+        out = compare(doc, args.standard, args.klass, runs, args.smallest or None, args.largest or None,
+                      _costs(args.cost_per_m), args.life)
+    except (LookupError, ValueError) as e:
+        sys.exit(f"headsheet: {str(e).strip(chr(39))}")
+    if args.json:
+        json.dump(out, sys.stdout, indent=2, allow_nan=False)
+        print()
+        return 0
+    system = line.header.get("units", "SI")
+    print(format_sizes(out, system))
+    return 0
+
+
+def format_sizes(out: dict, system: str = "SI") -> str:
+    rows = out["rows"]
+    names = [c["case"] for c in next((r["cases"] for r in rows if r["cases"]), [])]
+    text = [f"Sizes of {out['standard']} {out['class']} in elements {', '.join(map(str, out['runs']))} "
+            f"({_u(out['length'], 'length', system)} of pipe), every case:"]
+    for r in rows:
+        head = f"  {r['nominal']:>6} (bore {_u(r['ID'], 'diameter', system)})"
+        if not r["ok"]:
+            text.append(head + ": " + "; ".join(r["errors"]))
+            continue
+        parts = []
+        for c in r["cases"]:
+            if c["Q"] is None:
+                parts.append(f"{c['case']}: no operating point")
+                continue
+            bit = (f"{c['case']}: {_u(c['Q'], 'flow', system)}, V {_u(c['V_max'], 'velocity', system)}, "
+                   f"losses {_u(c['losses'], 'head', system)}")
+            if c["power"]:
+                bit += f", {_u(c['power'], 'power', system)}"
+            if c["energy_Wh"]:
+                bit += f", {c['energy_Wh'] / 1000:,.0f} kWh/yr"
+            parts.append(bit)
+        money = ""
+        if r["capital"] is not None:
+            money = f"; capital {r['capital']:,.0f}"
+            if r["energy_cost"] is not None:
+                money += f" + energy over {out['life']:g} years {r['energy_cost']:,.0f} = {r['total']:,.0f}"
+            money += f" {out['currency']}".rstrip()
+        text.append(head + ": " + " | ".join(parts) + money + (f"  [{r['worst']}]" if r["worst"] else ""))
+    if out["cheapest"]:
+        energy = any(r["energy_cost"] is not None for r in rows)
+        text.append(f"Least {'capital plus energy' if energy else 'capital'} cost: {out['cheapest']}"
+                    + ("" if energy else " (no energy cost: give the sheet hours and a tariff, and --life)"))
+    del names
+    return "\n".join(text)
 
 
 def cmd_curve(args) -> int:
@@ -279,9 +375,14 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
     s.add_argument("--flow", required=True, help="flow with its unit, e.g. '40 L/s'")
     s.add_argument("--json", action="store_true")
     s.set_defaults(func=cmd_head)
-    s = sub.add_parser("size", help="smallest standard pipe size that passes a given flow")
+    s = sub.add_parser("size", help="every standard size in a range for every case (or, with --flow, the smallest "
+                                    "that passes that flow)")
     s.add_argument("file")
-    s.add_argument("--flow", required=True, help="flow with its unit, e.g. '40 L/s'")
+    s.add_argument("--flow", default="", help="flow with its unit, e.g. '40 L/s': answer the smallest size passing it")
+    s.add_argument("--from", dest="smallest", default="", help="the smallest nominal size compared, e.g. 110")
+    s.add_argument("--to", dest="largest", default="", help="the largest nominal size compared, e.g. 315")
+    s.add_argument("--cost-per-m", default="", help="cost of a metre of pipe by nominal size: 160=45,200=62")
+    s.add_argument("--life", type=float, default=None, help="years of energy cost to add to the capital cost")
     s.add_argument("--standard", default="pe-iso4427", help="size table: asme-b36.10m or pe-iso4427")
     s.add_argument("--class", dest="klass", default="SDR11", help="schedule or SDR, e.g. 40 or SDR11")
     s.add_argument("--runs", default="", help="element numbers (from 0) of the runs to resize, e.g. 0,2; default all")

@@ -25,18 +25,19 @@ from calc.model import sheet as calc_sheet
 from calc.units import unit_allowed, unit_text
 
 #: Top-level parts of the document a form field may write to.
-SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements", "cases")
+SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements", "cases", "energy")
 #: Fields whose value changes which other fields the form shows.
 SWITCH_KEYS = {"kind", "mode", "type", "standard", "speed_control", "units", "valve_type", "setting"}
 #: Keys holding a group of fields that a form may create when the document has none yet (a pipe's size,
 #: the settings and their check limits, which most sheets leave at their defaults).
-CREATABLE_GROUPS = {"size", "settings", "checks"}
+CREATABLE_GROUPS = {"size", "settings", "checks", "energy"}
 #: Lists a form may add items to, with the template for a new item and the most allowed.
 LIST_TEMPLATES: dict[str, tuple[dict, int]] = {
     "fittings": (calc_sheet.FITTING_TEMPLATE, calc_sheet.MAX_FITTINGS),
     "profile": (calc_sheet.PROFILE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
     "curve": (calc_sheet.CURVE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
     "cases": (calc_sheet.CASE_TEMPLATE, calc_sheet.MAX_CASES),
+    "flow_duration": (calc_sheet.FDC_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
 }
 #: Fields a new pipe run takes from the last one on the sheet: the same pipe carries on. Its length and
 #: end elevation are asked for (a run level with the last one would be a number nobody gave).
@@ -283,6 +284,8 @@ def apply_action(doc: dict, action: str) -> ActionResult:
             return ActionResult(doc, message="That list cannot take new items.")
         template, limit = LIST_TEMPLATES[key]
         owner = get_path(doc, parts[:-1])
+        if (owner is MISSING or owner is None) and len(parts) == 2 and parts[0] in CREATABLE_GROUPS:
+            owner = doc[parts[0]] = {}  # a group most sheets leave out (the energy inputs), made for its list
         if not isinstance(owner, dict):
             return ActionResult(doc, message="That list is not on this sheet any more.")
         items = owner.get(key)
@@ -326,7 +329,8 @@ def apply_action(doc: dict, action: str) -> ActionResult:
 # sheet has moved on, and an item altered on its way never lands.
 
 #: What the items of each list are called in the notice of a removal.
-ITEM_NAMES = {"fittings": "fitting", "profile": "profile point", "curve": "curve point", "cases": "case"}
+ITEM_NAMES = {"fittings": "fitting", "profile": "profile point", "curve": "curve point", "cases": "case",
+              "flow_duration": "flow-duration point"}
 
 
 def document_digest(doc: Any) -> str:

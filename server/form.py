@@ -130,6 +130,19 @@ def _limit(key: str, kind: str, example: str, why: str = "") -> Spec:
                 help=f"default from {short}" + (f"; {why}" if why else ""), detail=full)
 
 
+#: Energy over a year (``energy``): the hours, the tariff and the motor for pumping; for a turbine, the
+#: machine's flow range (the flow-duration table is a list below them).
+ENERGY = [Spec("hours", "Hours a year (base)", "ratio", example="4000", help="pumping; each case gives its own"),
+          Spec("tariff", "Tariff per kWh", "ratio", example="0.15"),
+          Spec("currency", "Currency", "text", example="EUR"),
+          Spec("motor_efficiency", "Motor and drive efficiency", "ratio", example="0.93",
+               help="optional; empty: shaft energy"),
+          Spec("turbine_flow_min", "Turbine's least flow", example="20 L/s", help="below it the turbine stops"),
+          Spec("turbine_flow_max", "Turbine's greatest flow", example="250 L/s",
+               help="empty: the design flow")]
+FDC_POINT = [Spec("exceedance", "Share of time exceeded", "ratio", example="30 %"),
+             Spec("flow", "Flow available", example="120 L/s")]
+
 _D = CheckSettings()
 #: The limits the checks apply (``settings.checks``); empty means the default (calc/model/settings.py).
 CHECKS = [
@@ -449,6 +462,12 @@ class FormView:
     def site(self) -> list[Field]:
         return self.fields("site", SITE) + self.fields("settings", SETTINGS)
 
+    def energy(self) -> list[Field]:
+        return self.fields("energy", ENERGY)
+
+    def fdc_point(self, path: str) -> list[Field]:
+        return self.fields(path, FDC_POINT)
+
     def checks(self) -> list[Field]:
         """The check limits (``settings.checks``), each empty for its default."""
         return self.fields("settings.checks", CHECKS)
@@ -615,6 +634,8 @@ class FormView:
         if self.get("liquid.kind", "water") == "water":
             add("Water temperature", self.get("liquid.temperature"), lambda i: f"cases.{i}.liquid.temperature",
                 Spec("temperature", "", example="12 degC"))
+        add("Hours a year", self.get("energy.hours"), lambda i: f"cases.{i}.hours",
+            Spec("hours", "", "ratio", example="2000"), "" if self.get("energy.hours") else "none given")
         add("Every pipe run: condition", None, lambda i: f"cases.{i}.pipes.condition",
             Spec("condition", "", "select", options="case_condition"), "as set on each run")
         add("Every pipe run: roughness", None, lambda i: f"cases.{i}.pipes.roughness",
@@ -679,13 +700,16 @@ class FormView:
             if specs:
                 for j, _pt in enumerate(self.items(f"elements.{i}.curve")):
                     out += self.fields(f"elements.{i}.curve.{j}", specs)
-        return out + self.node("end") + self.case_fields() + self.checks()
+        out += self.node("end") + self.case_fields() + self.energy()
+        for j, _pt in enumerate(self.items("energy.flow_duration")):
+            out += self.fdc_point(f"energy.flow_duration.{j}")
+        return out + self.checks()
 
 
 # -- where a message goes, and how to name a field in words -------------------------------------
 
 _LABELS: dict[str, str] = {}
-for _specs in [HEADER, SITE, SETTINGS, CHECKS, PIPE, *VALVE.values(), list(VALVE_SETTING.values()), PROFILE_POINT,
+for _specs in [HEADER, SITE, SETTINGS, CHECKS, ENERGY, FDC_POINT, PIPE, *VALVE.values(), list(VALVE_SETTING.values()), PROFILE_POINT,
                PUMP_POINT, TURBINE_POINT, TURBINE_ETA_POINT,
                *PUMP_SPEED.values(),
                *LIQUID.values(), *NODE.values(), *TURBINE.values(), *PUMP.values(), *FITTING.values()]:
@@ -695,8 +719,9 @@ _LABELS.update({"checks": "check limits", "kind": "kind", "type": "fitting", "co
                 "nominal": "nominal size", "class": "class", "size": "size", "fittings": "fittings",
                 "profile": "profile", "curve": "curve points", "mode": "given as"})
 _SECTIONS = {"header": "Header", "liquid": "Liquid", "site": "Site", "settings": "Settings", "start": "Start",
-             "end": "End", "elements": "Elements", "cases": "Cases", "format": "Sheet format", "version": "Sheet format version"}
-_ITEMS = {"fittings": "fitting", "profile": "profile point", "curve": "curve point"}
+             "end": "End", "elements": "Elements", "cases": "Cases", "energy": "Energy over a year", "format": "Sheet format", "version": "Sheet format version"}
+_ITEMS = {"fittings": "fitting", "profile": "profile point", "curve": "curve point",
+          "flow_duration": "flow-duration point"}
 
 
 def describe(doc: dict, path: str) -> str:
@@ -739,7 +764,8 @@ def describe(doc: dict, path: str) -> str:
 def slot_paths(form: "FormView") -> tuple[set[str], set[str]]:
     """Paths with a message slot on the form: (the fields, the groups and lists)."""
     fields = {f.path for f in form.all_fields()}
-    paths = {"header", "liquid", "site", "settings", "settings.checks", "start", "end", "elements", "cases"}
+    paths = {"header", "liquid", "site", "settings", "settings.checks", "start", "end", "elements", "cases", "energy",
+             "energy.flow_duration"}
     for i, _case in enumerate(form.items("cases")):
         paths.update({f"cases.{i}", f"cases.{i}.elements", f"cases.{i}.pipes", f"cases.{i}.start",
                       f"cases.{i}.end", f"cases.{i}.liquid"})

@@ -35,6 +35,7 @@ class Outcome:
     cases: list = field(default_factory=list)  # calc.review.summary.case_figures() rows on a sheet with cases, else empty
     case_names: list = field(default_factory=list)
     governing: list = field(default_factory=list)  # calc.review.governing.governing() rows, SI
+    energy: dict | None = None  # calc.review.energy.year(), SI (W h, W, m3/s)
 
     @property
     def ok(self) -> bool:
@@ -59,7 +60,7 @@ def solve_parsed(parsed: Any) -> Outcome:
                        headline=_json_safe(a.cases[0].summary or headline(a.line, solution, a.check_settings)),
                        analysis=a, cases=_json_safe(case_figures(a)) if a.has_cases else [],
                        case_names=[c.name for c in a.cases] if a.has_cases else [],
-                       governing=_json_safe(a.governing))
+                       governing=_json_safe(a.governing), energy=_json_safe(a.energy))
     except Exception as exc:  # a fault in the solver must not take the page down with it
         log.exception("solver failed")
         return Outcome(failure=f"The solver stopped with an internal fault ({type(exc).__name__}: {exc}). "

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from calc.model.fields import ENERGY_FIELDS, FDC_POINT_FIELDS, MAX_POINTS
+from calc.model.fields import ENERGY_FIELDS, FDC_POINT_FIELDS, MAX_LABEL, MAX_POINTS
 from calc.model.reader import Reader
 from calc.units import FLOW, RATIO
 
@@ -40,7 +40,7 @@ def read_energy(r: Reader, doc: dict) -> EnergyInputs:
     out.hours = r.qty(d, "hours", f"{p}.hours", RATIO, required=False, lo=0.0, hi=HOURS_PER_YEAR,
                       what="the hours a year")
     out.tariff = r.qty(d, "tariff", f"{p}.tariff", RATIO, required=False, lo=0.0, what="the tariff per kWh")
-    out.currency = r.text(d, "currency", f"{p}.currency", 12) or ""
+    out.currency = r.text(d, "currency", f"{p}.currency", MAX_LABEL) or ""
     out.motor_efficiency = r.qty(d, "motor_efficiency", f"{p}.motor_efficiency", RATIO, required=False, lo=0.0,
                                  lo_open=True, hi=1.0, what="the motor and drive efficiency")
     out.flow_min = r.qty(d, "turbine_flow_min", f"{p}.turbine_flow_min", FLOW, required=False, lo=0.0,

@@ -114,6 +114,14 @@ SCHEMA = {
             "allOf": [{"if": {"properties": {"kind": {"const": kind}}, "required": ["kind"]},
                        "then": {"$ref": f"#/$defs/{kind}"}} for kind in _ELEMENTS]}},
         "cases": {"type": ["array", "null"], "maxItems": MAX_CASES, "items": {"$ref": "#/$defs/case"}},
+        # Energy over a year: pumping hours and tariff; a turbine's flow-duration table and flow range.
+        "energy": _group({
+            "hours": _RATIO | {"description": "hours a year the base case runs (pumping)"},
+            "tariff": _RATIO | {"description": "cost of a kWh"}, "currency": {"type": ["string", "null"], "maxLength": MAX_LABEL},
+            "motor_efficiency": _RATIO, "turbine_flow_min": _q("a flow"), "turbine_flow_max": _q("a flow"),
+            "flow_duration": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": _group(
+                {"exceedance": _RATIO | {"description": "the share of the time the flow is exceeded"},
+                 "flow": _q("a flow")})}}),
     },
     "$defs": {
         # A node keeps the keys of the kinds it had before (the form never deletes a key), so the
@@ -135,6 +143,7 @@ SCHEMA = {
         "case": _group({
             "name": {"type": ["string", "null"], "maxLength": MAX_CASE_NAME},
             "note": {"type": ["string", "null"], "maxLength": MAX_TEXT},
+            "hours": _RATIO | {"description": "hours a year this case runs (pumping energy)"},
             "start": _group({"elevation": _q("a length"), "pressure": _q("a gauge pressure")}),
             "end": _group({"elevation": _q("a length"), "pressure": _q("a gauge pressure")}),
             "liquid": _group({"temperature": _q("a temperature")}),

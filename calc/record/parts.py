@@ -153,6 +153,7 @@ class Record:
     version: str
     errors: list[dict] = field(default_factory=list)
     cases: list[Table] = field(default_factory=list)  # calc.record.cases: empty without operating cases
+    energy: list[Table] = field(default_factory=list)  # calc.record.energy: empty without energy inputs
 
     @property
     def signed(self) -> bool:

@@ -22,6 +22,7 @@ LAYERS = [
     ("calc.review",),
     ("calc.record",),
     ("calc.analysis",),
+    ("calc.sizing",),
     ("calc.commands",),
 ]
 #: What calc must never import: it is pure computation, with no web, SQL or HTML.

@@ -181,3 +181,69 @@ def test_the_system_curve_downloads_as_csv_with_every_case(client):
     lines = r.text.splitlines()
     assert lines[1].startswith("Flow (L/s),Base: head needed from the pumps (m),Tank high:")
     assert client.get(f"/sheets/{sid}/revisions/99/system-curve.csv").status_code == 404
+
+
+def test_energy_over_a_year_on_the_page_in_the_record_and_the_cli(client, tmp_path, capsys):
+    doc = _pump_doc()
+    for pt, eta in zip(doc["elements"][0]["curve"], ("0", "0.6", "0.75", "0.5")):
+        pt["efficiency"] = eta
+    sid = _create(client, form_ready(doc))
+    fields = form_fields(client.get(f"/sheets/{sid}").text)
+    fields.update({"energy.hours": "3000", "energy.tariff": "0.2", "energy.currency": "EUR"})
+    r = client.post(f"/sheets/{sid}", data=fields, headers=HX)
+    assert r.status_code == 200, r.text
+    stored = _doc(client, sid)
+    assert stored["energy"]["hours"] == "3000"
+    energy = analyse(stored).energy["pumping"][0]
+    page = client.get(f"/sheets/{sid}").text
+    assert 'id="energy-results"' in page and f"{energy['energy_Wh'] / 1000:,.0f} kWh" in page
+    assert f"{energy['cost']:,.0f} EUR" in page
+    record = client.get(f"/sheets/{sid}/record").text
+    assert "Pumping energy and cost" in record and f"{energy['energy_Wh'] / 1000:,.0f} kWh" in record
+    path = tmp_path / "energy.json"
+    path.write_text(__import__("json").dumps(stored))
+    from server.cli import main
+    assert main(["solve", str(path)]) == 0
+    assert "pumping 3,000 h" in capsys.readouterr().out
+
+
+def test_a_flow_duration_table_is_built_on_the_page(client):
+    doc = gravity_line()
+    doc["elements"].append({"kind": "turbine", "label": "T", "mode": "flow", "flow": "30 L/s", "efficiency": "0.85"})
+    sid = _create(client, form_ready(doc))
+    for _ in range(2):
+        client.post(f"/sheets/{sid}", data={**form_fields(client.get(f"/sheets/{sid}").text),
+                                            "action": "add:energy.flow_duration"}, headers=HX)
+    fields = form_fields(client.get(f"/sheets/{sid}").text)
+    fields.update({"energy.flow_duration.0.exceedance": "10 %", "energy.flow_duration.0.flow": "50 L/s",
+                   "energy.flow_duration.1.exceedance": "90 %", "energy.flow_duration.1.flow": "10 L/s"})
+    r = client.post(f"/sheets/{sid}", data=fields, headers=HX)
+    assert r.status_code == 200, r.text
+    stored = _doc(client, sid)
+    assert len(stored["energy"]["flow_duration"]) == 2
+    (h,) = analyse(stored).energy["hydro"]
+    assert h["energy_Wh"] > 0
+    assert "Turbine energy from the flow-duration table" in client.get(f"/sheets/{sid}").text
+
+
+def test_the_sizes_page_compares_every_size_for_every_case(client):
+    doc = _pump_doc()
+    doc["cases"] = [{"name": "Tank high", "end": {"elevation": "98 m"}}]
+    sid = _create(client, form_ready(doc))
+    page = client.get(f"/sheets/{sid}").text
+    link = html.unescape(re.search(r'href="([^"]*/sizes)"', page).group(1))
+    assert client.get(link).status_code == 200
+    r = client.get(link, params={"go": "1", "standard": "pe-iso4427", "class": "SDR11", "from": "140", "to": "200",
+                                 "runs": "2", "costs": "140=30, 160=38, 180=47, 200=58", "life": "25"})
+    assert r.status_code == 200, r.text
+    table = re.search(r'<table class="data sizes-table">.*?</table>', r.text, re.S).group(0)
+    from calc.sizing import compare
+    expected = compare(_doc(client, sid), "pe-iso4427", "SDR11", [1], "140", "200",
+                       {"140": 30, "160": 38, "180": 47, "200": 58}, 25)
+    for row in expected["rows"]:
+        assert f'<th scope="row">{row["nominal"]}</th>' in table
+        assert quantity(row["cases"][1]["Q"], "flow") in table
+    assert f'<tr class="design"><th scope="row">{expected["cheapest"]}</th>' in table
+    bad = client.get(link, params={"go": "1", "standard": "pe-iso4427", "class": "SDR11", "costs": "lots"})
+    assert bad.status_code == 200 and "is not a nominal size and a cost" in html.unescape(bad.text)
+    assert client.get(link, params={"go": "1", "standard": "nope"}).status_code == 200

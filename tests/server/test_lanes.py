@@ -41,6 +41,7 @@ def sizes(table: dict):
     ("/sheets/3/revisions/1/record.pdf", 0, True),
     ("/sheets/3/compare", 0, True),
     ("/sheets/3/export.json", 0, True),
+    ("/sheets/3/revisions/1/sizes", 0, True),         # a size comparison solves the sheet once a size
     ("/sheets/9/revisions/4/signatures", 0, False),   # sign-off never: its limits count per client here
     ("/sheets/9/links", 0, False),
     ("/sheets/9/archive", 0, False),

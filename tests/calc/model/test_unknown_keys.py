@@ -130,6 +130,8 @@ def test_the_published_schema_lists_exactly_the_keys_the_parser_reads():
     assert _props(defs["fitting"]) == set(cs.FITTING_FIELDS)
     assert _props(defs["profile_point"]) == set(cs.PROFILE_POINT_FIELDS)
     assert _props(defs["curve_point"]) == set(cs.CURVE_POINT_FIELDS)
+    assert _props(s["properties"]["energy"]) == set(cs.ENERGY_FIELDS)
+    assert _props(s["properties"]["energy"]["properties"]["flow_duration"]["items"]) == set(cs.FDC_POINT_FIELDS)
     case = defs["case"]
     assert _props(case) == set(cs.CASE_FIELDS)
     for which in ("start", "end"):
