@@ -128,17 +128,20 @@ def main() -> None:
 
 def cases_figures(examples: Path) -> None:
     """A sheet with 8 operating cases against the same sheet alone: every case solved with its checks and
-    band. The text-to-value memo of the unit parser is emptied before each timed call, so every call parses
-    as the first edit of a fresh process does (the same strings within one sheet still parse once)."""
+    band. The memos of the unit parser (text to value) and of the machine curves (points to coefficients)
+    are emptied before each timed call, so every call parses as the first edit of a fresh process does
+    (within one sheet the same strings and curves still parse once, which is the memos' point)."""
     import json
 
     from sheet_cases import with_cases
 
     from calc import units
+    from calc.model import elements
 
     def cold(doc):
         def run():
             units._PARSED.clear()
+            elements._pchip.cache_clear()
             return analyse(doc)
         return run
 

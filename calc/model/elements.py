@@ -11,6 +11,7 @@ from __future__ import annotations
 import bisect
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -78,6 +79,22 @@ class Fitting:
 EXTRAPOLATION_LIMIT = 0.20
 
 
+@lru_cache(maxsize=512)
+def _pchip(pairs: tuple) -> tuple:
+    """The shape-preserving cubic through ``pairs`` (flow, value), as scipy builds it: the points, the
+    coefficients per interval and the end slopes. Kept by points: every case of a sheet parses the same
+    machine curves again, and scipy takes some 0.3 ms a curve (the arrays are never written to)."""
+    from scipy.interpolate import PchipInterpolator  # imported here: the parser loads this module
+
+    x = np.asarray([q for q, _ in pairs])
+    pp = PchipInterpolator(x, np.asarray([v for _, v in pairs]), extrapolate=False)
+    c = np.ascontiguousarray(pp.c.T)  # one row (c3, c2, c1, c0) per interval
+    x.flags.writeable = False
+    c.flags.writeable = False
+    d = pp.derivative()
+    return x, c, tuple(tuple(float(v) for v in row) for row in c), float(d(x[0])), float(d(x[-1]))
+
+
 @dataclass
 class Curve:
     """A machine curve y(Q) through the typed points: a shape-preserving cubic between them, straight beyond.
@@ -99,19 +116,10 @@ class Curve:
     y: list[float]
 
     def __post_init__(self):
-        from scipy.interpolate import PchipInterpolator  # imported here: the parser loads this module
-
-        pairs = sorted(zip((float(q) for q in self.Q), (float(v) for v in self.y)))
+        pairs = tuple(sorted(zip((float(q) for q in self.Q), (float(v) for v in self.y))))
         self.Q = [q for q, _ in pairs]
         self.y = [v for _, v in pairs]
-        x = np.asarray(self.Q)
-        pp = PchipInterpolator(x, np.asarray(self.y), extrapolate=False)
-        self._x = x
-        self._c = np.ascontiguousarray(pp.c.T)  # one row (c3, c2, c1, c0) per interval
-        self._rows = [tuple(float(v) for v in row) for row in self._c]
-        d = pp.derivative()
-        self.slope_start = float(d(x[0]))
-        self.slope_end = float(d(x[-1]))
+        self._x, self._c, self._rows, self.slope_start, self.slope_end = _pchip(pairs)
 
     def __call__(self, Q):
         x = self._x
