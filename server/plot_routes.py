@@ -52,12 +52,16 @@ def _file_name(document: dict, sheet_id: int, number: int, name: str) -> str:
     return f"{calc or f'sheet-{sheet_id}'}-rev-{number}-{name}.svg"
 
 
-def _plot_file(request: Request, sheet_id: int, number: int, name: str) -> tuple[str, str] | None:
-    """(SVG text, file name) of one plot of a stored revision, or None when that revision has no such plot."""
+def _solved(request: Request, sheet_id: int, number: int) -> tuple[dict, Any]:
+    """A stored revision's document and its (cached) analysis."""
     store: Store = request.app.state.store
     rev = store.revision(sheet_id, number)  # SheetNotFound: the app answers 404
-    document = rev.document
-    outcome = request.app.state.solver.solve(document)
+    return rev.document, request.app.state.solver.solve(rev.document)
+
+
+def _plot_file(request: Request, sheet_id: int, number: int, name: str) -> tuple[str, str] | None:
+    """(SVG text, file name) of one plot of a stored revision, or None when that revision has no such plot."""
+    document, outcome = _solved(request, sheet_id, number)
     analysis = outcome.analysis if outcome.ok else None
     plot = calc_plots.plot_named(analysis, name, units_of(document))
     if plot is None:
@@ -75,16 +79,18 @@ async def plot_svg(request: Request, sheet_id: int, number: int, name: str) -> R
                                   f"Revision {number} of sheet {sheet_id} has no plot called '{name[:40]}'.",
                                   request=request)
     svg, file_name = found
-    return Response(svg, media_type="image/svg+xml",
+    return _download(svg, "image/svg+xml", file_name)
+
+
+def _download(text: str, media_type: str, file_name: str) -> Response:
+    """A file to keep: never cached, never sniffed into another type."""
+    return Response(text, media_type=media_type,
                     headers={"Cache-Control": "no-store", "Content-Disposition": f'attachment; filename="{file_name}"',
                              "X-Content-Type-Options": "nosniff"})
 
 
 def _curve_file(request: Request, sheet_id: int, number: int) -> tuple[str, str] | None:
-    store: Store = request.app.state.store
-    rev = store.revision(sheet_id, number)  # SheetNotFound: the app answers 404
-    document = rev.document
-    outcome = request.app.state.solver.solve(document)
+    document, outcome = _solved(request, sheet_id, number)
     if not outcome.ok or outcome.analysis is None or outcome.analysis.solution is None:
         return None
     header = document.get("header") if isinstance(document.get("header"), dict) else {}
@@ -100,9 +106,7 @@ async def system_curve_csv(request: Request, sheet_id: int, number: int) -> Resp
                                   f"Revision {number} of sheet {sheet_id} has no solution to draw a system curve from.",
                                   request=request)
     text, file_name = found
-    return Response(text, media_type="text/csv; charset=utf-8",
-                    headers={"Cache-Control": "no-store", "Content-Disposition": f'attachment; filename="{file_name}"',
-                             "X-Content-Type-Options": "nosniff"})
+    return _download(text, "text/csv; charset=utf-8", file_name)
 
 
 _API_DOCS: dict[str, dict[str, Any]] = {}

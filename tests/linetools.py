@@ -28,3 +28,17 @@ def gravity_line() -> dict:
 def pump_curve(points=((0.0, 40.0), (20.0, 36.0), (40.0, 25.0))) -> list[dict]:
     """A pump's head-flow points as the sheet holds them, from (flow in L/s, head in m) pairs."""
     return [{"flow": f"{q:g} L/s", "head": f"{h:g} m", "efficiency": "", "npsh_required": ""} for q, h in points]
+
+
+def pumped_line(efficiencies=("0", "0.6", "0.75", "0.5")) -> dict:
+    """A pump lifting water 15 m (a sump at 80 m to a tank at 95 m) through the gravity line's 500 m of
+    150 mm steel, the pump first, its curve (0, 40), (20, 36), (40, 25), (60, 8) in L/s and m with the
+    efficiencies given at those points (the tests' own numbers)."""
+    doc = gravity_line()
+    doc["start"]["elevation"], doc["end"]["elevation"] = "80 m", "95 m"
+    doc["elements"][0]["end_elevation"] = "93 m"
+    points = pump_curve(((0, 40), (20, 36), (40, 25), (60, 8)))
+    for pt, eta in zip(points, efficiencies):
+        pt["efficiency"] = eta
+    doc["elements"].insert(0, {"kind": "pump", "label": "P", "mode": "curve", "curve": points})
+    return doc

@@ -160,6 +160,15 @@ def impulse_duty(line, gross: float, point: dict) -> dict | None:
     return duty
 
 
+def penstock_loss_words(loss: float, within: str = ", within the 5-10 % commonly aimed for.") -> tuple[str, str]:
+    """The severity of a share ``loss`` of the gross head lost in the line, and the words that end its finding."""
+    if loss > PENSTOCK_LOSS_WARNING:
+        return "warning", ": more than about 15 %, which wastes water; a larger bore pays back."
+    if loss > PENSTOCK_LOSS_CAUTION:
+        return "caution", ": above the 5-10 % commonly aimed for."
+    return "info", within if within and loss >= 0.05 else "."
+
+
 def impulse_findings(line: Line, solution: Solution, point: dict) -> list[Finding]:
     """The impulse turbine an end jet drives: its duty, and the share of the gross head the line loses."""
     d = impulse_duty(line, solution.static_head, point)
@@ -176,12 +185,7 @@ def impulse_findings(line: Line, solution: Solution, point: dict) -> list[Findin
         loss = d["loss_share"]
         text = (f"The line loses {loss * 100:.1f} % of the gross head ({u(d['loss'], 'head', '.2f')} of "
                 f"{u(d['gross'], 'head', '.2f')}) before the nozzle")
-        if loss > PENSTOCK_LOSS_WARNING:
-            sev, tail = "warning", ": more than about 15 %, which wastes water; a larger bore pays back."
-        elif loss > PENSTOCK_LOSS_CAUTION:
-            sev, tail = "caution", ": above the 5-10 % commonly aimed for."
-        else:
-            sev, tail = "info", "."
+        sev, tail = penstock_loss_words(loss, within="")
         out.append(Finding(sev, "impulse-head-loss", "Impulse turbine: head lost in the line", text + tail,
                            loss, PENSTOCK_LOSS_CAUTION, None, SRC_PENSTOCK))
     return out
@@ -209,12 +213,7 @@ def turbine_findings(line: Line, solution: Solution, point: dict) -> list[Findin
             loss = (gross - machine_heads) / gross
             text = (f"The line loses {loss * 100:.1f} % of the gross head ({u(gross - machine_heads, 'head', '.2f')} of "
                     f"{u(gross, 'head', '.2f')}) at the design point")
-            if loss > PENSTOCK_LOSS_WARNING:
-                sev, tail = "warning", ": more than about 15 %, which wastes water; a larger bore pays back."
-            elif loss > PENSTOCK_LOSS_CAUTION:
-                sev, tail = "caution", ": above the 5-10 % commonly aimed for."
-            else:
-                sev, tail = "info", ", within the 5-10 % commonly aimed for." if loss >= 0.05 else "."
+            sev, tail = penstock_loss_words(loss)
             out.append(Finding(sev, "turbine-head-loss", f"{name}: head lost in the line", text + tail,
                                None, None, None, SRC_PENSTOCK, i))
         m = next((m for m in solution.machines if m["index"] == i), None)

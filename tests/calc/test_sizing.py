@@ -7,7 +7,7 @@ import math
 import pytest
 from CoolProp.CoolProp import PropsSI
 from fluids.friction import Colebrook
-from linetools import gravity_line, pump_curve
+from linetools import gravity_line, pumped_line
 from scipy.optimize import brentq
 
 from calc import tables
@@ -41,13 +41,7 @@ def test_each_size_gives_the_flow_of_an_independent_solve():
 
 
 def _pumped() -> dict:
-    doc = gravity_line()
-    doc["start"]["elevation"], doc["end"]["elevation"] = "80 m", "95 m"
-    doc["elements"][0]["end_elevation"] = "93 m"
-    points = pump_curve(((0, 40), (20, 36), (40, 25), (60, 8)))
-    for pt, eta in zip(points, ("0", "0.6", "0.75", "0.5")):
-        pt["efficiency"] = eta
-    doc["elements"].insert(0, {"kind": "pump", "label": "P", "mode": "curve", "curve": points})
+    doc = pumped_line()
     doc["energy"] = {"hours": "4000", "tariff": "0.2", "currency": "EUR", "motor_efficiency": "0.9"}
     ensure_ids(doc)
     doc["cases"] = [{"name": "Summer", "hours": "1000", "end": {"elevation": "97 m"}}]

@@ -14,7 +14,7 @@ import math
 import pytest
 from CoolProp.CoolProp import PropsSI
 from fluids.friction import Colebrook
-from linetools import gravity_line, pump_curve
+from linetools import gravity_line, pumped_line
 from scipy.integrate import quad
 
 from calc.analysis import analyse
@@ -70,13 +70,7 @@ def test_annual_energy_against_a_hand_integration_of_a_small_table():
 
 
 def _pump_doc() -> dict:
-    doc = gravity_line()
-    doc["start"]["elevation"], doc["end"]["elevation"] = "80 m", "95 m"
-    doc["elements"][0]["end_elevation"] = "93 m"
-    points = pump_curve(((0, 40), (20, 36), (40, 25), (60, 8)))
-    for pt, eta in zip(points, ("0", "0.6", "0.75", "0.5")):
-        pt["efficiency"] = eta
-    doc["elements"].insert(0, {"kind": "pump", "label": "P", "mode": "curve", "curve": points})
+    doc = pumped_line()
     doc["energy"] = {"hours": "3000", "tariff": "0.2", "currency": "EUR", "motor_efficiency": "0.9"}
     ensure_ids(doc)
     doc["cases"] = [{"name": "Summer", "hours": "1500", "end": {"elevation": "97 m"}}, {"name": "No hours"}]
