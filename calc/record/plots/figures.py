@@ -280,6 +280,20 @@ def head_flow_plot(systems: list[S.SystemCurve], machines: list[S.CurveSeries], 
     return chart
 
 
+def case_machine_curves(analysis, Q) -> list[S.CurveSeries]:
+    """The base's machine curves, and each case's where its machines differ (other units running, another
+    speed), named by the case, so that every case's operating point lies on a curve drawn."""
+    out = S.machine_curves(analysis.line, Q)
+    for case in (getattr(analysis, "cases", None) or [])[1:]:
+        for c in S.machine_curves(case.line, Q):
+            if not any(o.index == c.index and o.y.shape == c.y.shape and np.allclose(o.y, c.y, rtol=1e-12,
+                                                                                     atol=1e-12) for o in out):
+                c.name = f"{c.name} ({case.name})"
+                c.in_total = False
+                out.append(c)
+    return out
+
+
 def curves_plot(analysis, system: str = "SI") -> Plot | None:
     """System curve(s), each machine's curve, their sum, and every operating point."""
     sol = analysis.solution
@@ -289,7 +303,7 @@ def curves_plot(analysis, system: str = "SI") -> Plot | None:
     axis, Q = _flow_axis(analysis, u)
     line = analysis.line
     systems = S.system_curves(analysis, Q)
-    chart = head_flow_plot(systems, S.machine_curves(line, Q), u, axis, S.sign_of(line))
+    chart = head_flow_plot(systems, case_machine_curves(analysis, Q), u, axis, S.sign_of(line))
     pts = "; ".join(f"{m.label}: Q = {u.flow(m.Q)}" for s in systems for m in s.points) or "none"
     caption = ("The system curve and each machine's curve; the line runs where they cross. Typed curve points are "
                f"marked; a dashed curve is carried on past them. Operating points: {pts}.")
@@ -302,6 +316,26 @@ def _duty(sol, i: int, key: str) -> list[tuple[int, dict, float]]:
         v = p["elements"][i].get(key)
         if v is not None and math.isfinite(v):
             out.append((k, p, v))
+    return out
+
+
+def _points(analysis, i: int, key: str, with_line: bool = False) -> list[tuple]:
+    """The operating points to mark on a machine's curve: each operating point of a sheet without cases
+    ((label, point, value)), or each case's design point named by the case, for the cases whose machine
+    ``i`` runs as the base's does (the curve drawn is the base's; the others are in the case table)."""
+    cases = getattr(analysis, "cases", None) or []
+    if len(cases) < 2:
+        out = [(S.point_label(k, p), p, v) for k, p, v in _duty(analysis.solution, i, key)]
+        return [(*o, analysis.line) for o in out] if with_line else out
+    base = analysis.line.elements[i]
+    out = []
+    for c in cases:
+        el, p = c.line.elements[i], c.solution.design
+        same = getattr(el, "in_parallel", 1) == getattr(base, "in_parallel", 1) and \
+            getattr(el, "speed_ratio", 1.0) == getattr(base, "speed_ratio", 1.0)
+        v = p["elements"][i].get(key) if p is not None else None
+        if same and v is not None and math.isfinite(v):
+            out.append((c.name, p, v, c.line) if with_line else (c.name, p, v))
     return out
 
 
@@ -346,8 +380,7 @@ def efficiency_plot(analysis, system: str = "SI") -> Plot | None:
             chart.marker(q_bep * u.kq, eta * 100, colour, "square",
                          f"{name}: best efficiency {eta * 100:.1f} % at {u.flow(q_bep)}", "BEP", cls="point bep",
                          priority=1)
-        for k, p, eta in _duty(sol, c.index, "efficiency"):
-            label = S.point_label(k, p)
+        for label, p, eta in _points(analysis, c.index, "efficiency"):
             chart.marker(p["Q"] * u.kq, eta * 100, COLOURS["point"], "dot",
                          f"{name}, point {label}: {u.flow(p['Q'])}, efficiency {eta * 100:.1f} %", label)
     chart.key("Typed curve points", MACHINE_COLOURS[0], kind="ring")
@@ -389,9 +422,8 @@ def npsh_plot(analysis, system: str = "SI") -> Plot | None:
             chart.key(f"{name}: margin, NPSHA ≥ max({settings.npsh_margin_ratio:g} NPSHR, "
                       f"NPSHR + {settings.npsh_margin_min * u.kh:.3g} {u.h})", COLOURS["margin"], "3 3")
         _draw_curve(chart, c, colour, u, u.kq, u.kh, name, u.h, "NPSH required")
-        for k, p, r in _duty(sol, c.index, "npsh_required"):
-            label = S.point_label(k, p)
-            na = float(S.npsh_available(line, c.index, np.array([p["Q"]]))[0])
+        for label, p, r, case_line in _points(analysis, c.index, "npsh_required", with_line=True):
+            na = float(S.npsh_available(case_line, c.index, np.array([p["Q"]]))[0])
             chart.marker(p["Q"] * u.kq, na * u.kh, COLOURS["point"], "dot",
                          f"{name}, point {label}: NPSH available {u.head(na)} at {u.flow(p['Q'])}", label)
             chart.marker(p["Q"] * u.kq, r * u.kh, COLOURS["point"], "square",
