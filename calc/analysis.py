@@ -113,7 +113,10 @@ def solve_case(name: str, line: Line, settings: CheckSettings, changes=(), note:
              + valves.valve_findings(line, settled.valves))
     if extra:
         findings = sorted(extra + findings, key=lambda f: SEVERITIES.index(f.severity))
-    summary = summary_of(line, solution.to_dict(), settings) if solution.design is not None else None
+    # The summary reads the solution's own lists (no JSON-safe copy: it copies out only the figures it gives).
+    light = {"static_head": solution.static_head, "method": solution.method, "log": solution.log,
+             "points": solution.points, "design_index": solution.design_index, "machines": solution.machines}
+    summary = summary_of(line, light, settings) if solution.design is not None else None
     return CaseResult(name, line, solution, findings, band, summary, list(changes), note, settled.speeds,
                       settled.turbines, settled.valves)
 

@@ -264,6 +264,8 @@ class PipeRun:
     kind: str = "pipe"
     _cache_key: tuple | None = field(default=None, repr=False, compare=False)
     _cache: tuple | None = field(default=None, repr=False, compare=False)
+    _k_key: tuple | None = field(default=None, repr=False, compare=False)
+    _k: tuple | None = field(default=None, repr=False, compare=False)
 
     @property
     def A(self) -> float:
@@ -281,11 +283,15 @@ class PipeRun:
     def constants(self) -> tuple:
         """(1/A, D, eps/D, L/D, K_A, K_B): what the head needs besides the flow, worked out once."""
         D = self.D
-        key = (D, self.L, self.eps,
-               tuple((ft.model, ft.count, *sorted(ft.params.items())) for ft in self.fittings))
+        # The fittings by identity and a cone's K (the implied losses work it out in place from the bores on
+        # either side, which another run's resizing changes): a tuple of ids and K, not every parameter.
+        k_key = (D, tuple((id(ft), ft.derived_K) for ft in self.fittings))
+        key = (self.L, self.eps, k_key)
         if self._cache_key != key:
+            if self._k_key != k_key:  # kept apart: a copy with another roughness keeps its fittings' K
+                self._k_key, self._k = k_key, self.K_coefficients()
             self._cache_key = key
-            self._cache = (4.0 / (math.pi * D * D), D, self.eps / D, self.L / D, *self.K_coefficients())
+            self._cache = (4.0 / (math.pi * D * D), D, self.eps / D, self.L / D, *self._k)
         return self._cache
 
     def head(self, Q: float, fluid: Fluid) -> float:

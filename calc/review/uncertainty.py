@@ -9,7 +9,7 @@ branch nearest the nominal flow. So a band costs about as much as one or two ful
 
 from __future__ import annotations
 
-import dataclasses
+import copy
 import math
 
 from scipy.optimize import brentq
@@ -60,12 +60,15 @@ def _scaled_fitting(ft: Fitting, factor: float) -> Fitting:
     """A fitting with its K scaled; an exit keeps K = 1, which is physics (the velocity head leaves), not data."""
     if ft.key.startswith("exit"):
         return ft
+    out = copy.copy(ft)  # a copy, not dataclasses.replace: the band makes thousands, and replace re-runs __init__
     if ft.model == "cone":
-        return dataclasses.replace(ft, derived_K=(ft.derived_K or 0.0) * factor)
+        out.derived_K = (ft.derived_K or 0.0) * factor
+        return out
     params = dict(ft.params)
     for key in _K_PARAMS.get(ft.model, ()):
         params[key] = params[key] * factor
-    return dataclasses.replace(ft, params=params)
+    out.params = params
+    return out
 
 
 def variant(line: Line, eps: list[float] | None = None, k_factor: float = 1.0,
@@ -77,14 +80,46 @@ def variant(line: Line, eps: list[float] | None = None, k_factor: float = 1.0,
         if isinstance(el, PipeRun):
             new_eps = next(runs) if runs is not None else el.eps
             fittings = el.fittings if k_factor == 1.0 else [_scaled_fitting(f, k_factor) for f in el.fittings]
-            el = dataclasses.replace(el, eps=new_eps, fittings=fittings, _cache_key=None, _cache=None)
+            el = copy.copy(el)
+            el.eps, el.fittings, el._cache_key, el._cache = new_eps, fittings, None, None
         elif isinstance(el, Valve) and k_factor != 1.0:
-            el = dataclasses.replace(el, K=el.K * k_factor)
+            el = copy.copy(el)
+            el.K = el.K * k_factor
         elements.append(el)
-    return dataclasses.replace(line, elements=elements, method=method or line.method)
+    out = copy.copy(line)
+    out.elements, out.method = elements, method or line.method
+    return out
 
 
 # ----------------------------------------------------------------------------- re-solve near the design point
+
+def _secant(E, Q0: float, e0: float, slope0: float, sign: float) -> float | None:
+    """The root near Q0 by the secant method from a Newton step on the nominal slope, to 1e-12 of the flow;
+    None unless it converges within a few steps, on the same branch (dE/dQ of the same sign) and within
+    half the flow of Q0 (a variant moves the answer a little; anything else is left to the bracket)."""
+    if slope0 == 0.0 or not math.isfinite(slope0):
+        return None
+    a, fa = Q0, e0
+    b = Q0 - e0 / slope0
+    if not b > 0.0:
+        return None
+    fb = E(b)
+    for _ in range(10):
+        if not math.isfinite(fb):
+            return None
+        if fb == 0.0 or abs(b - a) <= 1e-12 * abs(b):
+            slope = (fb - fa) / (b - a) if b != a else slope0
+            if slope * sign > 0.0 and abs(b - Q0) <= 0.5 * Q0:
+                return b
+            return None
+        if fb == fa:
+            return None
+        c = b - fb * (b - a) / (fb - fa)
+        if not c > 0.0:
+            return None
+        a, fa, b, fb = b, fb, c, E(c)
+    return None
+
 
 def root_near(line: Line, Q0: float, slope0: float) -> tuple[float | None, int]:
     """The operating point of ``line`` on the branch of the nominal design point (Q0, slope0 = dE/dQ there).
@@ -96,6 +131,9 @@ def root_near(line: Line, Q0: float, slope0: float) -> tuple[float | None, int]:
     if e0 == 0.0:
         return Q0, 0
     sign = 1.0 if slope0 > 0 else -1.0
+    Q = _secant(E, Q0, e0, slope0, sign)
+    if Q is not None:
+        return Q, 0
     Q_lo, Q_hi = scan_range(line)
     if slope0 != 0.0 and math.isfinite(slope0):
         step = -1.5 * e0 / slope0
