@@ -30,6 +30,11 @@ from calc.model.fields import (
 )
 from calc.model.reader import Reader
 
+#: A case's element fields in words, for the record and the case table.
+_WORDS = {"speed_ratio": "speed ratio", "running": "units running", "target_flow": "target flow",
+          "target_head": "target head", "power": "shaft power", "flow": "set flow", "head": "head",
+          "opening": "opening", "set_pressure": "set pressure"}
+
 #: The name the base sheet goes by beside its cases.
 BASE_NAME = "Base"
 
@@ -169,7 +174,8 @@ def _elements(r: Reader, c: dict, path: str, by_id: dict, case: CaseRead) -> Non
         label = element.get("label") or ident
         for key in allowed:
             if key in values:
-                case.changes.append(Change(f"{rp}.{key}", (("elements", k, key),), values[key], f"{label}: {key}"))
+                case.changes.append(Change(f"{rp}.{key}", (("elements", k, key),), values[key],
+                                           f"{label}: {_WORDS.get(key, key)}"))
 
 
 def overlay(doc: dict, case: CaseRead) -> dict:

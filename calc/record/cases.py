@@ -16,6 +16,8 @@ def _value(v, kind: str, system: str) -> str:
         return str(v)
     if kind == "percent":
         return f"{v * 100:.1f} %"
+    if kind == "ratio":
+        return f"{v:.4g}"
     return shown(v, kind, system)
 
 

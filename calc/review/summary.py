@@ -247,6 +247,16 @@ def case_figures(a) -> list[dict]:
             row(f"{name}: shaft power", "power", lambda c, sm, d=duty: d(sm, "power_shaft"))
             row(f"{name}: efficiency", "percent", lambda c, sm, d=duty: d(sm, "efficiency"))
             row(f"{name}: gross head lost in the line", "percent", lambda c, sm, d=duty: d(sm, "loss_share"))
+    # What each case's settings came to: a pump's solved speed, a valve's opening or K for its target.
+    for a_ in (a.cases[0].speeds if a.cases else []):
+        row(f"{a_.label}: speed ratio (solved)", "ratio",
+            lambda c, sm, i=a_.index: next((x.n for x in c.speeds if x.index == i), None))
+    for v in (a.cases[0].valve_settings if a.cases else []):
+        opening = v.opening is not None
+        row(f"{v.label}: {'opening' if opening else 'loss coefficient K'} (set for its target)",
+            "percent" if opening else "ratio",
+            lambda c, sm, i=v.index, o=opening: next(((x.opening if o else x.K) for x in c.valve_settings
+                                                      if x.index == i), None))
     row("Highest pressure", "pressure", lambda c, sm: (sm.get("pressure_high") or {}).get("pressure"),
         lambda c, sm: _where(sm.get("pressure_high")))
     row("Lowest pressure (absolute)", "pressure", lambda c, sm: (sm.get("pressure_low") or {}).get("pressure_abs"),

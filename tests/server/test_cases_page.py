@@ -165,7 +165,7 @@ def test_the_api_solves_every_case(client):
     q = [c["solution"]["points"][c["solution"]["design_index"]]["Q"] for c in body["cases"]]
     assert q[1] < q[0]
     assert body["governing"] and body["findings"]
-    assert body["cases"][1]["changes"] == [{"field": "cases.0.elements.0.running", "what": "Lift: running",
+    assert body["cases"][1]["changes"] == [{"field": "cases.0.elements.0.running", "what": "Lift: units running",
                                             "value": 1}]
 
 

@@ -115,3 +115,15 @@ def test_a_fixed_head_pump_has_no_speed_to_solve():
     doc = _sheet(15.0, speed_control="flow", target_flow="9 L/s")
     doc["elements"][0].update(mode="head", head="30 m")
     assert "no speed to solve" in parse(doc).errors_by_path()["elements.0.speed_control"]
+
+
+def test_the_case_table_gives_each_cases_solved_speed():
+    from calc.review.summary import case_figures
+
+    doc = _sheet(15.0, speed_control="flow", target_flow="20 L/s")
+    doc["cases"] = [{"name": "Peak", "elements": [{"id": "pump-1", "target_flow": "30 L/s"}]}]
+    a = analyse(doc)
+    row = next(r for r in case_figures(a) if r["label"] == "P: speed ratio (solved)")
+    assert row["values"] == [c.speeds[0].n for c in a.cases] and row["values"][0] < row["values"][1]
+    changes = next(r for r in case_figures(a) if r["label"] == "Changes from the base")
+    assert changes["values"][1] == "P: target flow 30 L/s"
