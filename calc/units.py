@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 
 import pint
 
@@ -67,6 +68,7 @@ _US = {
 }
 
 
+@lru_cache(maxsize=64)
 def in_system(kind: Kind, system: str) -> Kind:
     """``kind`` with its example and suggested units in a sheet's unit system ("SI" or "US").
 

@@ -123,7 +123,7 @@ class Curve:
 
     def __call__(self, Q):
         x = self._x
-        if np.ndim(Q) == 0:
+        if isinstance(Q, float) or np.ndim(Q) == 0:  # a float first: Brent's method calls this per flow
             q = float(Q)
             if q <= x[0]:
                 return self.y[0] + self.slope_start * (q - x[0])
@@ -266,19 +266,31 @@ class PipeRun:
     _cache: tuple | None = field(default=None, repr=False, compare=False)
     _k_key: tuple | None = field(default=None, repr=False, compare=False)
     _k: tuple | None = field(default=None, repr=False, compare=False)
+    #: Every fitting's K times this but an exit's (whose K = 1 is physics): the range of the answer's K +/-.
+    k_factor: float = field(default=1.0, repr=False)
 
     @property
     def A(self) -> float:
         return math.pi * self.D * self.D / 4.0
 
     def K_coefficients(self) -> tuple[float, float]:
-        """(A, B) with the run's total fitting K = A / Re + B: each fitting's K has that form."""
-        A = B = 0.0
+        """(A, B) with the run's total fitting K = A / Re + B: each fitting's K has that form (``k_factor``
+        applied to all but the exits)."""
+        A, B, A_exit, B_exit = self._K_parts()
+        return A * self.k_factor + A_exit, B * self.k_factor + B_exit
+
+    def _K_parts(self) -> tuple[float, float, float, float]:
+        """(A, B) of the fittings but the exits, and (A, B) of the exits."""
+        A = B = A_exit = B_exit = 0.0
         for ft in self.fittings:
             a, b = ft.coefficients(self.D)
-            A += ft.count * a
-            B += ft.count * b
-        return A, B
+            if ft.key.startswith("exit"):
+                A_exit += ft.count * a
+                B_exit += ft.count * b
+            else:
+                A += ft.count * a
+                B += ft.count * b
+        return A, B, A_exit, B_exit
 
     def constants(self) -> tuple:
         """(1/A, D, eps/D, L/D, K_A, K_B): what the head needs besides the flow, worked out once."""
@@ -286,12 +298,14 @@ class PipeRun:
         # The fittings by identity and a cone's K (the implied losses work it out in place from the bores on
         # either side, which another run's resizing changes): a tuple of ids and K, not every parameter.
         k_key = (D, tuple((id(ft), ft.derived_K) for ft in self.fittings))
-        key = (self.L, self.eps, k_key)
+        kf = self.k_factor
+        key = (self.L, self.eps, kf, k_key)
         if self._cache_key != key:
-            if self._k_key != k_key:  # kept apart: a copy with another roughness keeps its fittings' K
-                self._k_key, self._k = k_key, self.K_coefficients()
+            if self._k_key != k_key:  # kept apart: a copy with another roughness or K factor keeps them
+                self._k_key, self._k = k_key, self._K_parts()
+            A, B, A_exit, B_exit = self._k
             self._cache_key = key
-            self._cache = (4.0 / (math.pi * D * D), D, self.eps / D, self.L / D, *self._k)
+            self._cache = (4.0 / (math.pi * D * D), D, self.eps / D, self.L / D, A * kf + A_exit, B * kf + B_exit)
         return self._cache
 
     def head(self, Q: float, fluid: Fluid) -> float:
@@ -359,8 +373,8 @@ class Turbine:
     def eta(self, Q):
         """Efficiency at Q: the typed curve (held within 0 to 1 where it is carried on), else the typed value."""
         if self.efficiency_curve is None:
-            return self.efficiency if np.isscalar(Q) else np.full_like(Q, self.efficiency)
-        return np.clip(self.efficiency_curve(Q), 0.0, 1.0) if not np.isscalar(Q) else \
+            return self.efficiency if isinstance(Q, float) or np.isscalar(Q) else np.full_like(Q, self.efficiency)
+        return np.clip(self.efficiency_curve(Q), 0.0, 1.0) if not (isinstance(Q, float) or np.isscalar(Q)) else \
             min(max(float(self.efficiency_curve(Q)), 0.0), 1.0)
 
     def head(self, Q: float, fluid: Fluid) -> float:
@@ -451,7 +465,7 @@ class Pump:
     def unit_head(self, Q):
         """One unit's head at the group's flow Q: n^2 H1(q/n), q the unit's flow (affinity laws)."""
         if self.mode == "head":
-            return self.fixed_head if np.isscalar(Q) else np.full_like(Q, self.fixed_head)
+            return self.fixed_head if isinstance(Q, float) or np.isscalar(Q) else np.full_like(Q, self.fixed_head)
         n = self.speed_ratio
         return n * n * self.curve(self.unit_flow(Q) / n)
 

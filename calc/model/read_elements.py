@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 from calc import tables
 from calc.model import valve_law
 from calc.model.elements import Curve, Fitting, PipeRun, Pump, Turbine, Valve
@@ -27,6 +29,18 @@ from calc.model.reader import Reader
 from calc.units import FLOW, LENGTH, POWER, PRESSURE, RATIO, Kind
 
 
+@lru_cache(maxsize=None)
+def _elsewhere(kind: str) -> dict[str, str]:
+    """For each key of another kind of element, the message saying whose it is (worked out once a kind)."""
+    own = ELEMENT_FIELDS[kind]
+    names: dict[str, list[str]] = {}
+    for other, fields in ELEMENT_FIELDS.items():
+        for k in fields:
+            if k not in own:
+                names.setdefault(k, []).append(ELEMENT_NAMES[other])
+    return {k: f"is a field of {' or '.join(n)}, not of {ELEMENT_NAMES[kind]}" for k, n in names.items()}
+
+
 def known_element_keys(r: Reader, e: dict, path: str, kind):
     """Refuse the keys an element of its kind does not have, naming the kind a key belongs to if another."""
     if not isinstance(kind, str) or kind not in ELEMENT_FIELDS:  # the kind itself is refused; a key of no kind at all is refused too
@@ -34,13 +48,7 @@ def known_element_keys(r: Reader, e: dict, path: str, kind):
         r.known(e, path, every, "any element")
         return
     own = ELEMENT_FIELDS[kind]
-    elsewhere = {}
-    for other, fields in ELEMENT_FIELDS.items():
-        for k in fields:
-            if k not in own:
-                elsewhere.setdefault(k, []).append(ELEMENT_NAMES[other])
-    r.known(e, path, own, ELEMENT_NAMES[kind],
-            {k: f"is a field of {' or '.join(names)}, not of {ELEMENT_NAMES[kind]}" for k, names in elsewhere.items()})
+    r.known(e, path, own, ELEMENT_NAMES[kind], _elsewhere(kind))
     points = e.get("curve")
     if "curve" in own and isinstance(points, list) and len(points) <= MAX_POINTS:
         # Every mode's curve points, read or not (the points stay when the mode changes).

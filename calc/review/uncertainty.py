@@ -15,12 +15,11 @@ import math
 from scipy.optimize import brentq
 
 from calc import friction
-from calc.model.elements import Fitting, Line, PipeRun, Pump, Turbine, Valve
+from calc.model.elements import Line, PipeRun, Pump, Turbine, Valve
 from calc.model.settings import CheckSettings
 from calc.steady.series import Solution, find_roots, make_residual, residual_array, scan_range
 
 #: Parameters of a fitting's loss model that scale its K value (K is linear in each set).
-_K_PARAMS = {"k": ("K",), "2k": ("K1", "Kinf"), "3k": ("K1", "Ki")}
 
 SOURCE = ("re-solves of this line: roughness new to aged (material table) or as set, fitting and valve K "
           "values +/- the percentage set (default 20 %, common practice; an exit's K = 1 is held), and each "
@@ -56,21 +55,6 @@ def roughness_range(run: PipeRun, s: CheckSettings) -> tuple[float, float, str]:
     return min(lo, cap), min(hi, cap), note
 
 
-def _scaled_fitting(ft: Fitting, factor: float) -> Fitting:
-    """A fitting with its K scaled; an exit keeps K = 1, which is physics (the velocity head leaves), not data."""
-    if ft.key.startswith("exit"):
-        return ft
-    out = copy.copy(ft)  # a copy, not dataclasses.replace: the band makes thousands, and replace re-runs __init__
-    if ft.model == "cone":
-        out.derived_K = (ft.derived_K or 0.0) * factor
-        return out
-    params = dict(ft.params)
-    for key in _K_PARAMS.get(ft.model, ()):
-        params[key] = params[key] * factor
-    out.params = params
-    return out
-
-
 def variant(line: Line, eps: list[float] | None = None, k_factor: float = 1.0,
             method: str | None = None) -> Line:
     """A copy of the line with each run's roughness, every K scaled, or another friction method."""
@@ -79,9 +63,8 @@ def variant(line: Line, eps: list[float] | None = None, k_factor: float = 1.0,
     for el in line.elements:
         if isinstance(el, PipeRun):
             new_eps = next(runs) if runs is not None else el.eps
-            fittings = el.fittings if k_factor == 1.0 else [_scaled_fitting(f, k_factor) for f in el.fittings]
-            el = copy.copy(el)
-            el.eps, el.fittings, el._cache_key, el._cache = new_eps, fittings, None, None
+            el = copy.copy(el)  # the fittings stay: the run scales their K (but an exit's) by its k_factor
+            el.eps, el.k_factor, el._cache_key, el._cache = new_eps, el.k_factor * k_factor, None, None
         elif isinstance(el, Valve) and k_factor != 1.0:
             el = copy.copy(el)
             el.K = el.K * k_factor

@@ -251,8 +251,11 @@ def test_variant_scales_every_k_model():
     run, run2 = line.elements[0], v.elements[0]
     keys = [f.key for f in run.fittings]
     assert keys == ["entrance-sharp", "2k", "3k"], keys  # the valve comes last: no exit on the run
-    for f1, f2 in zip(run.fittings, run2.fittings):
-        assert f2.K(1e5, 0.15) == pytest.approx(1.25 * f1.K(1e5, 0.15), rel=1e-12)
+    # the run's total K, what its head uses, at several Reynolds numbers: the sum of each fitting's K
+    # (Hooper's and Darby's forms, tables.k_coefficients) times 1.25
+    for Re in (2e4, 1e5, 1e6):
+        A2, B2 = run2.K_coefficients()
+        assert A2 / Re + B2 == pytest.approx(1.25 * sum(f.count * f.K(Re, run.D) for f in run.fittings), rel=1e-12)
     assert v.elements[1].K == pytest.approx(2.5)
     # the nominal line keeps its values
     assert run.fittings[1].params == {"K1": 800.0, "Kinf": 0.25} and line.elements[1].K == 2.0
@@ -261,8 +264,12 @@ def test_variant_scales_every_k_model():
 def test_variant_holds_the_exit_at_one():
     line = line_of(gravity_doc())
     v = uncertainty.variant(line, k_factor=0.8)
-    exits = [f for f in v.elements[0].fittings if f.key == "exit"]
-    assert len(exits) == 1 and exits[0].K(1e5, 0.15) == 1.0
+    run, run2 = line.elements[0], v.elements[0]
+    exits = [f for f in run.fittings if f.key == "exit"]
+    assert len(exits) == 1 and exits[0].K(1e5, run.D) == 1.0
+    others = sum(f.count * f.K(1e5, run.D) for f in run.fittings if f.key != "exit")
+    A2, B2 = run2.K_coefficients()
+    assert A2 / 1e5 + B2 == pytest.approx(0.8 * others + 1.0, rel=1e-12)
 
 
 def transitional_doc():
