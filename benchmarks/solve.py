@@ -128,8 +128,8 @@ def main() -> None:
 
 def cases_figures(examples: Path) -> None:
     """A sheet with 8 operating cases against the same sheet alone: every case solved with its checks and
-    band. The memos of the unit parser (text to value) and of the machine curves (points to coefficients)
-    are emptied before each timed call, so every call parses as the first edit of a fresh process does
+    band. The memos of the unit parser (text to value, unit to factor) and of the machine curves (points
+    to coefficients) are emptied before each timed call, so every call parses as the first edit of a fresh process does
     (within one sheet the same strings and curves still parse once, which is the memos' point)."""
     import json
 
@@ -141,6 +141,7 @@ def cases_figures(examples: Path) -> None:
     def cold(doc):
         def run():
             units._PARSED.clear()
+            units._factor.cache_clear()
             elements._pchip.cache_clear()
             return analyse(doc)
         return run

@@ -210,6 +210,24 @@ _PARSED: dict[tuple[str, str], float] = {}
 PARSED_KEPT = 20000
 
 
+#: `_factor`'s answer for a unit of another kind of quantity than the field's.
+_WRONG_KIND = object()
+
+
+@lru_cache(maxsize=512)
+def _factor(spelled: str, si: str):
+    """The factor from the unit ``spelled`` to ``si`` (a unit with no offset), None for no unit pint knows,
+    `_WRONG_KIND` for a unit of another kind; typed values share it, so pint parses each unit once."""
+    try:
+        q = Q_(1.0, spelled)
+    except Exception:  # pint's parser raises assorted error types on garbage
+        return None
+    target = Q_(1.0, si).dimensionality if si else Q_(1.0, "dimensionless").dimensionality
+    if q.dimensionality != target:
+        return _WRONG_KIND
+    return float(q.to(si).magnitude) if si else float(q.to("dimensionless").magnitude)
+
+
 def _parse_text(text: str, kind: Kind, path: str) -> float:
     """`parse_quantity` of a non-empty string, through the unit library."""
     if len(text) > 64:
@@ -236,6 +254,16 @@ def _parse_text(text: str, kind: Kind, path: str) -> float:
     if not unit_allowed(spelled):
         raise InputError(path, text, f"'{unit}' is not a unit: write unit names with at most small powers, "
                                      f"e.g. {kind.example}")
+    if kind.si != "K":  # a unit without an offset: its factor to SI, worked out once a unit (pint multiplies so too)
+        factor = _factor(spelled, kind.si)
+        if factor is None:
+            raise InputError(path, text, f"'{unit}' is not a unit we know: enter {kind.name}, e.g. {kind.example}")
+        if factor is _WRONG_KIND:
+            raise InputError(path, text, f"must be {kind.name}, e.g. {kind.example}")
+        value = number * factor
+        if not math.isfinite(value):
+            raise InputError(path, text, "must be a finite number")
+        return value
     try:
         q = Q_(number, spelled)
     except Exception:  # pint's parser raises assorted error types on garbage

@@ -125,7 +125,7 @@ class Parsed:
         return [e for e in self.errors if not is_request(e)]
 
 
-def parse(doc: object) -> Parsed:
+def parse(doc: object, _memo: dict | None = None) -> Parsed:
     """Check a sheet document and build its Line; never raises on bad input.
 
     A value the line needs and the sheet leaves empty is asked for (`Missing`, in ``requests``):
@@ -190,12 +190,25 @@ def parse(doc: object) -> Parsed:
     last_D = None
     pipe_before = False  # a pipe run comes before, whole or not: a valve takes its bore once it is given
     ids: dict[str, int] = {}
+    memo = {} if _memo is None else _memo
     for i, e in enumerate(raw):
         path = f"elements.{i}"
         if not isinstance(e, dict):
             r.fail(path, e, "must be a group of fields")
             continue
         kind = e.get("kind")
+        # A case's document holds the base's own element groups where it changes nothing (calc.model.cases
+        # copies only what it writes), so an element the base read without error is taken from it.
+        key = (id(e), i, r.system, last_D, pipe_before)
+        kept = memo.get(key)
+        if kept is not None and kept[0] is e:
+            _element_id(r, e, path, ids)
+            el = copy.copy(kept[1])
+            if kind == "pipe":
+                pipe_before, last_D = True, el.D
+            elements.append(el)
+            continue
+        n_err = len(r.errors)
         read.known_element_keys(r, e, path, kind)
         _element_id(r, e, path, ids)
         if kind == "pipe":
@@ -210,6 +223,8 @@ def parse(doc: object) -> Parsed:
             el = read.valve(r, e, path, last_D, pipe_before)
         else:
             el = r.fail(f"{path}.kind", kind, "must be one of: pipe, turbine, pump, valve")
+        if el is not None and len(r.errors) == n_err:
+            memo[key] = (e, copy.copy(el))  # the dict itself too: its id must not be taken by another
         elements.append(el)
     if not raw and not any(err.path == "elements" for err in r.errors):
         r.fail("elements", [], "add at least one pipe run")
@@ -234,7 +249,7 @@ def parse(doc: object) -> Parsed:
                 header=hdr, settings={**settings, "checks": check_settings, "energy": energy})
     parsed = Parsed(implied.complete(line), [])
     for case in case_reads:
-        sub = parse(overlay(doc, case))  # the case's document holds no cases of its own
+        sub = parse(overlay(doc, case), memo)  # the case's document holds no cases of its own
         if sub.ok:
             parsed.cases.append(CaseLine(case, sub.line))
         else:

@@ -169,3 +169,24 @@ def test_a_sheet_without_cases_reads_as_before():
     assert len(a.cases) == 1 and not a.has_cases and a.governing == []
     assert all(f.case is None for f in a.findings)
     assert "cases" not in a.to_dict()
+
+
+def test_a_case_takes_the_elements_it_does_not_change_from_the_base_as_copies():
+    doc = _sheet({"name": "Throttled", "elements": [{"id": "valve-1", "K": "40"}]}, {"name": "Cold",
+                                                                                    "liquid": {"temperature": "4 degC"}})
+    doc["elements"].append({"kind": "valve", "id": "valve-1", "label": "V", "K": "2"})
+    p = parse(doc)
+    assert p.ok, p.errors
+    lines = [p.line] + [c.line for c in p.cases]
+    runs = [ln.elements[0] for ln in lines]
+    # each line its own run, with the losses physics always has counted once (no entrance counted twice)
+    assert len({id(r) for r in runs}) == 3
+    for r in runs:
+        assert [f.key for f in r.fittings] == [f.key for f in runs[0].fittings]
+        assert sum(f.key.startswith("entrance") for f in r.fittings) == 1
+    assert [ln.elements[1].K for ln in lines] == [2.0, 40.0, 2.0]
+    # and the answer is the one a sheet with the change typed gives
+    alone = copy.deepcopy(doc)
+    alone.pop("cases")
+    alone["elements"][1]["K"] = "40"
+    assert _flows(analyse(doc))["Throttled"] == analyse(alone).solution.design["Q"]
