@@ -19,6 +19,7 @@ LAYERS = [
     ("calc.units", "calc.water", "calc.friction", "calc.tables", "calc.data"),
     ("calc.model",),
     ("calc.steady",),
+    ("calc.transient",),
     ("calc.review",),
     ("calc.record",),
     ("calc.analysis",),

@@ -1,0 +1,1 @@
+"""Transients: the method of characteristics on the line, from the steady state of a case (issue 14)."""
