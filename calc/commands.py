@@ -309,7 +309,6 @@ def cmd_sizes(args) -> int:
 
 def format_sizes(out: dict, system: str = "SI") -> str:
     rows = out["rows"]
-    names = [c["case"] for c in next((r["cases"] for r in rows if r["cases"]), [])]
     text = [f"Sizes of {out['standard']} {out['class']} in elements {', '.join(map(str, out['runs']))} "
             f"({_u(out['length'], 'length', system)} of pipe), every case:"]
     for r in rows:
@@ -340,7 +339,6 @@ def format_sizes(out: dict, system: str = "SI") -> str:
         energy = any(r["energy_cost"] is not None for r in rows)
         text.append(f"Least {'capital plus energy' if energy else 'capital'} cost: {out['cheapest']}"
                     + ("" if energy else " (no energy cost: give the sheet hours and a tariff, and --life)"))
-    del names
     return "\n".join(text)
 
 

@@ -7,6 +7,8 @@ from functools import lru_cache
 from typing import Any
 
 from calc import friction, tables
+from calc.model.cases import whole_or_zero
+from calc.model.reader import Reader
 from calc.model.settings import CheckSettings
 from calc.model.sheet import is_request
 from server.editing import get_path, is_missing
@@ -375,17 +377,6 @@ def _valve_case_keys(e: dict) -> tuple[str, ...]:
     return ("set_pressure",) if vtype == "prv" else ("K",)
 
 
-def _blank(v: Any) -> bool:
-    return v is None or (isinstance(v, str) and not v.strip())
-
-
-def _whole(v: Any) -> int:
-    try:
-        return int(v) if not isinstance(v, bool) and float(v) == int(float(v)) else 0
-    except (TypeError, ValueError, OverflowError):
-        return 0
-
-
 def _shown(value: Any) -> str:
     if is_missing(value) or value is None:
         return ""
@@ -650,7 +641,7 @@ class FormView:
             kind, mode = e["kind"], e.get("mode") or ("power" if e["kind"] == "turbine" else "curve")
             control = e.get("speed_control") or "fixed"
             for key, words, field_kind in specs[kind]:
-                if kind == "pump" and key == "running" and not _whole(e.get("units")) > 1:
+                if kind == "pump" and key == "running" and not whole_or_zero(e.get("units")) > 1:
                     continue
                 if kind == "pump" and key == "speed_ratio" and control != "fixed":
                     continue
@@ -661,9 +652,9 @@ class FormView:
                 if kind == "valve" and key not in _valve_case_keys(e):
                     continue
                 base = e.get(key)
-                if kind == "pump" and key == "running" and _blank(base):
-                    base = str(max(_whole(e.get("units")) - _whole(e.get("standby")), 1))
-                if kind == "pump" and key == "speed_ratio" and _blank(base):
+                if kind == "pump" and key == "running" and Reader.blank(base):
+                    base = str(max(whole_or_zero(e.get("units")) - whole_or_zero(e.get("standby")), 1))
+                if kind == "pump" and key == "speed_ratio" and Reader.blank(base):
                     base = "1"
 
                 def where(i, ident=e["id"], key=key):

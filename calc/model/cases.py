@@ -74,8 +74,7 @@ class CaseRead:
         return None
 
 
-def _blank(v) -> bool:
-    return v is None or (isinstance(v, str) and not v.strip())
+_blank = Reader.blank
 
 
 def read_cases(r: Reader, doc: dict) -> list[CaseRead]:
@@ -311,17 +310,18 @@ def preset(doc: dict, key: str) -> tuple[list[dict], str | None]:
     elif key == "condition":
         out[0]["pipes"]["condition"], out[1]["pipes"]["condition"] = "new", "aged"
     elif key == "standby":
-        groups = [e for e in case_elements(doc) if e.get("kind") == "pump" and _whole(e.get("standby")) > 0]
+        groups = [e for e in case_elements(doc) if e.get("kind") == "pump" and whole_or_zero(e.get("standby")) > 0]
         if not groups:
             return [], ("No pump has standby units: give a pump more than one unit and some standby units first.")
         for e in groups:
-            units, standby = _whole(e.get("units")) or 1, _whole(e.get("standby"))
+            units, standby = whole_or_zero(e.get("units")) or 1, whole_or_zero(e.get("standby"))
             out[0]["elements"].append({"id": e["id"], "speed_ratio": "", "running": max(units - standby, 1)})
             out[1]["elements"].append({"id": e["id"], "speed_ratio": "", "running": units})
     return out, None
 
 
-def _whole(v) -> int:
+def whole_or_zero(v) -> int:
+    """A whole number as a document holds it (2, "2", 2.0), else 0 (the form's and the starting sets' reading)."""
     try:
         return int(v) if not isinstance(v, bool) and float(v) == int(float(v)) else 0
     except (TypeError, ValueError, OverflowError):

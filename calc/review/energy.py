@@ -21,7 +21,7 @@ import numpy as np
 
 from calc.model.elements import Pump, Turbine
 from calc.model.energy import HOURS_PER_YEAR, EnergyInputs
-from calc.steady.series import residual_array
+from calc.steady.series import residual, residual_array
 from calc.water import G
 
 SUBSTEPS = 200
@@ -66,13 +66,13 @@ def hydro(line, inputs: EnergyInputs, design_Q: float | None) -> dict | None:
         energy += HOURS_PER_YEAR * float(np.trapezoid(P, p))  # [W h]
         hours += HOURS_PER_YEAR * (b - a)
     with np.errstate(all="ignore"):
-        H_rated = float(residual_array(line, np.array([q_max]), skip=i)[0])
+        H_rated = residual(line, q_max, skip=i)
     P_rated = max(float(el.eta(q_max)) * rg * q_max * H_rated, 0.0)
     table = []
     for x, q in inputs.duration:
         qt = min(q, q_max) if q >= q_min else 0.0
         with np.errstate(all="ignore"):
-            h = float(residual_array(line, np.array([qt]), skip=i)[0]) if qt > 0 else 0.0
+            h = residual(line, qt, skip=i) if qt > 0 else 0.0
         table.append({"exceedance": x, "flow": q, "turbine_flow": qt,
                       "power": max(float(el.eta(qt)) * rg * qt * h, 0.0) if qt > 0 else 0.0})
     return {"turbine": el.label or f"turbine {i + 1}", "index": i, "energy_Wh": energy, "P_rated": P_rated,

@@ -13,6 +13,7 @@ The line is then solved like any other, so its answer at the target is the solve
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -20,7 +21,7 @@ import numpy as np
 from calc.model import valve_law
 from calc.model.elements import Line, PipeRun, Pump, Turbine, Valve
 from calc.steady import speed
-from calc.steady.series import find_roots, residual_array, scan_range
+from calc.steady.series import find_roots, residual, scan_range
 from calc.water import G
 
 #: A control valve is commonly held between these openings, where its characteristic still controls the
@@ -67,7 +68,7 @@ def settle(line: Line) -> tuple[Line, Settled]:
         line, out.speeds = speed.settle(line)
     for i, el in enumerate(line.elements):
         if isinstance(el, Turbine) and el.mode == "flow":
-            H = float(residual_array(line, np.array([el.flow_set]), skip=i)[0]) if np.isfinite(el.flow_set) else -1.0
+            H = residual(line, el.flow_set, skip=i)
             out.turbines.append(TurbineFlow(i, el.label or f"turbine {i + 1}", el.flow_set, H))
             elements = list(line.elements)
             # A turbine that cannot pass its flow is held at no head, so the line shows what it does carry.
@@ -130,12 +131,12 @@ def valve_setting(line: Line, i: int) -> ValveSetting:
     """The K (and opening) valve ``i`` takes to meet its target flow or downstream pressure."""
     el: Valve = line.elements[i]
     fluid, rho = line.fluid, line.liquid.rho
-    A = 3.141592653589793 * el.D * el.D / 4.0
+    A = math.pi * el.D * el.D / 4.0
     label = el.label or f"valve {i + 1}"
     K_open = el.K_open if el.K_open is not None else el.K
     if el.setting == "flow":
         Q = el.target
-        h = float(residual_array(line, np.array([Q]), skip=i)[0])
+        h = residual(line, Q, skip=i)
     else:
         z = _elevation_at(line, i)
         after = line.elements[i + 1:]

@@ -17,7 +17,7 @@ from dataclasses import dataclass, replace
 from scipy.optimize import brentq
 
 from calc.model.elements import Line, Pump
-from calc.steady.series import find_roots, make_residual, residual_array, scan_range
+from calc.steady.series import find_roots, make_residual, residual, residual_array, scan_range
 
 #: The speeds searched for a target [-, of the curve's own speed]: the parser's own range for a speed ratio.
 N_LOW, N_HIGH = 0.05, 3.0
@@ -67,7 +67,7 @@ def answer(line: Line, i: int) -> SpeedAnswer:
                       limits=pump.speed_limits)
     if pump.speed_control == "flow":
         Q = pump.target
-        H = -float(residual_array(line, _arr(Q), skip=i)[0])  # the head the line needs of the pump at Q
+        H = -residual(line, Q, skip=i)  # the head the line needs of the pump at Q
         if H <= 0:
             out.reason = "the line passes the target flow without the pump's head: it needs no pump for it"
             return out
@@ -89,12 +89,6 @@ def answer(line: Line, i: int) -> SpeedAnswer:
         lo, hi = pump.speed_limits
         out.within = (lo is None or n >= lo) and (hi is None or n <= hi) if (lo or hi) else None
     return out
-
-
-def _arr(Q: float):
-    import numpy as np
-
-    return np.array([Q], dtype=float)
 
 
 def settle(line: Line) -> tuple[Line, list[SpeedAnswer]]:
