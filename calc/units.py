@@ -54,6 +54,10 @@ TEMPERATURE = _kind("a temperature", "K", "12 degC", ("degC", "degF"))
 SPEED = _kind("a velocity", "m/s", "2 m/s", ("m/s", "ft/s"))
 TIME = _kind("a time", "s", "5 s", ("s",))
 RATIO = _kind("a plain number or percentage", "", "0.85 or 85 %")
+AREA = _kind("an area", "m^2", "7 m^2", ("m^2", "ft^2"))
+VOLUME = _kind("a volume", "m^3", "3 m^3", ("m^3", "L", "ft^3"))
+INERTIA = _kind("a moment of inertia", "kg*m^2", "2.5 kg m^2", ("kg m^2",))
+ROTATION = _kind("a rotational speed", "rad/s", "1480 rpm", ("rpm",))
 
 #: A kind's example and suggested units on a sheet shown in US customary units (header.units "US"),
 #: so that a message on such a sheet never suggests '150 mm' (the same figures as the SI examples).

@@ -261,6 +261,8 @@ class PipeRun:
     eps_source: str = "typed by the user"
     D_source: str = "typed by the user"
     eps_aged: float | None = None
+    #: A wave speed typed for the run [m/s] (a measured or maker's figure), used in place of Korteweg's.
+    wave_speed: float | None = None
     kind: str = "pipe"
     _cache_key: tuple | None = field(default=None, repr=False, compare=False)
     _cache: tuple | None = field(default=None, repr=False, compare=False)

@@ -61,7 +61,7 @@ ELEMENT_TEMPLATES = {
 #: never deletes a key), so those are accepted: the liquid holds the keys of water and of a typed liquid,
 #: the end those of a reservoir, a pressure and a jet, and a fitting the K values of every type.
 SHEET_FIELDS = ("format", "version", "header", "liquid", "site", "settings", "start", "end", "elements", "cases",
-                "energy")
+                "energy", "transient")
 HEADER_KEYS = HEADER_FIELDS + ("revision_scheme", "units")
 LIQUID_FIELDS = ("kind", "temperature", "name", "density", "viscosity", "vapour_pressure", "bulk_modulus")
 SITE_FIELDS = ("atmospheric_pressure",)
@@ -76,7 +76,7 @@ NODE_FIELDS = {"start": ("kind", "elevation", "pressure", "outlet_elevation", "e
 #: (an element's kind never changes on the form, so no element gathers another kind's keys).
 ELEMENT_FIELDS = {
     "pipe": ("kind", "id", "label", "length", "diameter", "size", "material", "condition", "roughness",
-             "wall_thickness", "end_elevation", "rating", "restraint", "profile", "fittings"),
+             "wall_thickness", "end_elevation", "rating", "restraint", "wave_speed", "profile", "fittings"),
     "turbine": ("kind", "id", "label", "mode", "power", "efficiency", "head", "flow", "curve"),
     "pump": ("kind", "id", "label", "mode", "speed_ratio", "efficiency", "head", "curve", "units", "standby",
              "arrangement", "running", "speed_control", "target_flow", "target_head", "speed_min", "speed_max"),

@@ -26,7 +26,7 @@ from calc.model.fields import (
     VALVE_TYPES,
 )
 from calc.model.reader import Reader
-from calc.units import FLOW, LENGTH, POWER, PRESSURE, RATIO, Kind
+from calc.units import FLOW, LENGTH, POWER, PRESSURE, RATIO, SPEED, Kind
 
 
 @lru_cache(maxsize=None)
@@ -116,6 +116,8 @@ def pipe(r: Reader, e: dict, path: str):
     rating = r.qty(e, "rating", f"{path}.rating", PRESSURE, required=False, lo=0.0, lo_open=True,
                    what="the pressure rating")
     restraint = r.choice(e, "restraint", f"{path}.restraint", RESTRAINTS, "anchored")
+    wave_speed = r.qty(e, "wave_speed", f"{path}.wave_speed", SPEED, required=False, lo=0.0, lo_open=True,
+                       span="wave_speed", what="the wave speed")
     profile = []
     for j, pt in enumerate(r.lst(e, "profile", f"{path}.profile", MAX_POINTS)):
         pp = f"{path}.profile.{j}"
@@ -140,7 +142,8 @@ def pipe(r: Reader, e: dict, path: str):
         return None
     return PipeRun(label=label, L=L, D=D, eps=eps, end_elevation=z_end, fittings=fittings,
                    profile=profile, wall=wall, material=mat, size=size_obj, rating=rating,
-                   restraint=restraint, eps_source=eps_source, D_source=D_source, eps_aged=eps_aged)
+                   restraint=restraint, eps_source=eps_source, D_source=D_source, eps_aged=eps_aged,
+                   wave_speed=wave_speed)
 
 
 def fitting(r: Reader, ft, path: str):

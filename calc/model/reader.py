@@ -6,15 +6,19 @@ from dataclasses import dataclass
 
 from calc.model.fields import MAX_COUNT, MAX_KEY_SHOWN, MAX_TEXT, MAX_UNKNOWN_REPORTED
 from calc.units import (
+    AREA,
     DENSITY,
     FLOW,
+    INERTIA,
     LENGTH,
     MODULUS,
     POWER,
     PRESSURE,
+    ROTATION,
     SPEED,
     TIME,
     VISCOSITY,
+    VOLUME,
     InputError,
     Kind,
     in_system,
@@ -64,11 +68,20 @@ SPANS = {
     "density": Span(2.5e4, "more than any liquid's density", "kg/m³", {"SI": "25 000 kg/m³", "US": "25 000 kg/m³"}),
     "viscosity": Span(1e4, "more than any liquid's viscosity", "Pa·s", {"SI": "10 000 Pa·s", "US": "10 000 Pa·s"}),
     "modulus": Span(1e13, "more than any material's modulus", "Pa", {"SI": "10 000 GPa", "US": "10 000 GPa"}),
+    # the largest surge shafts are some tens of m across; a vessel of a million m3 is a reservoir
+    "area": Span(1e5, "larger than any surge tank", "m²", {"SI": "100 000 m²", "US": "100 000 m²"}),
+    "volume": Span(1e6, "larger than any vessel on a line", "m³", {"SI": "1 000 000 m³", "US": "1 000 000 m³"}),
+    "inertia": Span(1e8, "more than any machine's inertia", "kg·m²", {"SI": "1e8 kg·m²", "US": "1e8 kg·m²"}),
+    "rotation": Span(1e4, "faster than any pump turns", "rad/s", {"SI": "95 000 rpm", "US": "95 000 rpm"}),
+    "wave_speed": Span(3000.0, "faster than a pressure wave in any water pipe", "m/s",
+                       {"SI": "3000 m/s", "US": "9800 ft/s"}, lo=10.0, lo_what="slower than a pressure wave "
+                       "in any water pipe", lo_limit={"SI": "10 m/s", "US": "33 ft/s"}),
 }
 #: The role of a quantity when its field names none.
 _DEFAULT_SPAN = {LENGTH.name: "length", FLOW.name: "flow", PRESSURE.name: "pressure", POWER.name: "power",
                  SPEED.name: "velocity", TIME.name: "time", DENSITY.name: "density", VISCOSITY.name: "viscosity",
-                 MODULUS.name: "modulus"}
+                 MODULUS.name: "modulus", AREA.name: "area", VOLUME.name: "volume", INERTIA.name: "inertia",
+                 ROTATION.name: "rotation"}
 
 
 class Missing(InputError):

@@ -24,6 +24,7 @@ from calc.model.sheet import (
     VALVE_TYPES,
     VERSION,
 )
+from calc.model.transient_spec import DEVICE_KINDS, EVENT_KINDS, LAWS, MAX_DEVICES, MAX_EVENTS
 
 
 def _q(kind_name: str) -> dict:
@@ -50,7 +51,7 @@ _ELEMENTS = {
         "size": {"anyOf": [{"type": "null"}, {"$ref": "#/$defs/size"}]}, "material": {"type": ["string", "null"]},
         "condition": {"enum": ["new", "aged", "", None]}, "roughness": _q("a length"),
         "wall_thickness": _q("a length"), "end_elevation": _q("a length"), "rating": _q("a gauge pressure"),
-        "restraint": {"enum": [*RESTRAINTS, "", None]},
+        "restraint": {"enum": [*RESTRAINTS, "", None]}, "wave_speed": _q("a velocity"),
         "profile": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": {"$ref": "#/$defs/profile_point"}},
         "fittings": {"type": ["array", "null"], "maxItems": MAX_FITTINGS, "items": {"$ref": "#/$defs/fitting"}}}),
     "turbine": _group({
@@ -122,6 +123,13 @@ SCHEMA = {
             "flow_duration": {"type": ["array", "null"], "maxItems": MAX_POINTS, "items": _group(
                 {"exceedance": _RATIO | {"description": "the share of the time the flow is exceeded"},
                  "flow": _q("a flow")})}}),
+        # The transient analysis: events of each case, protection devices, points to follow.
+        "transient": _group({
+            "duration": _q("a time"), "reaches": _COUNT,
+            "events": {"type": ["array", "null"], "maxItems": MAX_EVENTS, "items": {"$ref": "#/$defs/event"}},
+            "devices": {"type": ["array", "null"], "maxItems": MAX_DEVICES, "items": {"$ref": "#/$defs/device"}},
+            "points": {"type": ["array", "null"], "maxItems": MAX_POINTS,
+                       "items": _group({"chainage": _q("a length"), "label": _LABEL})}}),
     },
     "$defs": {
         # A node keeps the keys of the kinds it had before (the form never deletes a key), so the
@@ -152,6 +160,23 @@ SCHEMA = {
                 {"id": _ID, **{k: {"type": ["string", "number", "null"]}
                                for k in dict.fromkeys(k for f in CASE_ELEMENT_FIELDS.values() for k in f)}})},
         }, required=["name"]),
+        "event": _group({
+            "case": {"type": ["string", "null"], "maxLength": MAX_LABEL,
+                     "description": "the case's name (empty: the base)"},
+            "kind": {"enum": list(EVENT_KINDS)}, "element": {"type": ["string", "null"]}, "label": _LABEL,
+            "start": _q("a time"), "time": _q("a time"), "law": {"enum": [*LAWS, "", None]}, "exponent": _RATIO,
+            "to": _RATIO, "inertia": _q("a moment of inertia"), "rated_speed": _q("a rotational speed"),
+            "check_valve": {"type": ["boolean", "string", "null"]},
+            "table": {"type": ["array", "null"], "maxItems": MAX_POINTS,
+                      "items": _group({"time": _q("a time"), "opening": _RATIO})},
+            "four_quadrant": {"type": ["array", "null"], "maxItems": 200,
+                              "items": _group({"angle": _RATIO, "WH": _RATIO, "WB": _RATIO})}}, required=["kind"]),
+        "device": _group({
+            "kind": {"enum": list(DEVICE_KINDS)}, "label": _LABEL, "chainage": _q("a length"), "area": _q("an area"),
+            "bottom": _q("a length"), "top": _q("a length"), "throat_K": _RATIO, "throat_diameter": _q("a length"),
+            "volume": _q("a volume"), "gas_volume": _q("a volume"), "exponent": _RATIO, "surface": _q("a length"),
+            "connection_diameter": _q("a length"), "K_in": _RATIO, "K_out": _RATIO,
+            "inflow_diameter": _q("a length"), "outflow_diameter": _q("a length")}, required=["kind"]),
         "profile_point": _group({"chainage": _q("a length"), "elevation": _q("a length")}),
         "curve_point": _group({"flow": _q("a flow"), "head": _q("a length"), "efficiency": _RATIO,
                                "npsh_required": _q("a length")}),

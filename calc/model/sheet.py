@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from calc import friction
 from calc.model import implied
 from calc.model import read_elements as read
-from calc.model.cases import CaseRead, ensure_rows, overlay, read_cases
+from calc.model.cases import BASE_NAME, CaseRead, ensure_rows, overlay, read_cases
 from calc.model.elements import Line, Node
 from calc.model.energy import read_energy
 from calc.model.fields import *  # noqa: F401,F403  (the format's keys, templates and limits, for the callers)
@@ -37,6 +37,7 @@ from calc.model.ids import ensure_ids, id_problem  # noqa: F401  (ensure_ids: th
 from calc.model.implied import ENTRANCE_KEYS
 from calc.model.reader import Missing, Reader, is_request  # noqa: F401  (the callers' names)
 from calc.model.settings import CheckSettings
+from calc.model.transient_spec import read_transient
 from calc.units import (
     DENSITY,
     LENGTH,
@@ -242,11 +243,12 @@ def parse(doc: object, _memo: dict | None = None) -> Parsed:
     del z
     energy = read_energy(r, doc)
     case_reads = read_cases(r, doc)
+    transient = read_transient(r, doc, [c.name for c in case_reads], BASE_NAME)
     r.report_unknown_left_out()
     if r.errors:
         return Parsed(None, r.errors)
     line = Line(start=start, end=end, elements=elements, liquid=liquid, method=method, p_atm=p_atm,
-                header=hdr, settings={**settings, "checks": check_settings, "energy": energy})
+                header=hdr, settings={**settings, "checks": check_settings, "energy": energy, "transient": transient})
     parsed = Parsed(implied.complete(line), [])
     for case in case_reads:
         sub = parse(overlay(doc, case), memo)  # the case's document holds no cases of its own

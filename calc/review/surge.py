@@ -2,69 +2,16 @@
 
 from __future__ import annotations
 
-import math
-
 from calc.model.elements import Line, PipeRun, Pump, Turbine, Valve
 from calc.model.settings import CheckSettings
 from calc.review.findings import RATING_NEAR, SRC_JOUKOWSKY, SRC_KORTEWEG, Finding, Shown, label, shown_in
+from calc.transient.wave import THICK_WALL, korteweg_wave_speed, restraint_factor, wave_speed, wave_speed_detail  # noqa: F401
 from calc.water import G
 
-#: D/e below which a wall counts as thick and takes the thick-wall restraint factor [-] (Wylie and
-#: Streeter 1993: the thin-wall form holds for D/e above about 25).
-THICK_WALL = 25.0
 #: The shortest time over which a tripped pump's flow can stop [s], for the leg between a free surface
 #: and the pump: rotor inertia keeps even small pumps turning for some tenths of a second (common
 #: practice; a transient analysis with the machine's inertia replaces it).
 PUMP_RUNDOWN_MIN = 0.5
-
-
-def restraint_factor(restraint: str, nu: float, e_over_D: float | None = None) -> float:
-    """Pipe restraint factor c1 of the Korteweg wave speed [-], thin or thick wall.
-
-    Thin wall (``e_over_D`` None): c1 = 1 with expansion joints throughout, 1 - nu^2 anchored against
-    axial movement throughout, 1 - nu/2 anchored at the upstream end only.
-    Thick wall (e/D given): c1 = 2 (e/D)(1 + nu) + D (1 - nu^2)/(D + e) anchored throughout,
-    2 (e/D)(1 + nu) + D/(D + e) with expansion joints, 2 (e/D)(1 + nu) + D (1 - nu/2)/(D + e) anchored
-    upstream; each tends to the thin form as e/D goes to 0. nu is Poisson's ratio of the wall [-].
-    Reference: Wylie, E. B. and Streeter, V. L., Fluid Transients in Systems (1993), wave speed in
-    thin- and thick-walled pipes (from memory).
-
-    >>> restraint_factor("expansion_joints", 0.3), restraint_factor("anchored", 0.3)
-    (1.0, 0.91)
-    >>> restraint_factor("anchored_upstream", 0.3)
-    0.85
-    >>> round(restraint_factor("anchored", 0.46, 1 / 9), 4)
-    1.034
-    """
-    if e_over_D is None:
-        if restraint == "expansion_joints":
-            return 1.0
-        if restraint == "anchored_upstream":
-            return 1.0 - nu / 2.0
-        return 1.0 - nu * nu
-    base = 2.0 * e_over_D * (1.0 + nu)
-    ring = 1.0 / (1.0 + e_over_D)
-    if restraint == "expansion_joints":
-        return base + ring
-    if restraint == "anchored_upstream":
-        return base + (1.0 - nu / 2.0) * ring
-    return base + (1.0 - nu * nu) * ring
-
-
-def korteweg_wave_speed(K: float, rho: float, D: float, e: float, E: float, c1: float = 1.0) -> float:
-    """Pressure wave speed in a liquid-filled elastic pipe, a = sqrt(K/rho) / sqrt(1 + c1 K D / (E e)) [m/s].
-
-    Parameters: K bulk modulus of the liquid [Pa], rho density [kg/m3], D inner diameter [m],
-    e wall thickness [m], E Young's modulus of the wall [Pa], c1 restraint factor [-]
-    (`restraint_factor`). Valid for thin walls (D/e above about 25); thick walls need another c1.
-    Reference: Korteweg (1878); form with c1 as in Wylie and Streeter, Fluid Transients in Systems (1993).
-
-    Steel D 500 mm, e 8 mm, E 207 GPa, water K 2.19 GPa, c1 = 1: about 1150 m/s.
-
-    >>> round(korteweg_wave_speed(2.19e9, 998.2, 0.5, 0.008, 207e9, 1.0))
-    1149
-    """
-    return math.sqrt(K / rho) / math.sqrt(1.0 + c1 * K * D / (E * e))
 
 
 def joukowsky_head(a: float, dV: float) -> float:
@@ -88,40 +35,10 @@ def pipeline_period(lengths_and_speeds) -> float:
     return 2.0 * sum(L / a for L, a in lengths_and_speeds)
 
 
-def wave_speed_detail(line: Line, run: PipeRun) -> dict:
-    """Korteweg wave speed of one run with every input, or ``missing`` naming what is not known.
-
-    The thick-wall restraint factor is used where D/e is below THICK_WALL (PE of SDR 7.4 to 17 and
-    most plastic pipe), the thin-wall one elsewhere.
-    """
-    missing = []
-    K = line.liquid.bulk_modulus
-    if not K:
-        missing.append("the liquid's bulk modulus")
-    if run.material is None:
-        missing.append("the wall material (for its modulus and Poisson ratio)")
-    if not run.wall:
-        missing.append("the wall thickness")
-    if missing:
-        return {"a": None, "missing": " and ".join(missing)}
-    mat = run.material
-    D_e = run.D / run.wall
-    thick = D_e < THICK_WALL
-    c1 = restraint_factor(run.restraint, mat.nu_poisson, run.wall / run.D if thick else None)
-    a = korteweg_wave_speed(K, line.liquid.rho, run.D, run.wall, mat.E, c1)
-    return {"a": a, "missing": "", "c1": c1, "form": "thick-wall" if thick else "thin-wall", "D_over_e": D_e,
-            "E": mat.E, "nu": mat.nu_poisson, "K": K, "e": run.wall, "D": run.D, "rho": line.liquid.rho,
-            "restraint": run.restraint}
-
-
-def wave_speed(line: Line, run: PipeRun) -> tuple[float | None, str]:
-    """Korteweg wave speed of one run [m/s], or None with what is missing."""
-    w = wave_speed_detail(line, run)
-    return w["a"], w["missing"]
-
-
 def describe_wave_speed(w: dict, u: Shown) -> str:
     """The wave speed with the inputs a checker needs to repeat it."""
+    if w["form"] == "typed":
+        return f"wave speed {u(w['a'], 'velocity', '.0f')} (typed for the run)"
     return (f"wave speed {u(w['a'], 'velocity', '.0f')} (Korteweg, {w['form']} restraint factor c1 = {w['c1']:.4f} for "
             f"{w['restraint'].replace('_', ' ')}, D/e = {w['D_over_e']:.1f}; E = {w['E'] / 1e9:.4g} GPa, "
             f"nu = {w['nu']:.3g}, e = {u(w['e'], 'diameter', '.4g')}, D = {u(w['D'], 'diameter', '.4g')}, K = {w['K'] / 1e9:.4g} GPa, "

@@ -1,20 +1,25 @@
-"""The method of characteristics for a line of pipes in series (Wylie and Streeter, Fluid Transients in
-Systems, 1993, ch. 3): the first step of the transient analysis, a reservoir feeding runs in series to a
-valve at the end that closes by a law in time, with steady friction.
+"""The method of characteristics for a line of pipes in series with joints between them (Wylie and
+Streeter, Fluid Transients in Systems, 1993, ch. 3, from memory).
 
-Each run i is cut into N_i reaches of length dx_i = L_i / N_i; one time step dt serves every run, so each
-run's wave speed is adjusted to a_i' = dx_i / dt (Courant number 1), the adjustment reported. Along the
-characteristics, with B = a/(g A) and R = f dx/(2 g D A²),
+Each pipe k is cut into n_k reaches of length dx_k = L_k / n_k; one time step dt serves every pipe, so
+each pipe's wave speed is adjusted to a_k' = dx_k / dt (Courant number 1), the adjustment reported.
+Along the characteristics, with B = a/(g A) and R = f dx/(2 g D A²),
 
     C+:  H_P = C_P - B Q_P,   C_P = H_A + B Q_A - R Q_A |Q_A|
     C-:  H_P = C_M + B Q_P,   C_M = H_B - B Q_B + R Q_B |Q_B|
 
-so at an interior node Q_P = (C_P - C_M) / (2 B), H_P = (C_P + C_M) / 2. At a junction of two runs the
-flow and head are shared: Q_P = (C_P - C_M) / (B_1 + B_2). At the start the reservoir holds the head; at
-the valve Q_P² = (tau Q_0)² H_P / H_0 (its steady loss H_0 at Q_0 scaled by the relative opening tau), so
-Q_P = -B C_v + sqrt((B C_v)² + 2 C_v C_P), C_v = (tau Q_0)² / (2 H_0).
+so at an interior node Q_P = (C_P - C_M) / (2 B), H_P = (C_P + C_M) / 2, every interior node of every
+pipe in one numpy expression per step. The ends of the pipes meet at **joints** (`calc.transient.joints`:
+reservoirs, junctions, valves, machines) and a few interior nodes carry a **device**
+(`calc.transient.devices`: surge tank, air vessel, air valve); each is given its characteristics and
+returns its heads and flows.
 
-Every node's updates are numpy slices, one per run and step.
+Where the head at an interior node would fall below the vapour head, a vapour cavity forms there (the
+discrete vapour cavity model, Bergant, Simpson and Tijsseling 2006, J. Fluids Struct. 22:135-171, from
+memory): the head is held at the vapour head, the flows on either side part, and the cavity's volume
+grows by their difference (trapezoidal in time) until it shrinks to nothing and collapses, which sends
+the collapse surge. A node therefore keeps two flows, the one in the reach on its left and on its right;
+away from a cavity they are equal.
 """
 
 from __future__ import annotations
@@ -28,15 +33,20 @@ from calc.water import G
 
 
 @dataclass
-class Run:
-    """One pipe run for the transient: length, bore, wave speed, Darcy friction factor (held at its steady
-    value: steady friction) and the number of reaches."""
+class Pipe:
+    """One pipe for the transient: length, bore, wave speed and Darcy friction factor (held at its steady
+    value: steady friction; a run's fittings lumped into it so the steady state is reproduced), the
+    chainage of its start along the line, its centreline as (chainage within the pipe, elevation) points,
+    and its pressure rating (gauge, Pa) if known."""
 
     L: float
     D: float
     a: float
     f: float
-    reaches: int
+    label: str = ""
+    x0: float = 0.0
+    profile: list = field(default_factory=lambda: [(0.0, 0.0)])
+    rating: float | None = None
 
     @property
     def A(self) -> float:
@@ -44,114 +54,224 @@ class Run:
 
 
 @dataclass
+class Grid:
+    """One time step for every pipe, each pipe's reaches and its wave speed after the Courant adjustment."""
+
+    dt: float
+    counts: list[int]
+    a_used: list[float]
+
+    def notes(self, pipes: list[Pipe]) -> list[str]:
+        return [f"{p.label or f'pipe {k + 1}'}: wave speed {p.a:.4g} m/s adjusted to {a:.4g} m/s "
+                f"({(a / p.a - 1) * 100:+.2f} %), {n} reaches of {p.L / n:.4g} m"
+                for k, (p, a, n) in enumerate(zip(pipes, self.a_used, self.counts))]
+
+
+def grid(pipes: list[Pipe], reaches_min: int = 4, reaches_total: int = 0) -> Grid:
+    """dt from the pipe with the shortest travel time L/a over ``reaches_min`` reaches (and small enough
+    that the line has at least ``reaches_total`` reaches in all); each other pipe as many reaches as fit,
+    its wave speed adjusted to dx/dt (the price of Courant number 1 everywhere)."""
+    dt = min(p.L / p.a for p in pipes) / max(1, reaches_min)
+    if reaches_total:
+        dt = min(dt, sum(p.L / p.a for p in pipes) / reaches_total)
+    counts = [max(1, round(p.L / (p.a * dt))) for p in pipes]
+    return Grid(dt, counts, [p.L / (n * dt) for p, n in zip(pipes, counts)])
+
+
+@dataclass
+class Watch:
+    """A node whose head and flow are kept in time: its name, pipe and node within the pipe."""
+
+    name: str
+    pipe: int
+    node: int
+
+
+@dataclass
 class Result:
-    """Time t [s] and, per run, the highest and lowest head at each node [m]; the head and flow at the
-    valve in time; the wave speeds used after the Courant adjustment."""
+    """Time [s]; per pipe, each node's chainage, elevation and highest and lowest head [m], and the
+    largest vapour cavity reached there [m³]; the histories of the watched nodes and of the joints' and
+    devices' states; the grid."""
 
     t: np.ndarray
+    chainage: list[np.ndarray]
+    elevation: list[np.ndarray]
     H_max: list[np.ndarray]
     H_min: list[np.ndarray]
-    H_valve: np.ndarray
-    Q_valve: np.ndarray
-    a_used: list[float]
-    dt: float
+    cavity_max: list[np.ndarray]
+    H0: list[np.ndarray]
+    histories: dict
+    grid: Grid
     notes: list[str] = field(default_factory=list)
 
 
-def grid(runs: list[Run], reaches_min: int = 4) -> tuple[float, list[int], list[float]]:
-    """One time step for every run and each run's reaches: dt from the run with the shortest travel time
-    L/a over ``reaches_min`` reaches, each other run as many reaches as fit, its wave speed adjusted to
-    dx/dt (the adjustment is the price of Courant number 1 everywhere)."""
-    dt = min(r.L / r.a for r in runs) / reaches_min
-    counts = [max(1, round(r.L / (r.a * dt))) for r in runs]
-    a_used = [r.L / (n * dt) for r, n in zip(runs, counts)]
-    return dt, counts, a_used
+class System:
+    """Pipes in series, ``joints`` (one more than the pipes: the start, each pipe-to-pipe joint, the end)
+    and ``devices`` at interior nodes ({(pipe, node): device}); the steady heads and flow at every node
+    for t = 0; the vapour head at every node."""
 
+    def __init__(self, pipes: list[Pipe], joints: list, devices: dict | None = None,
+                 reaches_min: int = 4, reaches_total: int = 0, gridded: Grid | None = None):
+        if len(joints) != len(pipes) + 1:
+            raise ValueError("a line of n pipes has n + 1 joints")
+        self.pipes, self.joints = pipes, joints
+        self.grid = gridded or grid(pipes, reaches_min, reaches_total)
+        n = self.grid.counts
+        self.offsets = np.concatenate([[0], np.cumsum([k + 1 for k in n])]).astype(int)
+        self.devices = dict(devices or {})
+        N = int(self.offsets[-1])
+        self.B = np.empty(N)
+        self.R = np.zeros(N)
+        self.chainage, self.elevation = [], []
+        for k, (p, nk, a) in enumerate(zip(pipes, n, self.grid.a_used)):
+            sl = slice(self.offsets[k], self.offsets[k + 1])
+            self.B[sl] = a / (G * p.A)
+            s = np.linspace(0.0, p.L, nk + 1)
+            self.chainage.append(p.x0 + s)
+            xs, zs = zip(*p.profile) if p.profile else ((0.0,), (0.0,))
+            self.elevation.append(np.interp(s, xs, zs))
+        self.set_friction([p.f for p in pipes])
 
-def run_valve_closure(runs: list[Run], H_res: float, Q0: float, closure, t_end: float,
-                      reaches_min: int = 4, steady_heads: list[np.ndarray] | None = None,
-                      flow=None) -> Result:
-    """Runs from a reservoir at head ``H_res`` (above the valve's outlet, the datum) to a valve discharging
-    to the atmosphere at the end, flowing ``Q0``; the head left at the valve is its steady loss; the valve's
-    relative opening tau(t) is given by ``closure``; from t = 0 to ``t_end``.
+    def set_friction(self, f: list[float]):
+        """Each pipe's friction factor (R = f dx / (2 g D A²) at its nodes)."""
+        for k, (p, nk) in enumerate(zip(self.pipes, self.grid.counts)):
+            self.R[self.offsets[k]:self.offsets[k + 1]] = f[k] * (p.L / nk) / (2 * G * p.D * p.A * p.A)
 
-    The steady state at t = 0 is the friction line from H_res (each run's head falling by R Q0|Q0| a reach),
-    so that the first step reproduces it; ``steady_heads`` may give it instead. With ``flow`` (a function of
-    time) the end's flow is prescribed instead of a valve's (a boundary for tests and, later, machines).
-    """
-    dt, counts, a_used = grid(runs, reaches_min)
-    B = [a / (G * r.A) for r, a in zip(runs, a_used)]
-    R = [r.f * (r.L / n) / (2 * G * r.D * r.A * r.A) for r, n in zip(runs, counts)]
-    # The steady state: the flow everywhere, the head falling along each run by its friction.
-    H, Q = [], []
-    head = H_res
-    for k, (r, n) in enumerate(zip(runs, counts)):
-        if steady_heads is not None:
-            h = np.asarray(steady_heads[k], dtype=float)
-        else:
-            h = head - R[k] * Q0 * abs(Q0) * np.arange(n + 1)
-        H.append(h.copy())
-        Q.append(np.full(n + 1, Q0))
-        head = float(h[-1])
-    H_v0 = float(H[-1][-1])
-    # The valve's steady loss is what is left at its inlet (discharging to the atmosphere at datum 0).
-    Cv0 = Q0 * Q0 / (2.0 * H_v0) if H_v0 > 0 else 0.0
-    steps = int(math.ceil(t_end / dt))
-    t = np.arange(steps + 1) * dt
-    H_max = [h.copy() for h in H]
-    H_min = [h.copy() for h in H]
-    H_valve = np.empty(steps + 1)
-    Q_valve = np.empty(steps + 1)
-    H_valve[0], Q_valve[0] = H[-1][-1], Q[-1][-1]
-    m = len(runs)
-    for s in range(1, steps + 1):
-        newH = [np.empty_like(h) for h in H]
-        newQ = [np.empty_like(q) for q in Q]
-        CP_end, CM_start = [], []
-        for k in range(m):
-            h, q, b, rr = H[k], Q[k], B[k], R[k]
-            CP = h[:-1] + b * q[:-1] - rr * q[:-1] * np.abs(q[:-1])  # arriving at nodes 1..n from the left
-            CM = h[1:] - b * q[1:] + rr * q[1:] * np.abs(q[1:])      # arriving at nodes 0..n-1 from the right
-            newQ[k][1:-1] = (CP[:-1] - CM[1:]) / (2 * b)
-            newH[k][1:-1] = (CP[:-1] + CM[1:]) / 2
-            CP_end.append(CP[-1])
-            CM_start.append(CM[0])
-        # the reservoir at the start holds its head
-        newH[0][0] = H_res
-        newQ[0][0] = (H_res - CM_start[0]) / B[0]
-        # junctions: one head and one flow for both runs
-        for k in range(m - 1):
-            Qj = (CP_end[k] - CM_start[k + 1]) / (B[k] + B[k + 1])
-            Hj = CP_end[k] - B[k] * Qj
-            newQ[k][-1] = newQ[k + 1][0] = Qj
-            newH[k][-1] = newH[k + 1][0] = Hj
-        # the valve at the end
-        tau = float(closure(t[s]))
-        cp, b = CP_end[-1], B[-1]
-        if flow is not None:
-            Qv = float(flow(t[s]))
-        elif tau <= 0.0 or Cv0 == 0.0:
-            Qv = 0.0
-        else:
-            cv = tau * tau * Cv0
-            Qv = -b * cv + math.sqrt((b * cv) ** 2 + 2 * cv * max(cp, 0.0))
-        newQ[-1][-1] = Qv
-        newH[-1][-1] = cp - b * Qv
-        H, Q = newH, newQ
-        for k in range(m):
-            np.maximum(H_max[k], H[k], out=H_max[k])
-            np.minimum(H_min[k], H[k], out=H_min[k])
-        H_valve[s], Q_valve[s] = H[-1][-1], Q[-1][-1]
-    notes = [f"run {k + 1}: wave speed {r.a:.4g} m/s adjusted to {a:.4g} m/s ({(a / r.a - 1) * 100:+.2f} %), "
-             f"{n} reaches" for k, (r, a, n) in enumerate(zip(runs, a_used, counts))]
-    return Result(t, H_max, H_min, H_valve, Q_valve, a_used, dt, notes)
+    def node(self, pipe: int, j: int) -> int:
+        """The global index of node j of a pipe (negative j from the pipe's end)."""
+        n = self.grid.counts[pipe]
+        return int(self.offsets[pipe] + (j if j >= 0 else n + 1 + j))
 
+    def reach_loss(self, pipe: int, Q: float) -> float:
+        """The steady head one reach of the pipe loses at flow Q [m]: R Q |Q|."""
+        return float(self.R[self.offsets[pipe]] * Q * abs(Q))
 
-def instant(t: float) -> float:
-    """A valve shut at once at t = 0."""
-    return 0.0
-
-
-def linear_closure(Tc: float):
-    """A valve closing linearly in its opening over ``Tc`` seconds."""
-    return lambda t: max(0.0, 1.0 - t / Tc)
+    def run(self, H0: list[np.ndarray], Q0: list[np.ndarray], t_end: float, vapour_head: list[np.ndarray] | None = None,
+            watch: list[Watch] = (), cavities: bool = True) -> Result:
+        """From heads and flows at every node (the steady state) to ``t_end``."""
+        dt = self.grid.dt
+        pipes, joints = self.pipes, self.joints
+        m = len(pipes)
+        off = self.offsets
+        H = np.concatenate(H0).astype(float)
+        Ql = np.concatenate(Q0).astype(float)
+        Qr = Ql.copy()
+        N = H.size
+        B, R = self.B, self.R
+        Hv = np.concatenate(vapour_head) if vapour_head is not None else np.full(N, -np.inf)
+        starts = off[:-1]
+        ends = off[1:] - 1
+        # Nodes 1 .. N-2 are worked out together by slices; the pipes' end nodes and the devices' nodes
+        # among them are then put right by their joints and devices, and only true interior nodes may cavitate.
+        free = np.ones(N, dtype=bool)
+        free[starts] = False
+        free[ends] = False
+        for k, j in self.devices:
+            free[self.node(k, j)] = False
+        free_in = free[1:-1]
+        Hv_in = Hv[1:-1]
+        B_in = B[1:-1]
+        inv2B = 1.0 / (2.0 * B_in)
+        B_a, R_a, B_b, R_b = B[:-1], R[:-1], B[1:], R[1:]
+        cav = np.zeros(N)  # vapour cavity volume at each node [m³]
+        cav_max = np.zeros(N)
+        flowing = [(j, int(starts[j]) if j < m else None, int(ends[j - 1]) if j > 0 else None) for j in range(m + 1)]
+        dev_nodes = [(self.node(k, j), d) for (k, j), d in self.devices.items()]
+        for j, b, e in flowing:
+            joints[j].start(H[e] if e is not None else None, Ql[e] if e is not None else None,
+                            H[b] if b is not None else None, Ql[b] if b is not None else None)
+        for i, d in dev_nodes:
+            d.start(H[i], Ql[i])
+        steps = int(math.ceil(t_end / dt - 1e-9))
+        t = np.arange(steps + 1) * dt
+        H_max, H_min = H.copy(), H.copy()
+        watch_idx = [self.node(w.pipe, w.node) for w in watch]
+        hist = {w.name: {"H": np.empty(steps + 1), "Q": np.empty(steps + 1)} for w in watch}
+        rows = [(hist[w.name]["H"], hist[w.name]["Q"], i) for w, i in zip(watch, watch_idx)]
+        for hh, qq, i in rows:
+            hh[0], qq[0] = H[i], Ql[i]
+        cp = np.empty(N - 1)
+        cm = np.empty(N - 1)
+        tmp = np.empty(N - 1)
+        Hn = np.empty(N - 2)
+        Qn = np.empty(N - 2)
+        low = np.empty(N - 2, dtype=bool)
+        n_cav = 0
+        H_a, H_b = H[:-1], H[1:]
+        Qr_a, Ql_b = Qr[:-1], Ql[1:]
+        H_in, Ql_in, Qr_in, cav_in = H[1:-1], Ql[1:-1], Qr[1:-1], cav[1:-1]
+        step_joints = [(joints[j].step, b, e) for j, b, e in flowing]
+        step_devices = [(d.step, i) for i, d in dev_nodes]
+        for s in range(1, steps + 1):
+            ts = t[s]
+            # C+ arriving at node i from i - 1 (cp[i - 1]) and C- arriving at node i from i + 1 (cm[i])
+            np.abs(Qr_a, out=tmp)
+            tmp *= Qr_a
+            tmp *= R_a
+            np.multiply(B_a, Qr_a, out=cp)
+            cp += H_a
+            cp -= tmp
+            np.abs(Ql_b, out=tmp)
+            tmp *= Ql_b
+            tmp *= R_b
+            np.multiply(B_b, Ql_b, out=cm)
+            np.subtract(H_b, cm, out=cm)
+            cm += tmp
+            cp_in, cm_in = cp[:-1], cm[1:]
+            np.add(cp_in, cm_in, out=Hn)
+            Hn *= 0.5
+            np.subtract(cp_in, cm_in, out=Qn)
+            Qn *= inv2B
+            if cavities:
+                np.less(Hn, Hv_in, out=low)
+                low &= free_in
+                wet_any = n_cav > 0 or low.any()
+            else:
+                wet_any = False
+            if wet_any:
+                wet = low | (cav_in > 0.0)
+                idx = np.nonzero(wet)[0]
+                hv = Hv_in[idx]
+                bi = B_in[idx]
+                qin = (cp_in[idx] - hv) / bi
+                qout = (hv - cm_in[idx]) / bi
+                vol = cav_in[idx] + 0.5 * dt * ((qout - qin) + (Qr_in[idx] - Ql_in[idx]))
+                H_in[:] = Hn
+                Ql_in[:] = Qn
+                Qr_in[:] = Qn
+                keep = vol > 0.0
+                kidx = idx[keep]
+                H_in[kidx] = hv[keep]
+                Ql_in[kidx] = qin[keep]
+                Qr_in[kidx] = qout[keep]
+                cav_in[idx] = np.where(keep, vol, 0.0)
+                n_cav = int(keep.sum())
+                np.maximum(cav_max, cav, out=cav_max)
+            else:
+                H_in[:] = Hn
+                Ql_in[:] = Qn
+                Qr_in[:] = Qn
+            for step, b, e in step_joints:
+                H1, Q1, H2, Q2 = step(ts, dt, (cp[e - 1], B[e]) if e is not None else None,
+                                      (cm[b], B[b]) if b is not None else None)
+                if e is not None:
+                    H[e] = H1
+                    Ql[e] = Qr[e] = Q1
+                if b is not None:
+                    H[b] = H2
+                    Ql[b] = Qr[b] = Q2
+            for step, i in step_devices:
+                H[i], Ql[i], Qr[i] = step(ts, dt, (cp[i - 1], B[i]), (cm[i], B[i]))
+            np.maximum(H_max, H, out=H_max)
+            np.minimum(H_min, H, out=H_min)
+            for hh, qq, i in rows:
+                hh[s] = H[i]
+                qq[s] = Ql[i]
+        for j, b, e in flowing:
+            hist.update(joints[j].histories())
+        for i, d in dev_nodes:
+            hist.update(d.histories())
+        split = lambda x: [x[off[k]:off[k + 1]].copy() for k in range(m)]  # noqa: E731
+        return Result(t, self.chainage, self.elevation, split(H_max), split(H_min), split(cav_max),
+                      [np.asarray(h, dtype=float).copy() for h in H0], hist, self.grid,
+                      self.grid.notes(pipes))
