@@ -9,11 +9,17 @@ from calc.model.elements import Line
 from calc.model.settings import CheckSettings
 from calc.model.sheet import Parsed, parse
 from calc.review import checks, energy, governing, machines, uncertainty, valves
+from calc.review import transient as transient_review
 from calc.review.findings import SEVERITIES
 from calc.review.summary import headline as summary_of
 from calc.steady.series import Solution, _json_safe, solve
 from calc.steady.settle import settle
+from calc.transient import line as transient_line
 from calc.units import InputError
+
+#: The screening findings of the steady surge check, which a case's transient run replaces.
+SCREENING_CODES = ("surge-wave-speed-missing", "surge-screen", "surge-column-separation", "surge-rating",
+                   "surge-no-rating", "surge-pump-trip")
 
 
 @dataclass
@@ -45,6 +51,24 @@ class CaseResult:
 
 
 @dataclass
+class TransientCase:
+    """One case's transient run: its figures (`calc.review.transient.summary`) and findings, or the
+    problem (field path and message) that kept it from running, or ``deferred`` when the page left a
+    long run to be asked for."""
+
+    name: str
+    summary: dict | None = None
+    findings: list = field(default_factory=list)
+    problem: tuple[str, str] | None = None
+    deferred: str = ""
+
+    def to_dict(self) -> dict:
+        return _json_safe({"case": self.name, "summary": self.summary, "deferred": self.deferred,
+                           "problem": {"path": self.problem[0], "message": self.problem[1]} if self.problem else None,
+                           "findings": [f.to_dict() for f in self.findings]})
+
+
+@dataclass
 class Analysis:
     """The parsed line, its solution, findings and uncertainty band; ``errors`` when the sheet does not parse.
 
@@ -64,6 +88,7 @@ class Analysis:
     cases: list[CaseResult] = field(default_factory=list)
     governing: list[dict] = field(default_factory=list)
     energy: dict | None = None  # calc.review.energy.year(): energy over a year, when the sheet asks for it
+    transients: list[TransientCase] = field(default_factory=list)  # each case with events, in case order
 
     @property
     def ok(self) -> bool:
@@ -95,12 +120,20 @@ class Analysis:
         if self.has_cases:
             out["cases"] = [c.to_dict() for c in self.cases]
             out["governing"] = _json_safe(self.governing)
+        if self.transients:
+            out["transients"] = [t.to_dict() for t in self.transients]
         return out
 
+    def transient(self, name: str | None) -> TransientCase | None:
+        key = (name or BASE_NAME).casefold()
+        return next((t for t in self.transients if t.name.casefold() == key), None)
 
-def analyse(doc: dict) -> Analysis:
-    """Parse, solve, band and review a sheet document and each of its cases; never raises on bad input."""
-    return analyse_parsed(parse(doc), doc)
+
+def analyse(doc: dict, transients: str = "all") -> Analysis:
+    """Parse, solve, band and review a sheet document and each of its cases, with the transient run of
+    each case that has events (``transients``: "all", "quick" for only runs small enough to redo on every
+    edit, "none"); never raises on bad input."""
+    return analyse_parsed(parse(doc), doc, transients)
 
 
 def solve_case(name: str, line: Line, settings: CheckSettings, changes=(), note: str = "") -> CaseResult:
@@ -121,7 +154,32 @@ def solve_case(name: str, line: Line, settings: CheckSettings, changes=(), note:
                       settled.turbines, settled.valves)
 
 
-def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:
+def run_transient(result: CaseResult, spec, mode: str = "all") -> TransientCase:
+    """The transient of one case from its steady answer, reviewed; its problem when it cannot run."""
+    out = TransientCase(result.name)
+    events = spec.events_of(result.name)
+    design = result.solution.design
+    if design is None:
+        out.problem = (events[0].path, "the case has no steady operating point to start the transient from")
+        return out
+    try:
+        limit = transient_line.QUICK_WORK if mode == "quick" else transient_line.MAX_WORK
+        steps, nodes = transient_line.estimate(result.line, spec)
+        if steps * nodes > limit:
+            if mode == "quick":
+                out.deferred = (f"a run of {steps} steps over {nodes} nodes: run on request")
+                return out
+            raise transient_line.TransientProblem("transient.duration", transient_line.too_long(steps, nodes))
+        ans = transient_line.run(result.line, float(design["Q"]), spec, events, result.name)
+    except transient_line.TransientProblem as e:
+        out.problem = (e.path, e.message)
+        return out
+    out.summary = transient_review.summary(result.line, ans)
+    out.findings = transient_review.findings(result.line, out.summary)
+    return out
+
+
+def analyse_parsed(parsed: Parsed, doc: dict | None = None, transients: str = "all") -> Analysis:
     """`analyse` for a document already parsed (the server parses each edit once, to store it)."""
     if not parsed.ok:
         return Analysis(doc, None, None, errors=parsed.errors)
@@ -129,9 +187,20 @@ def analyse_parsed(parsed: Parsed, doc: dict | None = None) -> Analysis:
     settings = line.settings.get("checks") or CheckSettings()
     results = [solve_case(BASE_NAME, line, settings)]
     results += [solve_case(c.name, c.line, settings, c.read.changes, c.read.note) for c in parsed.cases]
+    runs = []
+    spec = line.settings.get("transient")
+    if spec is not None and spec.any and transients != "none":
+        for r in results:
+            if spec.events_of(r.name):
+                tc = run_transient(r, spec, transients)
+                runs.append(tc)
+                if tc.summary is not None:
+                    kept = [transient_review.analysed_caution(f, tc.summary) if f.code == "general-surge" else f
+                            for f in r.findings if f.code not in SCREENING_CODES]
+                    r.findings = sorted(kept + tc.findings, key=lambda f: SEVERITIES.index(f.severity))
     base = results[0]
     findings = governing.merge([governing.CaseFindings(r.name, r.findings) for r in results])
     rows = (governing.governing([governing.CaseSummary(r.name, r.line, r.summary) for r in results], settings)
             if len(results) > 1 else [])
     return Analysis(doc, base.line, base.solution, findings, band=base.band, check_settings=settings,
-                    cases=results, governing=rows, energy=energy.year(results))
+                    cases=results, governing=rows, energy=energy.year(results), transients=runs)

@@ -354,6 +354,63 @@ def cmd_curve(args) -> int:
     return 0
 
 
+def cmd_transient(args) -> int:
+    """The transient run of each case with events (or of one case), its envelope table and findings."""
+    from calc.analysis import analyse
+
+    doc, line = _load(args.file)
+    a = analyse(doc)
+    system = a.line.header.get("units", "SI")
+    runs = a.transients
+    if args.case is not None:
+        if a.case(args.case) is None:
+            names = ", ".join(repr(c.name) for c in a.cases)
+            sys.exit(f"headsheet: {args.file} has no case {args.case!r} (its cases: {names})")
+        runs = [t for t in runs if t.name.casefold() == a.case(args.case).name.casefold()]
+        if not runs:
+            sys.exit(f"headsheet: case {args.case!r} has no events: add them to the sheet's transient events")
+    if not runs:
+        sys.exit(f"headsheet: {args.file} has no transient events: add them to the sheet's transient events")
+    if args.json:
+        json.dump([t.to_dict() for t in runs], sys.stdout, indent=2, allow_nan=False)
+        print()
+    else:
+        for t in runs:
+            print(format_transient(t, system))
+    return 0 if all(t.summary is not None for t in runs) else 1
+
+
+def format_transient(t, system: str = "SI") -> str:
+    """One case's transient run for the terminal: events, grid, each run's extremes, devices, findings."""
+    out = [f"Transient: case {t.name}"]
+    if t.summary is None:
+        out.append(f"  not run: {t.problem[0]}: {t.problem[1]}" if t.problem else f"  not run: {t.deferred}")
+        return "\n".join(out)
+    s = t.summary
+    out += [f"  event: {e}" for e in s["events"]]
+    out.append(f"  method of characteristics: {s['reaches']} reaches, time step {s['dt'] * 1000:.4g} ms, "
+               f"{s['steps']} steps over {s['duration']:g} s; steady friction; vapour cavities (DVCM)")
+    out += [f"  grid: {n}" for n in s["notes"]]
+    out.append(f"  {'run':<28} {'highest':>12} {'at':>10} {'lowest':>12} {'at':>10} {'rating':>12}  vapour")
+    for r in s["runs"]:
+        rating = _u(r["rating"], "pressure", system) if r["rating"] else "-"
+        out.append(f"  {r['run'][:28]:<28} {_u(r['p_max'], 'pressure', system):>12} "
+                   f"{_u(r['at_max'], 'length', system):>10} {_u(r['p_min'], 'pressure', system):>12} "
+                   f"{_u(r['at_min'], 'length', system):>10} {rating:>12}  {'reached' if r['vapour_reached'] else '-'}")
+    for d in s["devices"]:
+        if d["kind"] == "surge_tank":
+            extra = f"level {_u(d['level_min'], 'length', system)} to {_u(d['level_max'], 'length', system)}"
+        elif d["kind"] == "air_vessel":
+            extra = f"gas {d['gas_min']:.4g} to {d['gas_max']:.4g} m³ of {d['volume']:.4g} m³"
+        else:
+            extra = f"air in up to {d['air_max'] * 1000:.4g} L" if d["opened_at"] is not None else "stayed shut"
+        out.append(f"  device: {d['label']} at chainage {_u(d['chainage'], 'length', system)}: {extra}")
+    for name, m in s["machines"].items():
+        out.append(f"  {name}: speed {m['speed_end'] * 100:.1f} % of its curves' speed at the end")
+    out.append(format_findings(t.findings))
+    return "\n".join(out)
+
+
 def add_commands(sub: argparse._SubParsersAction) -> None:
     """Register solve, schema, head and size on the `headsheet` command's subparsers."""
     s = sub.add_parser("solve", help="solve a sheet file and print the operating points")
@@ -363,6 +420,11 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
     s.add_argument("--case", default=None, metavar="NAME",
                    help="solve only this operating case ('Base' for the sheet's own inputs); default every case")
     s.set_defaults(func=cmd_solve)
+    s = sub.add_parser("transient", help="run the transient events of each case (method of characteristics)")
+    s.add_argument("file")
+    s.add_argument("--case", default=None, metavar="NAME", help="only this case's events ('Base' for the sheet's own)")
+    s.add_argument("--json", action="store_true", help="the envelopes, histories and findings in SI units, as JSON")
+    s.set_defaults(func=cmd_transient)
     s = sub.add_parser("curve", help="print the system curve (head needed against flow, every case) as CSV")
     s.add_argument("file")
     s.set_defaults(func=cmd_curve)

@@ -31,6 +31,19 @@ from calc.water import G
 #: run shorter than that takes one reach with its wave speed lowered to fit (said in the notes; a short
 #: stiff run then behaves nearer a rigid column, which changes little on the line; common practice).
 SHORT_RUN_STEP = 0.25
+#: A Courant adjustment of a wave speed beyond this share is said in the notes (common practice: a few %).
+ADJUST_NOTED = 0.05
+#: A run holding less than this share of the line's travel time (a pump's suction, a short riser) may have
+#: its wave speed adjusted by up to ADJUST_SHORT: it behaves nearly as a rigid column whatever its wave
+#: speed, and holding it exactly would multiply the steps of the whole line (common practice).
+SHORT_SHARE = 0.05
+ADJUST_SHORT = 0.35
+
+
+#: The most work (steps times nodes) a run may take: about some seconds on a small machine; and the
+#: most the page redoes on every edit (about a tenth of a second), past which it runs on request.
+MAX_WORK = 4e7
+QUICK_WORK = 1.5e6
 
 
 class TransientProblem(Exception):
@@ -144,15 +157,12 @@ def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], cas
             z = el.end_elevation
     if not pipes:
         raise TransientProblem("elements", "the transient needs at least one pipe run")
-    total_travel = sum(p.L / p.a for p in pipes)
-    dt_target = total_travel / spec.reaches
-    shortest = min(p.L / p.a for p in pipes)
-    dt = min(dt_target, max(shortest, SHORT_RUN_STEP * dt_target))
+    dt = choose_step([p.L / p.a for p in pipes], spec.reaches)
     system = System(pipes, [None] * (len(pipes) + 1), reaches_min=1, gridded=_grid_for(pipes, dt))
     for k, (p, a) in enumerate(zip(pipes, system.grid.a_used)):
-        if abs(a / p.a - 1.0) > 0.05:
-            notes.append(f"{p.label}: shorter than the grid allows, one reach with its wave speed {p.a:.4g} m/s "
-                         f"lowered to {a:.4g} m/s")
+        if abs(a / p.a - 1.0) > ADJUST_NOTED:
+            notes.append(f"{p.label}: too short for the grid to hold its wave speed; {p.a:.4g} m/s taken as "
+                         f"{a:.4g} m/s ({(a / p.a - 1) * 100:+.0f} %), which changes little on a run this short")
     # Joints: the elements between runs, the start and end.
     joints, groups = [], [[]]
     for i, el in enumerate(line.elements):
@@ -230,6 +240,54 @@ def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], cas
             points.append((name, float(system.chainage[k][node])))
     answer = Answer(case, events, pipes, None, vapour, rating, placed, machines, points, notes, run_index, at_rest, rho)
     return system, (H0, Qs, watches), vapour, answer
+
+
+def estimate(line: Line, spec: TransientInputs) -> tuple[int, int]:
+    """The steps and nodes a run of the sheet would take (before building it), to refuse or defer a long one."""
+    travel, count = 0.0, 0
+    for i, el in enumerate(line.elements):
+        if isinstance(el, PipeRun):
+            a = wave_speed_detail(line, el)["a"]
+            if a is None:
+                raise TransientProblem(f"elements.{i}.wave_speed", "the transient needs this run's wave speed: give "
+                                       "its wall and material (Korteweg's wave speed), or type the wave speed")
+            travel += el.L / a
+            count += 1
+    if not count:
+        raise TransientProblem("elements", "the transient needs at least one pipe run")
+    dt = travel / spec.reaches
+    return int(math.ceil(spec.duration / (SHORT_RUN_STEP * dt))), int(travel / (SHORT_RUN_STEP * dt)) + 2 * count
+
+
+def choose_step(travels: list[float], reaches: int) -> float:
+    """The time step: at most the line's travel time over ``reaches``, at least SHORT_RUN_STEP of it, and
+    among those the longest whose Courant adjustment of the wave speeds (a run of travel time T_k takes
+    round(T_k / dt) reaches) is within ADJUST_NOTED in every run (ADJUST_SHORT in a run holding less than
+    SHORT_SHARE of the line's travel time), or else the one whose worst adjustment is least; a run too short
+    for one reach takes one."""
+    dt_hi = sum(travels) / reaches
+    dt_lo = SHORT_RUN_STEP * dt_hi
+    T = np.asarray(travels)
+    cands = [dt_hi]
+    for Tk in travels:
+        n_lo, n_hi = max(1, math.ceil(Tk / dt_hi)), max(1, math.floor(Tk / dt_lo))
+        cands += [Tk / n for n in range(n_lo, min(n_hi, n_lo + 400) + 1)]
+    cands = np.array([c for c in cands if dt_lo * (1 - 1e-12) <= c <= dt_hi * (1 + 1e-12)])
+    n = np.maximum(1.0, np.round(T[None, :] / cands[:, None]))
+    err = np.abs(n * cands[:, None] / T[None, :] - 1.0)
+    err = np.where(T[None, :] < cands[:, None], 0.0, err)  # a run shorter than a step takes one reach anyway
+    share = T / T.sum()
+    allowed = np.where(share < SHORT_SHARE, ADJUST_SHORT, ADJUST_NOTED)
+    worst = err.max(axis=1)
+    fine = np.all(err <= allowed[None, :] + 1e-12, axis=1)
+    if fine.any():
+        return float(cands[fine].max())
+    return float(cands[worst <= worst.min() + 1e-9].max())
+
+
+def too_long(steps: int, nodes: int) -> str:
+    return (f"a run of {steps} time steps over {nodes} nodes is more than this program takes on ({MAX_WORK:.0e} "
+            "node-steps): shorten the time it covers or ask for fewer reaches")
 
 
 def _grid_for(pipes, dt):

@@ -63,7 +63,7 @@ class Grid:
 
     def notes(self, pipes: list[Pipe]) -> list[str]:
         return [f"{p.label or f'pipe {k + 1}'}: wave speed {p.a:.4g} m/s adjusted to {a:.4g} m/s "
-                f"({(a / p.a - 1) * 100:+.2f} %), {n} reaches of {p.L / n:.4g} m"
+                f"({(a / p.a - 1) * 100:+.2f} %), {n} reach{'' if n == 1 else 'es'} of {p.L / n:.4g} m"
                 for k, (p, a, n) in enumerate(zip(pipes, self.a_used, self.counts))]
 
 
