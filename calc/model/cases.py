@@ -179,9 +179,11 @@ def _elements(r: Reader, c: dict, path: str, by_id: dict, case: CaseRead) -> Non
 
 def overlay(doc: dict, case: CaseRead) -> dict:
     """The sheet document of one case: the base with the case's changes written over it (the base is
-    not touched; only the groups a change reaches are copied)."""
+    not touched; only the groups a change reaches are copied), without the cases and the transient
+    inputs, which are the whole sheet's."""
     out = dict(doc)
     out.pop("cases", None)
+    out.pop("transient", None)  # read once, with the base: its events name the cases
     copied: set[tuple] = set()
 
     def place(path: tuple):

@@ -157,6 +157,43 @@ class Joint:
             s2, b2, c2 = down[0], down[1], self.c_down
         return s1, b1, c1, s2, b2, c2, forward
 
+    def set_vapour(self, hv_up: float, hv_down: float) -> None:
+        """The vapour heads at the pipe nodes on either side, below which a cavity opens there."""
+        self.hv_up, self.hv_down = hv_up, hv_down
+
+    hv_up = hv_down = -math.inf
+    cav_up = cav_down = 0.0       # cavity volumes at the nodes either side [m³]
+    dq_up = dq_down = 0.0         # the flow out of each cavity less the flow in, at the last step
+    cav_up_max = cav_down_max = 0.0
+
+    def _flow(self, s1, b1, c1, s2, b2, c2, forward):
+        """The one flow through the elements between sides E1 = s1 - b1 Q + c1 Q², E2 = s2 + b2 Q + c2 Q²."""
+        if self._losses_only:
+            # every term is a square or linear in Q: the root in closed form, on the side F(0) points to
+            A = s1 - s2
+            if A == 0.0 or (forward and A <= 0.0):
+                return 0.0
+            k = sum(el.k_now for el in self.elements)
+            a = c1 - c2 - (k if A > 0.0 else -k)
+            b = b1 + b2
+            if b == 0.0:
+                return math.copysign(math.sqrt(abs(A / a)), A) if a != 0.0 else 0.0
+            return 2.0 * A / (b + math.sqrt(max(0.0, b * b - 4.0 * a * A)))
+        els = self.elements
+
+        def F(q):
+            f = s1 - b1 * q + c1 * q * q - s2 - b2 * q - c2 * q * q
+            d = -b1 + 2 * c1 * q - b2 - 2 * c2 * q
+            for el in els:
+                h, dh = el.h(q)
+                f -= h
+                d -= dh
+            return f, d
+
+        if forward and F(0.0)[0] <= 0.0:
+            return 0.0
+        return solve_falling(F, self.Q, lo=0.0 if forward else -math.inf)
+
     def step(self, t, dt, up, down):
         for side in (self.upstream, self.downstream):
             if side is not None:
@@ -166,40 +203,60 @@ class Joint:
         s1, b1, c1, s2, b2, c2, forward = self._sides(up, down)
         shut = any(el.shut for el in self.elements) or any(
             side is not None and side.shut for side in (self.upstream, self.downstream))
-        if shut:
-            Q = 0.0
-        elif self._losses_only:
-            # every term is a square or linear in Q: the root in closed form, on the side F(0) points to
-            A = s1 - s2
-            if A == 0.0 or (forward and A <= 0.0):
-                Q = 0.0
-            else:
-                k = sum(el.k_now for el in self.elements)
-                a = c1 - c2 - (k if A > 0.0 else -k)
-                b = b1 + b2
-                Q = 2.0 * A / (b + math.sqrt(max(0.0, b * b - 4.0 * a * A)))
-        else:
-            els = self.elements
-
-            def F(q):
-                f = s1 - b1 * q + c1 * q * q - s2 - b2 * q - c2 * q * q
-                d = -b1 + 2 * c1 * q - b2 - 2 * c2 * q
-                for el in els:
-                    h, dh = el.h(q)
-                    f -= h
-                    d -= dh
-                return f, d
-
-            if forward and F(0.0)[0] <= 0.0:
-                Q = 0.0
-            else:
-                Q = solve_falling(F, self.Q, lo=0.0 if forward else -math.inf)
-        self.Q = Q
+        Q = 0.0 if shut else self._flow(s1, b1, c1, s2, b2, c2, forward)
         H1 = s1 - b1 * Q if up is not None else None
         H2 = s2 + b2 * Q if down is not None else None
+        Q1 = Q2 = Q
+        if up is not None and down is not None and not self.elements:
+            # a junction of two runs is one node: a vapour cavity there parts both
+            hv = max(self.hv_up, self.hv_down)
+            if self.cav_up > 0.0 or min(H1, H2) < hv:
+                q1, q2 = (s1 - hv) / b1, (hv - s2) / b2
+                vol = self.cav_up + 0.5 * dt * ((q2 - q1) + self.dq_up)
+                if vol > 0.0 or min(H1, H2) < hv:
+                    vol = max(vol, 0.0)
+                    H1 = H2 = hv
+                    Q1, Q2 = q1, q2
+                    self.cav_up, self.dq_up = vol, q2 - q1
+                    self.cav_up_max = max(self.cav_up_max, vol)
+                else:
+                    self.cav_up = self.dq_up = 0.0
+        else:
+            if up is not None and (self.cav_up > 0.0 or H1 < self.hv_up):
+                # the upstream run's last node at vapour: the elements draw from the cavity
+                q_in = (s1 - self.hv_up) / b1
+                q = 0.0 if shut else self._flow(self.hv_up, 0.0, c1, s2, b2, c2, forward)
+                vol = self.cav_up + 0.5 * dt * ((q - q_in) + self.dq_up)
+                if vol > 0.0 or H1 < self.hv_up:
+                    vol = max(vol, 0.0)
+                    Q, Q1, H1 = q, q_in, self.hv_up
+                    Q2 = Q
+                    H2 = s2 + b2 * Q if down is not None else None
+                    self.cav_up, self.dq_up = vol, q - q_in
+                    self.cav_up_max = max(self.cav_up_max, vol)
+                else:
+                    self.cav_up = self.dq_up = 0.0
+            if down is not None and (self.cav_down > 0.0 or H2 < self.hv_down):
+                # the downstream run's first node at vapour: the elements feed the cavity
+                e1 = (self.hv_up, 0.0) if self.cav_up > 0.0 else (s1, b1)
+                q = 0.0 if shut else self._flow(e1[0], e1[1], c1, self.hv_down, 0.0, c2, forward)
+                q_out = (self.hv_down - s2) / b2
+                vol = self.cav_down + 0.5 * dt * ((q_out - q) + self.dq_down)
+                if vol > 0.0 or H2 < self.hv_down:
+                    vol = max(vol, 0.0)
+                    Q, Q2, H2 = q, q_out, self.hv_down
+                    if self.cav_up > 0.0:
+                        self.dq_up = q - Q1
+                    else:
+                        Q1, H1 = Q, (s1 - b1 * Q if up is not None else None)
+                    self.cav_down, self.dq_down = vol, q_out - q
+                    self.cav_down_max = max(self.cav_down_max, vol)
+                else:
+                    self.cav_down = self.dq_down = 0.0
+        self.Q = Q
         for el in self.elements:
             el.advance(t, dt, Q, H1, H2)
-        return H1, Q, H2, Q
+        return H1, Q1, H2, Q2
 
     def histories(self) -> dict:
         out = {}

@@ -244,19 +244,19 @@ def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], cas
 
 def estimate(line: Line, spec: TransientInputs) -> tuple[int, int]:
     """The steps and nodes a run of the sheet would take (before building it), to refuse or defer a long one."""
-    travel, count = 0.0, 0
+    travels = []
     for i, el in enumerate(line.elements):
         if isinstance(el, PipeRun):
             a = wave_speed_detail(line, el)["a"]
             if a is None:
                 raise TransientProblem(f"elements.{i}.wave_speed", "the transient needs this run's wave speed: give "
                                        "its wall and material (Korteweg's wave speed), or type the wave speed")
-            travel += el.L / a
-            count += 1
-    if not count:
+            travels.append(el.L / a)
+    if not travels:
         raise TransientProblem("elements", "the transient needs at least one pipe run")
-    dt = travel / spec.reaches
-    return int(math.ceil(spec.duration / (SHORT_RUN_STEP * dt))), int(travel / (SHORT_RUN_STEP * dt)) + 2 * count
+    dt = choose_step(travels, spec.reaches)
+    nodes = sum(max(1, round(T / dt)) + 1 for T in travels)
+    return int(math.ceil(spec.duration / dt)), nodes
 
 
 def choose_step(travels: list[float], reaches: int) -> float:

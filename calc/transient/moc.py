@@ -180,6 +180,8 @@ class System:
         for j, b, e in flowing:
             joints[j].start(H[e] if e is not None else None, Ql[e] if e is not None else None,
                             H[b] if b is not None else None, Ql[b] if b is not None else None)
+            if cavities and hasattr(joints[j], "set_vapour"):
+                joints[j].set_vapour(Hv[e] if e is not None else -np.inf, Hv[b] if b is not None else -np.inf)
         for i, d in dev_nodes:
             d.start(H[i], Ql[i])
         steps = int(math.ceil(t_end / dt - 1e-9))
@@ -239,13 +241,16 @@ class System:
                 H_in[:] = Hn
                 Ql_in[:] = Qn
                 Qr_in[:] = Qn
-                keep = vol > 0.0
+                # a cavity that shrinks to nothing collapses: the node is liquid again, unless its liquid head
+                # would still lie below the vapour head (then it stays at vapour with no volume yet)
+                keep = (vol > 0.0) | (Hn[idx] < hv)
                 kidx = idx[keep]
                 H_in[kidx] = hv[keep]
                 Ql_in[kidx] = qin[keep]
                 Qr_in[kidx] = qout[keep]
+                vol = np.maximum(vol, 0.0)
                 cav_in[idx] = np.where(keep, vol, 0.0)
-                n_cav = int(keep.sum())
+                n_cav = int(np.count_nonzero(vol[keep]))
                 np.maximum(cav_max, cav, out=cav_max)
             else:
                 H_in[:] = Hn
@@ -269,6 +274,13 @@ class System:
                 qq[s] = Ql[i]
         for j, b, e in flowing:
             hist.update(joints[j].histories())
+            jt = joints[j]
+            if e is not None and getattr(jt, "cav_up_max", 0.0) > 0.0:
+                cav_max[e] = max(cav_max[e], jt.cav_up_max)
+                if b is not None and not jt.elements:
+                    cav_max[b] = max(cav_max[b], jt.cav_up_max)
+            if b is not None and getattr(jt, "cav_down_max", 0.0) > 0.0:
+                cav_max[b] = max(cav_max[b], jt.cav_down_max)
         for i, d in dev_nodes:
             hist.update(d.histories())
         split = lambda x: [x[off[k]:off[k + 1]].copy() for k in range(m)]  # noqa: E731
