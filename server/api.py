@@ -252,6 +252,10 @@ def solve(request: Request, body: SolveIn) -> Response:
         # Every case solved with its checks (the base first), and the governing case of each check.
         body["cases"] = [c.to_dict() for c in a.cases]
         body["governing"] = outcome.governing
+    if outcome.transients:
+        # The transient runs small enough to answer at once; a longer one is deferred (store the sheet and
+        # ask GET /api/sheets/{id}/revisions/{n}/transient, answered in the work lane).
+        body["transients"] = outcome.transients
     return JSONResponse(body)
 
 

@@ -27,6 +27,7 @@ from server import (
     record,  # the calculation record: record, PDF, sign-off, verify, compare
     sharing,
     sizes_page,  # every standard size in a range, on request
+    transient_page,  # the transient runs in full, on request
 )
 from server.access import KeyFile, Sharing, Signer
 from server.form import message_id
@@ -287,6 +288,7 @@ def create_app(data_dir: Path, demos: list[Demo] | None = None, share: bool = Fa
     app.include_router(record.router)
     app.include_router(plot_routes.router)
     app.include_router(sizes_page.router)
+    app.include_router(transient_page.router)
     app.include_router(account_pages.router)
     app.mount("/static", StaticFiles(directory=str(STATIC)), name="static")
     app.add_exception_handler(StarletteHTTPException, _http_error)

@@ -22,15 +22,16 @@ from typing import Any
 
 from calc.model import cases as calc_cases
 from calc.model import sheet as calc_sheet
+from calc.model import transient_spec as calc_transient
 from calc.units import unit_allowed, unit_text
 
 #: Top-level parts of the document a form field may write to.
-SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements", "cases", "energy")
+SECTIONS = ("header", "liquid", "site", "settings", "start", "end", "elements", "cases", "energy", "transient")
 #: Fields whose value changes which other fields the form shows.
-SWITCH_KEYS = {"kind", "mode", "type", "standard", "speed_control", "units", "valve_type", "setting"}
+SWITCH_KEYS = {"kind", "mode", "type", "standard", "speed_control", "units", "valve_type", "setting", "law"}
 #: Keys holding a group of fields that a form may create when the document has none yet (a pipe's size,
 #: the settings and their check limits, which most sheets leave at their defaults).
-CREATABLE_GROUPS = {"size", "settings", "checks", "energy"}
+CREATABLE_GROUPS = {"size", "settings", "checks", "energy", "transient"}
 #: Lists a form may add items to, with the template for a new item and the most allowed.
 LIST_TEMPLATES: dict[str, tuple[dict, int]] = {
     "fittings": (calc_sheet.FITTING_TEMPLATE, calc_sheet.MAX_FITTINGS),
@@ -38,6 +39,11 @@ LIST_TEMPLATES: dict[str, tuple[dict, int]] = {
     "curve": (calc_sheet.CURVE_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
     "cases": (calc_sheet.CASE_TEMPLATE, calc_sheet.MAX_CASES),
     "flow_duration": (calc_sheet.FDC_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
+    "events": (calc_transient.EVENT_TEMPLATE, calc_transient.MAX_EVENTS),
+    "devices": (calc_transient.DEVICE_TEMPLATE, calc_transient.MAX_DEVICES),
+    "points": (calc_transient.POINT_TEMPLATE, calc_sheet.MAX_POINTS),
+    "table": (calc_transient.LAW_POINT_TEMPLATE, calc_sheet.MAX_POINTS),
+    "four_quadrant": (calc_transient.SUTER_POINT_TEMPLATE, calc_transient.MAX_SUTER_POINTS),
 }
 #: Fields a new pipe run takes from the last one on the sheet: the same pipe carries on. Its length and
 #: end elevation are asked for (a run level with the last one would be a number nobody gave).

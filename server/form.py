@@ -12,25 +12,11 @@ from calc.model.reader import Reader
 from calc.model.settings import CheckSettings
 from calc.model.sheet import is_request
 from server.editing import get_path, is_missing
+from server.form_specs import Spec
+from server.form_transient import ALL_SPECS as TRANSIENT_SPECS
+from server.form_transient import OPTIONS as TRANSIENT_OPTIONS
+from server.form_transient import TransientForm
 from server.results import method_name, quantity
-
-
-@dataclass(frozen=True)
-class Spec:
-    """One field of the form: its key in its group, label, input kind and an example value."""
-
-    key: str
-    label: str
-    kind: str = "qty"  # qty | text | textarea | select | ratio | count
-    example: str = ""
-    help: str = ""
-    options: str = ""  # name of an option list in OPTIONS
-    datalist: str = ""  # name of a suggestion list for a free-text field
-    default: str = ""  # what an empty select means, e.g. "anchored throughout"
-    wide: bool = False
-    shows_default: bool = False  # the example is the value an empty field means (a check limit's default)
-    as_base: bool = False  # the example is the base sheet's value, which an empty case field keeps
-    detail: str = ""  # the help in full, shown when the pointer rests on the short one
 
 
 def _materials():
@@ -93,6 +79,7 @@ OPTIONS = {
     "case_condition": lambda: [("", "as the base"), ("new", "new: each material's new roughness"),
                                ("aged", "aged: each material's aged roughness")],
     "entrance": lambda: [(f.key, f.name) for f in tables.fittings() if f.key.startswith("entrance")],
+    **TRANSIENT_OPTIONS,
 }
 
 @lru_cache(maxsize=None)
@@ -199,6 +186,7 @@ PIPE = [
     Spec("wall_thickness", "Wall thickness", example="8 mm", help="optional; else from the size"),
     Spec("rating", "Pressure rating (gauge)", example="16 bar", help="optional"),
     Spec("restraint", "Restraint", "select", options="restraint", default="anchored throughout"),
+    Spec("wave_speed", "Wave speed", example="1100 m/s", help="optional; empty: Korteweg's, from the wall"),
 ]
 TURBINE = {
     "power": [Spec("label", "Label", "text"), Spec("mode", "Given as", "select", options="turbine_mode"),
@@ -389,7 +377,7 @@ def _shown(value: Any) -> str:
     return ""  # a group or list where a value belongs; the parse message says so
 
 
-class FormView:
+class FormView(TransientForm):
     """Builds Field objects for a document and its parse errors; the templates only lay them out."""
 
     def __init__(self, doc: dict, errors: list | None = None, focus: str | None = None, readonly: bool = False):
@@ -416,7 +404,8 @@ class FormView:
         value = _shown(get_path(self.doc, path))
         options: list[tuple[str, str]] = []
         if spec.options:
-            options = list(_options(spec.options))
+            options = (self.dynamic_options(spec.options, prefix) if spec.options.startswith("@")
+                       else list(_options(spec.options)))
             if value not in {v for v, _ in options}:
                 # Keep what the document holds visible (and posted back unchanged) even if unknown.
                 if value:
@@ -694,13 +683,13 @@ class FormView:
         out += self.node("end") + self.case_fields() + self.energy()
         for j, _pt in enumerate(self.items("energy.flow_duration")):
             out += self.fdc_point(f"energy.flow_duration.{j}")
-        return out + self.checks()
+        return out + self.transient_fields() + self.checks()
 
 
 # -- where a message goes, and how to name a field in words -------------------------------------
 
 _LABELS: dict[str, str] = {}
-for _specs in [HEADER, SITE, SETTINGS, CHECKS, ENERGY, FDC_POINT, PIPE, *VALVE.values(), list(VALVE_SETTING.values()), PROFILE_POINT,
+for _specs in [*TRANSIENT_SPECS, HEADER, SITE, SETTINGS, CHECKS, ENERGY, FDC_POINT, PIPE, *VALVE.values(), list(VALVE_SETTING.values()), PROFILE_POINT,
                PUMP_POINT, TURBINE_POINT, TURBINE_ETA_POINT,
                *PUMP_SPEED.values(),
                *LIQUID.values(), *NODE.values(), *TURBINE.values(), *PUMP.values(), *FITTING.values()]:
@@ -710,9 +699,11 @@ _LABELS.update({"checks": "check limits", "kind": "kind", "type": "fitting", "co
                 "nominal": "nominal size", "class": "class", "size": "size", "fittings": "fittings",
                 "profile": "profile", "curve": "curve points", "mode": "given as"})
 _SECTIONS = {"header": "Header", "liquid": "Liquid", "site": "Site", "settings": "Settings", "start": "Start",
-             "end": "End", "elements": "Elements", "cases": "Cases", "energy": "Energy over a year", "format": "Sheet format", "version": "Sheet format version"}
+             "end": "End", "elements": "Elements", "cases": "Cases", "energy": "Energy over a year",
+             "transient": "Transients", "format": "Sheet format", "version": "Sheet format version"}
 _ITEMS = {"fittings": "fitting", "profile": "profile point", "curve": "curve point",
-          "flow_duration": "flow-duration point"}
+          "flow_duration": "flow-duration point", "events": "event", "devices": "device", "points": "point",
+          "table": "point in time", "four_quadrant": "four-quadrant point"}
 
 
 def describe(doc: dict, path: str) -> str:
@@ -760,6 +751,7 @@ def slot_paths(form: "FormView") -> tuple[set[str], set[str]]:
     for i, _case in enumerate(form.items("cases")):
         paths.update({f"cases.{i}", f"cases.{i}.elements", f"cases.{i}.pipes", f"cases.{i}.start",
                       f"cases.{i}.end", f"cases.{i}.liquid"})
+    paths |= form.transient_groups()
     for i, element in enumerate(form.items("elements")):
         paths.add(f"elements.{i}")
         if isinstance(element, dict) and element.get("kind") == "pipe":

@@ -61,8 +61,9 @@ KEY_HEADER = "x-headsheet-key"
 _VIEW_GET = [re.compile(p) for p in (
     r"^/sheets/(\d+)$", r"^/sheets/(\d+)/history$", r"^/sheets/(\d+)/revisions/\d+$",
     r"^/sheets/(\d+)/record$", r"^/sheets/(\d+)/revisions/\d+/record$", r"^/sheets/(\d+)/revisions/\d+/record\.pdf$",
-    r"^/sheets/(\d+)/compare$", r"^/sheets/(\d+)/export\.json$", r"^/sheets/(\d+)/revisions/\d+/plots/[a-z]+\.svg$",
+    r"^/sheets/(\d+)/compare$", r"^/sheets/(\d+)/export\.json$", r"^/sheets/(\d+)/revisions/\d+/plots/[a-z]+(?:-[0-9]{1,2})?\.svg$",
     r"^/sheets/(\d+)/revisions/\d+/system-curve\.csv$", r"^/sheets/(\d+)/revisions/\d+/sizes$",
+    r"^/sheets/(\d+)/revisions/\d+/transient$", r"^/api/sheets/(\d+)/revisions/\d+/transient$",
     r"^/api/sheets/(\d+)$", r"^/api/sheets/(\d+)/revisions$", r"^/api/sheets/(\d+)/revisions/\d+$",
     r"^/api/sheets/(\d+)/revisions/\d+/record$",
 )]

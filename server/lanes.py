@@ -58,7 +58,7 @@ _TOLD = (_SCHEME, _CLIENT, _SERVER, _CSRF)
 #: plots; with or without a read-only link's prefix (the gate gives the path behind it as route_path).
 _SHEET = re.compile(r"^/(?:api/)?sheets/(?P<id>\d+)(?:/revisions/(?P<n>\d+))?(?P<rest>/[^?]*)?$")
 #: What goes to the lane whatever the sheet's size.
-_ALWAYS = re.compile(r"/(?:record|record\.pdf|compare|export\.json|sizes)$")
+_ALWAYS = re.compile(r"/(?:record|record\.pdf|compare|export\.json|sizes|transient)$")
 #: What never goes to the lane: sign-off and the small changes to a sheet's standing.
 _NEVER = re.compile(r"/(?:signatures|links|links/revoke|archive|unarchive|duplicate|restore)$")
 _HOP = {b"connection", b"keep-alive", b"transfer-encoding", b"te", b"upgrade", b"proxy-connection",

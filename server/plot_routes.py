@@ -22,7 +22,7 @@ from server.store import Store
 log = logging.getLogger("headsheet.server")
 
 #: What a plot's name in an address may be: one of the figures' keys.
-NAME = re.compile(r"^[a-z]{1,20}$")
+NAME = re.compile(r"^[a-z]{1,20}(-[0-9]{1,2})?$")
 
 
 def units_of(document: dict) -> str:

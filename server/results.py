@@ -36,6 +36,9 @@ class Outcome:
     case_names: list = field(default_factory=list)
     governing: list = field(default_factory=list)  # calc.review.governing.governing() rows, SI
     energy: dict | None = None  # calc.review.energy.year(), SI (W h, W, m3/s)
+    #: calc.analysis.TransientCase.to_dict() of each case with events: the runs small enough to redo on
+    #: every edit ("quick"), the others deferred to the transient page (server/transient_page.py)
+    transients: list = field(default_factory=list)
 
     @property
     def ok(self) -> bool:
@@ -53,14 +56,15 @@ def solve_parsed(parsed: Any) -> Outcome:
         return Outcome(errors=list(parsed.errors))
     try:
         # The same analysis as the record's: the sheet's own check limits, the band, the findings.
-        a = calc_analysis.analyse_parsed(parsed)
+        a = calc_analysis.analyse_parsed(parsed, transients="quick")
         solution = a.solution.to_dict()
         return Outcome(solution=solution, findings=_json_safe([f.to_dict() for f in a.findings]),
                        band=_json_safe(a.band),
                        headline=_json_safe(a.cases[0].summary or headline(a.line, solution, a.check_settings)),
                        analysis=a, cases=_json_safe(case_figures(a)) if a.has_cases else [],
                        case_names=[c.name for c in a.cases] if a.has_cases else [],
-                       governing=_json_safe(a.governing), energy=_json_safe(a.energy))
+                       governing=_json_safe(a.governing), energy=_json_safe(a.energy),
+                       transients=[t.to_dict() for t in a.transients])
     except Exception as exc:  # a fault in the solver must not take the page down with it
         log.exception("solver failed")
         return Outcome(failure=f"The solver stopped with an internal fault ({type(exc).__name__}: {exc}). "

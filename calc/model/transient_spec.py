@@ -28,6 +28,14 @@ DEVICE_KINDS = ("surge_tank", "air_vessel", "air_valve")
 POINT_FIELDS = ("chainage", "label")
 MAX_EVENTS = 20
 MAX_DEVICES = 10
+MAX_SUTER_POINTS = 200
+#: What the form adds for a new event, device, point, point in time, four-quadrant point.
+EVENT_TEMPLATE = {"case": "", "kind": "valve", "element": "", "label": "", "start": "", "law": "linear", "time": "",
+                  "to": ""}
+DEVICE_TEMPLATE = {"kind": "surge_tank", "label": "", "chainage": ""}
+POINT_TEMPLATE = {"chainage": "", "label": ""}
+LAW_POINT_TEMPLATE = {"time": "", "opening": ""}
+SUTER_POINT_TEMPLATE = {"angle": "", "WH": "", "WB": ""}
 #: The least reaches in all a run takes when the sheet names none, and the most it may ask for (a run's
 #: time grows with reaches times steps, both in proportion: 2000 reaches is some seconds of work).
 REACHES_DEFAULT = 200
@@ -296,7 +304,7 @@ def _law(r: Reader, e: dict, path: str, start: float, closing_default: float) ->
 
 def _suter(r: Reader, e: dict, path: str) -> list:
     pts = []
-    for j, pt in enumerate(r.lst(e, "four_quadrant", f"{path}.four_quadrant", 200)):
+    for j, pt in enumerate(r.lst(e, "four_quadrant", f"{path}.four_quadrant", MAX_SUTER_POINTS)):
         pp = f"{path}.four_quadrant.{j}"
         if not isinstance(pt, dict):
             r.fail(pp, pt, "must have an angle, WH and WB")

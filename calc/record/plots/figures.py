@@ -10,9 +10,8 @@
 
 Each figure is a function of data (`head_flow_plot` takes a list of named system curves, one per
 operating case); the ``*_plot(analysis, system)`` functions gather that data from an analysis.
-The transient envelope (issue 14) is a chainage plot beside ``profile``: it is to start from
-`chainage_chart`, which gives the chainage axis, the centreline and the element tags, and go into
-`all_plots` right after the profile.
+The transient figures (`calc.record.plots.transient`: envelope along the chainage, histories in time)
+go into `all_plots` right after the profile.
 """
 
 from __future__ import annotations
@@ -491,14 +490,24 @@ def all_plots(analysis, system: str = "SI") -> list[Plot]:
     """Every plot that applies to this sheet, in the order the page and the record show them."""
     if analysis is None or analysis.solution is None:
         return []
+    from calc.record.plots.transient import transient_plots
+
     system = system if system in ("SI", "US") else "SI"
-    return [p for p in (f(analysis, system) for f in FIGURES) if p is not None]
+    out = [p for p in (f(analysis, system) for f in FIGURES) if p is not None]
+    # the transient figures come right after the grade lines they extend
+    at = 1 if out and out[0].key == "profile" else 0
+    return out[:at] + transient_plots(analysis, system) + out[at:]
 
 
 def plot_named(analysis, key: str, system: str = "SI") -> Plot | None:
     """One plot by its key, or None when the sheet has no such plot."""
-    if key not in KEYS or analysis is None or analysis.solution is None:
+    if analysis is None or analysis.solution is None:
         return None
-    return FIGURES[KEYS.index(key)](analysis, system if system in ("SI", "US") else "SI")
+    system = system if system in ("SI", "US") else "SI"
+    if key not in KEYS:
+        from calc.record.plots.transient import transient_plots
+
+        return next((p for p in transient_plots(analysis, system) if p.key == key), None)
+    return FIGURES[KEYS.index(key)](analysis, system)
 
 
