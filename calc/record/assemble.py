@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from calc.record import cases, energy, inputs, method, plots, results, scope, steps
+from calc.record import cases, energy, inputs, method, plots, results, scope, steps, transient
 from calc.record import fingerprint as fp
 from calc.record.context import Context
 from calc.record.parts import ROLE_TITLES, ROLES, Meta, Record, Signature, revision_label
@@ -76,6 +76,7 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
         references=b.refs.items,
         cases=cases.cases(b),
         energy=energy.energy(b),
+        transients=transient.transients(b),
         **common,
     )
 

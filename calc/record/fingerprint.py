@@ -80,7 +80,18 @@ def key_results(analysis) -> dict:
     if getattr(analysis, "has_cases", False):
         # Each case's design point (a sheet without cases keeps the fingerprint it always had).
         out["cases"] = [_case_results(c) for c in analysis.cases[1:]]
+    if getattr(analysis, "transients", None):
+        # Each case's transient extremes (a sheet without events keeps the fingerprint it always had).
+        out["transients"] = [_transient_results(t) for t in analysis.transients]
     return out
+
+
+def _transient_results(t) -> dict:
+    if t.summary is None:
+        return {"case": t.name, "status": "not run"}
+    return {"case": t.name, "reaches": t.summary["reaches"], "steps": t.summary["steps"],
+            "runs": [{"p_max": _num(r["p_max"]), "p_min": _num(r["p_min"]), "vapour": r["vapour_reached"]}
+                     for r in t.summary["runs"]]}
 
 
 def _case_results(case) -> dict:

@@ -154,6 +154,7 @@ class Record:
     errors: list[dict] = field(default_factory=list)
     cases: list[Table] = field(default_factory=list)  # calc.record.cases: empty without operating cases
     energy: list[Table] = field(default_factory=list)  # calc.record.energy: empty without energy inputs
+    transients: list[dict] = field(default_factory=list)  # calc.record.transient: empty without events
 
     @property
     def signed(self) -> bool:

@@ -349,10 +349,11 @@ def test_labels_from_the_sheet_are_escaped_in_every_place():
 
 
 def test_the_design_point_is_labelled_on_every_plot_against_flow(analysed):
-    """Its label has the first place beside its marker, before the BEP's or any other."""
+    """Its label has the first place beside its marker, before the BEP's or any other (plots against chainage
+    or time have none)."""
     for name, p in every_plot(analysed):
         a = analysed[name][0]
-        if p.key in ("profile", "power") or a.solution.design is None:
+        if p.key.split("-")[0] in ("profile", "power", "envelope", "history", "state") or a.solution.design is None:
             continue
         labels = [el.text for el in texts(parse(p), "point-label")]
         assert any("(design)" in t for t in labels), (name, p.key, labels)

@@ -1,0 +1,78 @@
+"""The record's transient analysis: the method with its references, and for each case with events its
+events, grid, devices and each run's highest and lowest pressure against its rating; for the cases
+without events, that the surge findings are the screening estimate's. Empty when no case has events."""
+
+from __future__ import annotations
+
+from calc.record.context import Context
+from calc.record.parts import Table
+from calc.record.text import shown
+
+MOC_REF = ("Wylie, E. B. and Streeter, V. L. (1993). Fluid Transients in Systems. Prentice Hall, Englewood Cliffs "
+           "(with L. Suo): the method of characteristics, boundary conditions of reservoirs, valves, junctions, pumps, "
+           "surge tanks and air vessels (from memory).")
+DVCM_REF = ("Bergant, A., Simpson, A. R. and Tijsseling, A. S. (2006). Water hammer with column separation: a historical "
+            "review. Journal of Fluids and Structures 22(2): 135-171: the discrete vapour cavity model.")
+
+
+def transients(c: Context) -> list[dict]:
+    runs = getattr(c.a, "transients", []) or []
+    if not runs:
+        return []
+    s = c.system
+    r_moc = c.refs.cite(MOC_REF, "transient analysis")
+    r_dvcm = c.refs.cite(DVCM_REF, "vapour cavities")
+    method = (f"Method of characteristics {r_moc}: along C+ and C-, H_P = C_P - B Q_P and H_P = C_M + B Q_P with "
+              "B = a/(gA) and C_P = H_A + B Q_A - R Q_A|Q_A|, R = f dx/(2 g D A²) (steady friction, each run's losses "
+              "at its steady flow lumped into f so that t = 0 is the steady answer); one time step for the line, "
+              "each run's reaches dx = a dt (Courant number 1) with its wave speed adjusted to fit, as listed. "
+              "Joints in total head: reservoirs, junctions, valves (relative flow coefficient by the law in time), "
+              "turbines (the steady head as an orifice scaled by the gate), pumps (running on their curves; after "
+              "a trip by the homologous laws and the run-down I ω dα/dt = -T, trapezoidal in time; an ideal check "
+              "valve shutting on reverse flow). Where the head falls to the vapour head a vapour cavity is held "
+              f"there (discrete vapour cavity model {r_dvcm}) until it collapses. Devices: an open surge tank "
+              "(level integrated from its flow, a throat loss), an air vessel (p V^n constant, losses in and out), "
+              "an air valve (isentropic orifice flow of air in and out, the pocket isothermal).")
+    out = []
+    names = {t.name.casefold() for t in runs}
+    screening = [cr.name for cr in c.a.cases if cr.name.casefold() not in names]
+    for t in runs:
+        sec = {"case": t.name, "method": method, "problem": "", "tables": [], "events": [], "notes": []}
+        if t.summary is None:
+            sec["problem"] = (t.problem[1] if t.problem else t.deferred) or "not run"
+            out.append(sec)
+            continue
+        sm = t.summary
+        sec["events"] = sm["events"]
+        sec["notes"] = [f"Grid: {sm['reaches']} reaches, time step {sm['dt'] * 1000:.4g} ms, {sm['steps']} steps over "
+                        f"{sm['duration']:.4g} s."] + list(sm["notes"])
+        rows = []
+        for r in sm["runs"]:
+            rating = shown(r["rating"], "pressure", s) if r["rating"] else "none given"
+            verdict = ("over its rating" if r["rating"] and r["p_max"] > r["rating"] else
+                       "within its rating" if r["rating"] else "no rating")
+            rows.append([r["run"], f"{r['wave_speed']:.0f} → {r['wave_speed_used']:.0f} m/s",
+                         f"{shown(r['p_max'], 'pressure', s)} at {shown(r['at_max'], 'length', s)}",
+                         f"{shown(r['p_min'], 'pressure', s)} at {shown(r['at_min'], 'length', s)}", rating,
+                         verdict + ("; vapour line reached" if r["vapour_reached"] else "")])
+        sec["tables"].append(Table(["Run", "Wave speed (adjusted)", "Highest pressure", "Lowest pressure", "Rating",
+                                    "Against them"], rows, f"Transient pressures, case {t.name}",
+                                   ["l", "r", "r", "r", "r", "l"], css="transient"))
+        if sm["devices"]:
+            drows = []
+            for d in sm["devices"]:
+                if d["kind"] == "surge_tank":
+                    what = (f"level {shown(d['level_min'], 'length', s)} to {shown(d['level_max'], 'length', s)} "
+                            f"(floor {shown(d['bottom'], 'length', s)}, rim {shown(d['top'], 'length', s)})")
+                elif d["kind"] == "air_vessel":
+                    what = f"gas {d['gas_min']:.4g} to {d['gas_max']:.4g} m³ of {d['volume']:.4g} m³"
+                else:
+                    what = (f"air in up to {d['air_max'] * 1000:.3g} L" if d["opened_at"] is not None else "stayed shut")
+                drows.append([d["label"], d["kind"].replace("_", " "), shown(d["chainage"], "length", s), what])
+            sec["tables"].append(Table(["Device", "Kind", "At chainage", "In the run"], drows,
+                                       f"Protection devices, case {t.name}", ["l", "l", "r", "l"], css="transient"))
+        out.append(sec)
+    if screening:
+        out[-1]["notes"].append("Cases without events (" + ", ".join(screening) + "): the surge findings are the "
+                                "screening estimate's (Joukowsky's rise for a sudden stop), not a transient run.")
+    return out
