@@ -391,6 +391,7 @@ def format_transient(t, system: str = "SI") -> str:
     out.append(f"  method of characteristics: {s['reaches']} reaches, time step {s['dt'] * 1000:.4g} ms, "
                f"{s['steps']} steps over {s['duration']:g} s; steady friction; vapour cavities (DVCM)")
     out += [f"  grid: {n}" for n in s["notes"]]
+    out += [f"  {r['run']}: {r['wave_speed_text']}" for r in s["runs"]]
     out.append(f"  {'run':<28} {'highest':>12} {'at':>10} {'lowest':>12} {'at':>10} {'rating':>12}  vapour")
     for r in s["runs"]:
         rating = _u(r["rating"], "pressure", system) if r["rating"] else "-"

@@ -45,7 +45,8 @@ def transients(c: Context) -> list[dict]:
         sm = t.summary
         sec["events"] = sm["events"]
         sec["notes"] = [f"Grid: {sm['reaches']} reaches, time step {sm['dt'] * 1000:.4g} ms, {sm['steps']} steps over "
-                        f"{sm['duration']:.4g} s."] + list(sm["notes"])
+                        f"{sm['duration']:.4g} s."] + list(sm["notes"]) + [
+                        f"{r['run']}: {r['wave_speed_text']}." for r in sm["runs"]]
         rows = []
         for r in sm["runs"]:
             rating = shown(r["rating"], "pressure", s) if r["rating"] else "none given"

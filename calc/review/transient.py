@@ -12,9 +12,11 @@ import numpy as np
 from calc.model.elements import Line
 from calc.model.transient_spec import Event
 from calc.review.findings import RATING_NEAR, SRC_VAPOUR, Finding, label, shown_in
+from calc.review.surge import describe_wave_speed
 from calc.transient import devices as dev_mod
 from calc.transient.line import Answer
 from calc.transient.machines import Suter
+from calc.transient.wave import wave_speed_detail
 from calc.water import G
 
 SRC_MOC = ("method of characteristics, Wylie and Streeter, Fluid Transients in Systems (1993); vapour cavities "
@@ -66,6 +68,7 @@ def summary(line: Line, ans: Answer) -> dict:
     r = ans.result
     rho = ans.rho
     envelope, runs = [], []
+    u = shown_in(line)
     for k, p in enumerate(ans.pipes):
         z = r.elevation[k]
         pmax = rho * G * (r.H_max[k] - z)
@@ -85,6 +88,7 @@ def summary(line: Line, ans: Answer) -> dict:
             "p_steady_max": float(np.max(rho * G * (r.H0[k] - z))),
             "cavity_max": float(r.cavity_max[k].max()),
             "vapour_reached": bool(r.cavity_max[k].max() > 0.0 or np.any(r.H_min[k] <= ans.vapour[k] + VAPOUR_TOL)),
+            "wave_speed_text": describe_wave_speed(wave_speed_detail(line, line.elements[ans.runs[k]]), u),
         })
     histories = {}
     for name, h in r.histories.items():
@@ -195,6 +199,15 @@ def findings(line: Line, s: dict) -> list[Finding]:
                                f"{d['opened_at']:.2f} s, {where}; the air must leave slowly (a small outflow "
                                "orifice) or its expulsion slams the column shut.", d["air_max"], None, None,
                                SRC_MOC, None, d["chainage"]))
+    for text in s["events"]:
+        if "rejects its load" in text or "(nozzle)" in text:
+            out.append(Finding("caution", "transient-runaway", "Turbine speed rise on load rejection",
+                               f"When a turbine rejects its load it speeds up towards its runaway speed while its gate "
+                               f"closes, {where}: the closing time trades the pressure rise against the speed rise. The "
+                               "speed rise is not modelled here (the turbine is taken as an orifice scaled by its gate): "
+                               "confirm the runaway speed, the governor and the closing law with the turbine's supplier.",
+                               None, None, None, "common practice"))
+            break
     for name, m in s["machines"].items():
         if m["reversed_at"] is not None:
             out.append(Finding("warning", "transient-pump-reverse", f"{name}: runs backwards",

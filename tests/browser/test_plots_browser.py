@@ -116,7 +116,15 @@ def test_a_read_only_link_shows_the_same_plots_and_downloads(browser, live):
     page.on("pageerror", lambda e: errors.append(str(e)))
     try:
         page.goto(f"{live.url}/view/{token}/sheets/{sid}")
-        expect(page.locator("#plots figure.plot")).to_have_count(3)
+        # the grade lines, the load rejection's envelope and heads in time, the system curve, the power
+        expect(page.locator("#plots figure.plot")).to_have_count(5)
+        expect(page.locator("#plot-envelope-1 text.axis-title")).to_have_text(["Chainage along the line [m]",
+                                                                               "Elevation and head [m]"])
+        envelope = page.locator("#plot-envelope-1 a.plot-download")
+        assert envelope.get_attribute("href") == f"/view/{token}/sheets/{sid}/revisions/1/plots/envelope-1.svg"
+        with page.expect_download() as info:
+            envelope.click()
+        assert "Highest head in the run" in Path(info.value.path()).read_text(encoding="utf-8")
         expect(page.locator("#plot-profile text.axis-title")).to_have_text(["Chainage along the line [m]",
                                                                             "Elevation and head [m]"])
         expect(page.locator("#plot-profile text.tag")).to_have_text(["V1", "T1"])
