@@ -389,7 +389,7 @@ def format_transient(t, system: str = "SI") -> str:
     s = t.summary
     out += [f"  event: {e}" for e in s["events"]]
     out.append(f"  method of characteristics: {s['reaches']} reaches, time step {s['dt'] * 1000:.4g} ms, "
-               f"{s['steps']} steps over {s['duration']:g} s; steady friction; vapour cavities (DVCM)")
+               f"{s['steps']} steps over {s['duration']:g} s; quasi-steady friction; vapour cavities (DVCM)")
     out += [f"  grid: {n}" for n in s["notes"]]
     out += [f"  {r['run']}: {r['wave_speed_text']}" for r in s["runs"]]
     out.append(f"  {'run':<28} {'highest':>12} {'at':>10} {'lowest':>12} {'at':>10} {'rating':>12}  vapour")

@@ -131,6 +131,7 @@ class Device:
 class TransientInputs:
     duration: float = DURATION_DEFAULT
     reaches: int = REACHES_DEFAULT
+    reaches_typed: bool = False  # the sheet named the reaches (else the default, which a long run may lower)
     events: list[Event] = field(default_factory=list)
     devices: list[Device] = field(default_factory=list)
     points: list[tuple[float, str]] = field(default_factory=list)
@@ -164,7 +165,7 @@ def read_transient(r: Reader, doc: dict, case_names: list[str], base_name: str) 
         if n is None or not 10 <= n <= REACHES_MAX:
             r.fail(f"{p}.reaches", reaches, f"must be a whole number of reaches from 10 to {REACHES_MAX}")
         else:
-            out.reaches = n
+            out.reaches, out.reaches_typed = n, True
     elements = doc.get("elements") if isinstance(doc.get("elements"), list) else []
     by_id = {e["id"]: (k, e.get("kind")) for k, e in enumerate(elements)
              if isinstance(e, dict) and isinstance(e.get("id"), str) and e["id"]}

@@ -23,8 +23,9 @@ def transients(c: Context) -> list[dict]:
     r_moc = c.refs.cite(MOC_REF, "transient analysis")
     r_dvcm = c.refs.cite(DVCM_REF, "vapour cavities")
     method = (f"Method of characteristics {r_moc}: along C+ and C-, H_P = C_P - B Q_P and H_P = C_M + B Q_P with "
-              "B = a/(gA) and C_P = H_A + B Q_A - R Q_A|Q_A|, R = f dx/(2 g D A²) (steady friction, each run's losses "
-              "at its steady flow lumped into f so that t = 0 is the steady answer); one time step for the line, "
+              "B = a/(gA) and C_P = H_A + B Q_A - R Q_A|Q_A|, R = f dx/(2 g D A²) (quasi-steady friction: each run's "
+              "losses, fittings included, lumped into f at its steady flow, so that t = 0 is the steady answer, and "
+              "worked out again at its mean flow as that moves); one time step for the line, "
               "each run's reaches dx = a dt (Courant number 1) with its wave speed adjusted to fit, as listed. "
               "Joints in total head: reservoirs, junctions, valves (relative flow coefficient by the law in time), "
               "turbines (the steady head as an orifice scaled by the gate), pumps (running on their curves; after "

@@ -221,7 +221,7 @@ def analysed_caution(f: Finding, s: dict) -> Finding:
     """The general caution on surge, for a case whose events were run: what was analysed and what was not."""
     return Finding(f.severity, f.code, f.title,
                    f"Transients are analysed here for the events listed ({'; '.join(s['events'])}) by the method of "
-                   "characteristics, from this case's steady state, with steady friction; other events (other "
+                   "characteristics, from this case's steady state, with quasi-steady friction; other events (other "
                    "closures, power failure of other machines, start-up, air in the line, resonance) are not. The "
                    "model is not the line: confirm the protection with the suppliers of the machines and valves, "
                    "local codes and licensed engineering practice before the design is final.", source=f.source)

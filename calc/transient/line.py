@@ -44,6 +44,8 @@ ADJUST_SHORT = 0.35
 #: most the page redoes on every edit (about a tenth of a second), past which it runs on request.
 MAX_WORK = 4e7
 QUICK_WORK = 1.5e6
+#: The fewest reaches a run is given when the sheet names none (common practice: a few per run).
+REACHES_LEAST = 20
 
 
 class TransientProblem(Exception):
@@ -157,7 +159,11 @@ def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], cas
             z = el.end_elevation
     if not pipes:
         raise TransientProblem("elements", "the transient needs at least one pipe run")
-    dt = choose_step([p.L / p.a for p in pipes], spec.reaches)
+    reaches = reaches_for(spec, [p.L / p.a for p in pipes])
+    if reaches < spec.reaches:
+        notes.append(f"{reaches} reaches in all rather than {spec.reaches}: the line's travel time is short for a run of "
+                     f"{spec.duration:g} s; type the reaches for a finer grid")
+    dt = choose_step([p.L / p.a for p in pipes], reaches)
     system = System(pipes, [None] * (len(pipes) + 1), reaches_min=1, gridded=_grid_for(pipes, dt))
     for k, (p, a) in enumerate(zip(pipes, system.grid.a_used)):
         if abs(a / p.a - 1.0) > ADJUST_NOTED:
@@ -254,9 +260,20 @@ def estimate(line: Line, spec: TransientInputs) -> tuple[int, int]:
             travels.append(el.L / a)
     if not travels:
         raise TransientProblem("elements", "the transient needs at least one pipe run")
-    dt = choose_step(travels, spec.reaches)
+    dt = choose_step(travels, reaches_for(spec, travels))
     nodes = sum(max(1, round(T / dt)) + 1 for T in travels)
     return int(math.ceil(spec.duration / dt)), nodes
+
+
+def reaches_for(spec: TransientInputs, travels: list[float]) -> int:
+    """The reaches a run takes: as typed, else the default unless a line of short travel time over a long
+    run would make that more work than the page redoes on every edit (steps x nodes = duration n² / T for
+    n reaches and travel time T): then as many as keep within it, and never fewer than REACHES_LEAST."""
+    if spec.reaches_typed:
+        return spec.reaches
+    T = sum(travels)
+    fit = int(math.sqrt(QUICK_WORK * T / spec.duration))
+    return max(min(spec.reaches, fit), min(REACHES_LEAST, spec.reaches))
 
 
 def choose_step(travels: list[float], reaches: int) -> float:
@@ -296,6 +313,26 @@ def _grid_for(pipes, dt):
     return Grid(dt, counts, [p.L / (n * dt) for p, n in zip(pipes, counts)])
 
 
+def _friction_laws(line: Line) -> list:
+    """Each run's friction factor at a flow, lumping its fittings as the steady solve counts them (so a run
+    settling at a new flow loses what the steady answer at that flow would)."""
+    return [_RunFriction(run, line) for run in line.runs]
+
+
+class _RunFriction:
+    """A run's friction factor at a flow (its last one kept for a run at rest)."""
+
+    def __init__(self, run: PipeRun, line: Line):
+        self.run, self.line, self.last = run, line, None
+
+    def __call__(self, Q: float) -> float:
+        run = self.run
+        if Q <= 1e-12:
+            return self.last if self.last is not None else _friction_at_rest(run, self.line)
+        self.last = run.head(Q, self.line.fluid) * 2 * G * run.D * run.A * run.A / (run.L * Q * Q)
+        return self.last
+
+
 def _friction_at_rest(run: PipeRun, line: Line) -> float:
     """The friction factor of a run in a line at rest (a pump start): the fully rough Colebrook value's
     order, from a flow of 1 m/s (the run's losses then grow with the flow as the flow builds up)."""
@@ -326,7 +363,7 @@ def _element(line, i, el, ev, Q0, rho, machines, start_ev):
         unit = _pump_model(el, ev, rho) if ev.kind == "pump_trip" else None
         if ev.kind == "pump_start":
             omega = ev.rated_speed or 1.0
-            unit = _pump_model_start(el, ev, rho, omega)
+            unit = _pump_model_start(el, ev, rho)
             m = PumpMachine(unit, 0.0, omega, 1.0, el.in_parallel, el.in_series,
                             speed=_speed_ramp(ev.start, ev.time, el.speed_ratio), name=name)
         else:
@@ -415,6 +452,6 @@ def run(line: Line, Q0: float, spec: TransientInputs, events: list[Event], case:
             if not p.model.bottom < level < p.model.top:
                 raise TransientProblem(f"{p.device.path}.top" if level >= p.model.top else f"{p.device.path}.bottom",
                                        f"the steady head there ({level:.2f} m) must lie between the tank's floor and rim")
-    answer.result = system.run(H0, Qs, spec.duration, vapour, watches)
+    answer.result = system.run(H0, Qs, spec.duration, vapour, watches, friction=_friction_laws(line))
     answer.notes = answer.result.notes + answer.notes
     return answer

@@ -31,6 +31,12 @@ import numpy as np
 
 from calc.water import G
 
+#: Quasi-steady friction: how often a pipe's mean flow is looked at [steps], and by how much it must have
+#: moved [share] for its friction factor to be worked out again (common practice: losses follow the flow
+#: as it changes, without the cost of a friction solve at every node and step).
+FRICTION_EVERY = 8
+FRICTION_MOVE = 0.002
+
 
 @dataclass
 class Pipe:
@@ -147,8 +153,12 @@ class System:
         return float(self.R[self.offsets[pipe]] * Q * abs(Q))
 
     def run(self, H0: list[np.ndarray], Q0: list[np.ndarray], t_end: float, vapour_head: list[np.ndarray] | None = None,
-            watch: list[Watch] = (), cavities: bool = True) -> Result:
-        """From heads and flows at every node (the steady state) to ``t_end``."""
+            watch: list[Watch] = (), cavities: bool = True, friction=None) -> Result:
+        """From heads and flows at every node (the steady state) to ``t_end``.
+
+        ``friction``: for each pipe, a function of its flow giving its friction factor (quasi-steady
+        friction: every FRICTION_EVERY steps a pipe whose mean flow has moved by more than FRICTION_MOVE
+        takes the factor of its new mean flow); None holds each pipe's factor (the steady one)."""
         dt = self.grid.dt
         pipes, joints = self.pipes, self.joints
         m = len(pipes)
@@ -203,6 +213,8 @@ class System:
         Qr_a, Ql_b = Qr[:-1], Ql[1:]
         H_in, Ql_in, Qr_in, cav_in = H[1:-1], Ql[1:-1], Qr[1:-1], cav[1:-1]
         step_joints = [(joints[j].step, b, e) for j, b, e in flowing]
+        counts = np.asarray(self.grid.counts, dtype=float) + 1.0
+        q_last = np.add.reduceat(Ql, starts) / counts
         step_devices = [(d.step, i) for i, d in dev_nodes]
         for s in range(1, steps + 1):
             ts = t[s]
@@ -269,6 +281,14 @@ class System:
                 H[i], Ql[i], Qr[i] = step(ts, dt, (cp[i - 1], B[i]), (cm[i], B[i]))
             np.maximum(H_max, H, out=H_max)
             np.minimum(H_min, H, out=H_min)
+            if friction is not None and s % FRICTION_EVERY == 0:
+                q_mean = np.add.reduceat(Ql, starts) / counts
+                moved = np.abs(q_mean - q_last) > FRICTION_MOVE * np.maximum(np.abs(q_last), 1e-9)
+                for k in np.nonzero(moved)[0]:
+                    p, nk = pipes[k], self.grid.counts[k]
+                    f = friction[k](abs(float(q_mean[k])))
+                    R[starts[k]:starts[k] + nk + 1] = f * (p.L / nk) / (2 * G * p.D * p.A * p.A)
+                    q_last[k] = q_mean[k]
             for hh, qq, i in rows:
                 hh[s] = H[i]
                 qq[s] = Ql[i]

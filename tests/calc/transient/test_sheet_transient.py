@@ -248,3 +248,63 @@ def test_a_four_quadrant_table_agrees_with_the_pumps_own_curves_where_both_hold(
     s1 = base["machines"]["Duty pump"]["speed"]
     s2 = table["machines"]["Duty pump"]["speed"]
     assert s2[len(s2) // 20] == pytest.approx(s1[len(s1) // 20], rel=0.03)
+
+
+def _settled(summary, name):
+    """The last flow of a history (the run long enough for the line to settle)."""
+    return summary["histories"][name]["Q"][-1]
+
+
+def test_a_control_valve_opened_further_settles_at_the_steady_flow_of_its_new_opening():
+    # A control valve at 40 % travel opened fully over 2 s: the line ends at the steady answer of the same
+    # sheet with the valve at full travel (its flow coefficient by the same characteristic).
+    doc = _doc("cooling-water")
+    valve = next(e for e in doc["elements"] if e["kind"] == "valve")
+    valve.update(valve_type="control", coefficient="Kv", rated="60", characteristic="equal_percentage",
+                 rangeability="50", setting="opening", opening="40 %")
+    doc["transient"] = {"duration": "120 s", "events": [
+        {"kind": "valve", "element": valve["id"], "time": "2 s", "to": "100 %"}]}
+    a = analyse(doc)
+    t = a.transients[0]
+    assert t.problem is None, t.problem
+    opened = copy.deepcopy(doc)
+    opened.pop("transient")
+    next(e for e in opened["elements"] if e["kind"] == "valve")["opening"] = "100 %"
+    Q_open = analyse(opened).solution.design["Q"]
+    assert Q_open > 1.2 * a.solution.design["Q"]
+    name = next(k for k in t.summary["histories"] if k.startswith("before"))
+    assert _settled(t.summary, name) == pytest.approx(Q_open, rel=2e-3)
+
+
+def test_a_pump_started_from_rest_settles_at_the_cases_steady_flow():
+    doc = _pump_trip(_doc("pumped-main"))
+    doc["transient"] = {"duration": "200 s", "events": [{"kind": "pump_start", "element": "pump-1", "time": "4 s"}]}
+    a = analyse(doc)
+    t = a.transients[0]
+    assert t.problem is None, t.problem
+    s = t.summary
+    assert s["at_rest"]
+    m = s["machines"]["Duty pump"]
+    assert m["Q"][0] == 0.0 and m["speed"][0] == 0.0
+    assert m["Q"][-1] == pytest.approx(a.solution.design["Q"], rel=5e-3)
+    assert m["speed_end"] == pytest.approx(1.0)
+
+
+def test_closing_the_nozzle_of_a_jet_at_once_rises_by_joukowsky():
+    doc = _doc("hydro-penstock")
+    doc["elements"] = [e for e in doc["elements"] if e["kind"] == "pipe"]
+    doc["end"] = {"kind": "jet", "elevation": "316 m", "nozzle_diameter": "90 mm", "velocity_coefficient": "0.98"}
+    for e in doc["elements"]:
+        e["wave_speed"] = "1000 m/s"
+    doc["transient"] = {"duration": "0.2 s", "reaches": 400, "points": [{"chainage": "825 m", "label": "nozzle"}],
+                        "events": [{"kind": "turbine", "element": "end", "time": "0 s"}]}
+    a = analyse(doc)
+    s = a.transients[0].summary
+    assert a.transients[0].problem is None
+    Q0 = a.solution.design["Q"]
+    D = a.line.runs[-1].D
+    V0 = Q0 / (math.pi * D * D / 4)
+    h = s["histories"]["nozzle"]["H"]
+    # the first instant after the nozzle shuts; friction then packs the line a little higher
+    assert h[1] - h[0] == pytest.approx(s["runs"][-1]["wave_speed_used"] * V0 / G, rel=1e-9)
+    assert max(h) >= h[1]
