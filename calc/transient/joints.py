@@ -141,21 +141,17 @@ class Joint:
             el.start(self.Q)
 
     def _sides(self, up, down):
-        """E1(Q), E2(Q) and their derivatives as closures, and whether flow may only go forward."""
+        """(s1, b1, c1, s2, b2, c2, forward): E1 = s1 - b1 Q + c1 Q², E2 = s2 + b2 Q + c2 Q² from a pipe's
+        characteristic or a `Fixed` start or end, and whether flow may only go forward."""
         forward = any(el.forward_only for el in self.elements)
-        if up is None:
-            fx = self.upstream
-            s1, b1, c1 = fx.static, 0.0, fx.c_now
-            forward |= fx.forward_only
-        else:
-            s1, b1, c1 = up[0], up[1], self.c_up
-        if down is None:
-            fx = self.downstream
-            s2, b2, c2 = fx.static, 0.0, fx.c_now
-            forward |= fx.forward_only
-        else:
-            s2, b2, c2 = down[0], down[1], self.c_down
-        return s1, b1, c1, s2, b2, c2, forward
+        sides = []
+        for pipe, fixed, c in ((up, self.upstream, self.c_up), (down, self.downstream, self.c_down)):
+            if pipe is None:
+                sides += [fixed.static, 0.0, fixed.c_now]
+                forward |= fixed.forward_only
+            else:
+                sides += [pipe[0], pipe[1], c]
+        return (*sides, forward)
 
     def set_vapour(self, hv_up: float, hv_down: float) -> None:
         """The vapour heads at the pipe nodes on either side, below which a cavity opens there."""

@@ -229,7 +229,7 @@ def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], cas
     rating = [system.elevation[k] + p.rating / (rho * G) if p.rating else None for k, p in enumerate(pipes)]
     placed = []
     for dv in spec.devices:
-        k, node = _nearest_interior(system, dv.chainage)
+        k, node = _nearest(system, dv.chainage, interior=True)
         if k is None:
             raise TransientProblem(f"{dv.path}.chainage", "lies beyond the line's runs, or on a run too short for a node "
                                                           "of its own: give a chainage along a pipe run")
@@ -239,7 +239,7 @@ def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], cas
         watches.append(Watch(model.name, k, node))
     points = []
     for xp, label in spec.points:
-        k, node = _nearest_node(system, xp)
+        k, node = _nearest(system, xp)
         if k is not None:
             name = label or f"chainage {xp:.0f} m"
             watches.append(Watch(name, k, node))
@@ -400,25 +400,17 @@ def _pump_model_start(el: Pump, ev: Event, rho: float):
     return Homologous(el.curve, el.curve.slope, lambda x: 0.0)
 
 
-def _nearest_interior(system: System, x: float):
+def _nearest(system: System, x: float, interior: bool = False):
+    """(pipe, node) of the grid node nearest chainage x, among interior nodes only when ``interior`` (a
+    device needs a node of its own); (None, None) past the line's end or with no such node."""
     best = None
     for k, ch in enumerate(system.chainage):
         n = len(ch) - 1
-        if n < 2:
+        if interior and n < 2:
             continue
-        j = int(np.clip(np.argmin(np.abs(ch - x)), 1, n - 1))
-        d = abs(ch[j] - x)
-        if best is None or d < best[0]:
-            best = (d, k, j)
-    if best is None or x > system.chainage[-1][-1] + 1e-9:
-        return None, None
-    return best[1], best[2]
-
-
-def _nearest_node(system: System, x: float):
-    best = None
-    for k, ch in enumerate(system.chainage):
         j = int(np.argmin(np.abs(ch - x)))
+        if interior:
+            j = min(max(j, 1), n - 1)
         d = abs(ch[j] - x)
         if best is None or d < best[0]:
             best = (d, k, j)
