@@ -1,4 +1,5 @@
-"""Round trip of one field change on the largest demo sheet: post over loopback, time until the results fragment is back.
+"""Round trip of one field change on the largest demo sheet (or, with --transient, the demo with transient
+events, whose run is redone on every edit): post over loopback, time until the results fragment is back.
 
 Starts `headsheet serve` in a subprocess on a free port with a fresh data folder, reads the sheet
 page as a browser would, then posts N changes of one pipe run's length (each value new, so every
@@ -30,10 +31,18 @@ def main() -> int:
     parser.add_argument("--warmup", type=int, default=10)
     parser.add_argument("--cases", type=int, default=0,
                         help="give the sheet this many operating cases first (target for 8: p95 < 50 ms)")
+    parser.add_argument("--transient", action="store_true",
+                        help="time the demo sheet with transient events instead (its run redone on every edit)")
     args = parser.parse_args()
 
     with running_server() as base, httpx.Client(base_url=base, timeout=10) as client:
         sheet_id, doc, pipe = largest_demo(client)
+        if args.transient:
+            sheets = client.get("/api/sheets").json()["sheets"]
+            docs = {x["id"]: client.get(f"/api/sheets/{x['id']}").json()["document"] for x in sheets}
+            sheet_id = next(i for i, d in docs.items() if (d.get("transient") or {}).get("events"))
+            doc = docs[sheet_id]
+            pipe = next(i for i, e in enumerate(doc["elements"]) if e["kind"] == "pipe")
         if args.cases:
             revision = client.get(f"/api/sheets/{sheet_id}").json()["revision"]
             doc = with_cases(doc, args.cases)
@@ -46,7 +55,7 @@ def main() -> int:
                    "HX-Target": "results", "HX-Trigger": "sheet-form"}
         times = []
         for k in range(args.warmup + args.n):
-            fields[f"elements.{pipe}.length"] = f"{100 + 0.01 * k:.2f} m"
+            fields[f"elements.{pipe}.length"] = f"{(640 if args.transient else 100) + 0.01 * k:.2f} m"
             start = time.perf_counter()
             response = client.post(f"/sheets/{sheet_id}", data=fields, headers=headers)
             elapsed = time.perf_counter() - start

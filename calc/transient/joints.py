@@ -140,19 +140,6 @@ class Joint:
         for el in self.elements:
             el.start(self.Q)
 
-    def _sides(self, up, down):
-        """(s1, b1, c1, s2, b2, c2, forward): E1 = s1 - b1 Q + c1 Q², E2 = s2 + b2 Q + c2 Q² from a pipe's
-        characteristic or a `Fixed` start or end, and whether flow may only go forward."""
-        forward = any(el.forward_only for el in self.elements)
-        sides = []
-        for pipe, fixed, c in ((up, self.upstream, self.c_up), (down, self.downstream, self.c_down)):
-            if pipe is None:
-                sides += [fixed.static, 0.0, fixed.c_now]
-                forward |= fixed.forward_only
-            else:
-                sides += [pipe[0], pipe[1], c]
-        return (*sides, forward)
-
     def set_vapour(self, hv_up: float, hv_down: float) -> None:
         """The vapour heads at the pipe nodes on either side, below which a cavity opens there."""
         self.hv_up, self.hv_down = hv_up, hv_down
@@ -169,7 +156,9 @@ class Joint:
             A = s1 - s2
             if A == 0.0 or (forward and A <= 0.0):
                 return 0.0
-            k = sum(el.k_now for el in self.elements)
+            k = 0.0
+            for el in self.elements:
+                k += el.k_now
             a = c1 - c2 - (k if A > 0.0 else -k)
             b = b1 + b2
             if b == 0.0:
@@ -190,15 +179,36 @@ class Joint:
             return 0.0
         return solve_falling(F, self.Q, lo=0.0 if forward else -math.inf)
 
+    def _ready(self):
+        """What each step needs and never changes, worked out once (the step runs thousands of times)."""
+        self._fixed = tuple(x for x in (self.upstream, self.downstream) if x is not None)
+        self._timed = tuple(x for x in self._fixed if x.opening is not None)
+        self._moving = tuple(el for el in self.elements if type(el).at is not Element.at
+                             and not (isinstance(el, Loss) and el.phi is None))
+        self._forward = any(el.forward_only for el in self.elements) or any(x.forward_only for x in self._fixed)
+
     def step(self, t, dt, up, down):
-        for side in (self.upstream, self.downstream):
-            if side is not None:
-                side.at(t)
-        for el in self.elements:
+        if not hasattr(self, "_fixed"):
+            self._ready()
+        for side in self._timed:
+            side.at(t)
+        shut = False
+        for el in self._moving:
             el.at(t, dt)
-        s1, b1, c1, s2, b2, c2, forward = self._sides(up, down)
-        shut = any(el.shut for el in self.elements) or any(
-            side is not None and side.shut for side in (self.upstream, self.downstream))
+            shut = shut or el.shut
+        for side in self._timed:
+            shut = shut or side.shut
+        if up is None:
+            fx = self.upstream
+            s1, b1, c1 = fx.static, 0.0, fx.c_now
+        else:
+            s1, b1, c1 = up[0], up[1], self.c_up
+        if down is None:
+            fx = self.downstream
+            s2, b2, c2 = fx.static, 0.0, fx.c_now
+        else:
+            s2, b2, c2 = down[0], down[1], self.c_down
+        forward = self._forward
         Q = 0.0 if shut else self._flow(s1, b1, c1, s2, b2, c2, forward)
         H1 = s1 - b1 * Q if up is not None else None
         H2 = s2 + b2 * Q if down is not None else None

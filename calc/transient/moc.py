@@ -178,7 +178,6 @@ class System:
         free[ends] = False
         for k, j in self.devices:
             free[self.node(k, j)] = False
-        free_in = free[1:-1]
         Hv_in = Hv[1:-1]
         B_in = B[1:-1]
         inv2B = 1.0 / (2.0 * B_in)
@@ -205,10 +204,11 @@ class System:
         cp = np.empty(N - 1)
         cm = np.empty(N - 1)
         tmp = np.empty(N - 1)
-        Hn = np.empty(N - 2)
-        Qn = np.empty(N - 2)
         low = np.empty(N - 2, dtype=bool)
-        n_cav = 0
+        n_vap = 0  # nodes held at the vapour head
+        at_vap = np.zeros(N - 2, dtype=bool)
+        dq_in = np.zeros(N - 2)  # Q_out - Q_in at each node held at vapour (zero elsewhere)
+        Hv_free = np.where(free[1:-1], Hv[1:-1], -np.inf)
         H_a, H_b = H[:-1], H[1:]
         Qr_a, Ql_b = Qr[:-1], Ql[1:]
         H_in, Ql_in, Qr_in, cav_in = H[1:-1], Ql[1:-1], Qr[1:-1], cav[1:-1]
@@ -218,56 +218,51 @@ class System:
         step_devices = [(d.step, i) for i, d in dev_nodes]
         for s in range(1, steps + 1):
             ts = t[s]
-            # C+ arriving at node i from i - 1 (cp[i - 1]) and C- arriving at node i from i + 1 (cm[i])
+            # C+ arriving at node i from i - 1 (cp[i - 1]) and C- arriving at node i from i + 1 (cm[i]):
+            # C_P = H_A + Q_A (B - R |Q_A|), C_M = H_B - Q_B (B - R |Q_B|)
             np.abs(Qr_a, out=tmp)
-            tmp *= Qr_a
             tmp *= R_a
-            np.multiply(B_a, Qr_a, out=cp)
-            cp += H_a
-            cp -= tmp
+            np.subtract(B_a, tmp, out=tmp)
+            tmp *= Qr_a
+            np.add(H_a, tmp, out=cp)
             np.abs(Ql_b, out=tmp)
-            tmp *= Ql_b
             tmp *= R_b
-            np.multiply(B_b, Ql_b, out=cm)
-            np.subtract(H_b, cm, out=cm)
-            cm += tmp
+            np.subtract(B_b, tmp, out=tmp)
+            tmp *= Ql_b
+            np.subtract(H_b, tmp, out=cm)
             cp_in, cm_in = cp[:-1], cm[1:]
-            np.add(cp_in, cm_in, out=Hn)
-            Hn *= 0.5
-            np.subtract(cp_in, cm_in, out=Qn)
-            Qn *= inv2B
+            # every node 1 .. N-2 as if interior and liquid; joints and devices put their own nodes right below
+            np.add(cp_in, cm_in, out=H_in)
+            H_in *= 0.5
+            np.subtract(cp_in, cm_in, out=Ql_in)
+            Ql_in *= inv2B
+            Qr_in[:] = Ql_in
             if cavities:
-                np.less(Hn, Hv_in, out=low)
-                low &= free_in
-                wet_any = n_cav > 0 or low.any()
+                np.less(H_in, Hv_free, out=low)
+                wet_any = n_vap > 0 or low.any()
             else:
                 wet_any = False
             if wet_any:
-                wet = low | (cav_in > 0.0)
-                idx = np.nonzero(wet)[0]
+                idx = np.nonzero(low | (cav_in > 0.0))[0]
                 hv = Hv_in[idx]
                 bi = B_in[idx]
                 qin = (cp_in[idx] - hv) / bi
                 qout = (hv - cm_in[idx]) / bi
-                vol = cav_in[idx] + 0.5 * dt * ((qout - qin) + (Qr_in[idx] - Ql_in[idx]))
-                H_in[:] = Hn
-                Ql_in[:] = Qn
-                Qr_in[:] = Qn
+                vol = cav_in[idx] + 0.5 * dt * ((qout - qin) + dq_in[idx])
                 # a cavity that shrinks to nothing collapses: the node is liquid again, unless its liquid head
                 # would still lie below the vapour head (then it stays at vapour with no volume yet)
-                keep = (vol > 0.0) | (Hn[idx] < hv)
+                keep = (vol > 0.0) | (H_in[idx] < hv)
+                dq_in[at_vap] = 0.0
+                at_vap[:] = False
                 kidx = idx[keep]
                 H_in[kidx] = hv[keep]
                 Ql_in[kidx] = qin[keep]
                 Qr_in[kidx] = qout[keep]
-                vol = np.maximum(vol, 0.0)
-                cav_in[idx] = np.where(keep, vol, 0.0)
-                n_cav = int(np.count_nonzero(vol[keep]))
+                dq_in[kidx] = qout[keep] - qin[keep]
+                at_vap[kidx] = True
+                cav_in[idx] = np.where(keep, np.maximum(vol, 0.0), 0.0)
+                n_vap = kidx.size
                 np.maximum(cav_max, cav, out=cav_max)
-            else:
-                H_in[:] = Hn
-                Ql_in[:] = Qn
-                Qr_in[:] = Qn
             for step, b, e in step_joints:
                 H1, Q1, H2, Q2 = step(ts, dt, (cp[e - 1], B[e]) if e is not None else None,
                                       (cm[b], B[b]) if b is not None else None)
