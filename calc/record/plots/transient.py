@@ -63,8 +63,9 @@ def envelope_plot(analysis, summary: dict, key: str, system: str = "SI") -> Plot
     chart.line(x, hi, ENVELOPE_COLOURS["max"], 2.4, title="Highest head in the run", cls="series envelope-max")
     chart.key("Highest head in the run", ENVELOPE_COLOURS["max"])
     x, lo = _joined(env, "min", u)
-    chart.line(x, lo, ENVELOPE_COLOURS["min"], 2.4, title="Lowest head in the run", cls="series envelope-min")
-    chart.key("Lowest head in the run", ENVELOPE_COLOURS["min"])
+    # a dash of its own as well as a colour: the record may be printed in grey
+    chart.line(x, lo, ENVELOPE_COLOURS["min"], 2.4, "10 3 2 3", title="Lowest head in the run", cls="series envelope-min")
+    chart.key("Lowest head in the run", ENVELOPE_COLOURS["min"], "10 3 2 3")
     for d in summary["devices"]:
         chart.marker(d["chainage"] * u.kl, float(np.interp(d["chainage"], *_flat(env, "chainage", "steady"))) * u.kh,
                      "#000000", "square", f"{d['label']} at chainage {u.length(d['chainage'])}", cls="point device")
