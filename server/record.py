@@ -49,7 +49,9 @@ def _url(request: Request, name: str, **params) -> str:
 
 
 def _now() -> str:
-    return datetime.now(timezone.utc).isoformat(timespec="minutes")
+    """The print date (a day, not a time: the same revision printed twice on one day is the same file; the
+    revision itself is identified by its date and fingerprint)."""
+    return datetime.now(timezone.utc).date().isoformat()
 
 
 def verify_address(request: Request, fprint: str) -> str:

@@ -469,3 +469,22 @@ def test_a_repeated_pdf_download_is_served_from_the_cache(client, sheet_id, monk
     assert len(calls) == 1  # laid out once
     client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf?paper=letter")
     assert len(calls) == 2  # another paper is another layout
+
+
+def test_the_draft_stamp_stays_out_of_the_text_layer_and_a_days_prints_are_one_file(client, sheet_id):
+    from server import pdf
+
+    pdf._render_cached.cache_clear()
+    content = client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf").content
+    # the stamp is drawn as the word's outline, so the text layer (what a search or a copy reads) holds no
+    # letters of it: no word there is both wider and taller than 30 pt (the stamp's letters stood some 60 pt
+    # square; a plot's upright axis title is tall but narrow)
+    boxes = subprocess.run(["pdftotext", "-bbox", "-", "-"], input=content, capture_output=True,
+                           check=True).stdout.decode()
+    sizes = [min(float(x1) - float(x0), float(y1) - float(y0)) for x0, y0, x1, y1 in re.findall(
+        r'xMin="([\d.]+)" yMin="([\d.]+)" xMax="([\d.]+)" yMax="([\d.]+)"', boxes)]
+    assert sizes and max(sizes) < 30.0, max(sizes)
+    assert all("DRAFT: not fully signed" in page for page in pdf_pages(content))
+    # the same revision printed again the same day (cache emptied: laid out afresh) is the same file
+    pdf._render_cached.cache_clear()
+    assert client.get(f"/sheets/{sheet_id}/revisions/1/record.pdf").content == content
