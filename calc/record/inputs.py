@@ -6,6 +6,7 @@ from calc.model.elements import PipeRun, Pump, Turbine, Valve
 from calc.model.settings import CheckSettings
 from calc.record.context import Context
 from calc.record.parts import Table
+from calc.record.sources import looks_published
 from calc.record.text import _SI_UNIT, as_text, num, si, sub
 from calc.units import DENSITY, FLOW, LENGTH, MODULUS, POWER, PRESSURE, RATIO, TEMPERATURE, VISCOSITY, parse_quantity
 
@@ -104,8 +105,14 @@ def _check_limits(c: Context, head, align) -> Table:
             value = "each run's own" if key == "roughness_low" else "each run's aged (material table)"
         else:
             value = f"{si(v)} {unit}".strip()
-        rows.append([label, as_text(typed.get(key)) if key in s.given else "", value,
-                     ("set on the sheet" if key in s.given else "default: " + s.source(key))])
+        if key in s.given:
+            where = "set on the sheet"
+        else:
+            # a published source once, in the references; common practice with its reason, briefly
+            full = s.source(key)
+            ref = c.refs.cite(full, "check limits") if looks_published(full) else ""
+            where = f"default: {CheckSettings.SHORT_SOURCES[key].split(',')[0]} {ref}".strip() if ref else f"default: {full}"
+        rows.append([label, as_text(typed.get(key)) if key in s.given else "", value, where])
     return Table(head, rows, "Check limits applied", align, css="inputs")
 
 

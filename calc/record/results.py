@@ -61,7 +61,16 @@ def results(c: Context) -> list[dict]:
             elements = Table(["Element", "V", "Re", "f", "Friction loss", "Fitting loss", "Head taken",
                               "Shaft power"], rows, "", ["l"] + ["r"] * 7, css="elements")
             stations = []
-            for st in p["profile"]:
+            prof = p["profile"]
+            low_j = min(range(len(prof)), key=lambda j: prof[j]["pressure_head"]) if prof else -1
+            high_j = max(range(len(prof)), key=lambda j: prof[j]["pressure_head"]) if prof else -1
+            for j, st in enumerate(prof):
+                # each run's ends and each machine's or valve's sides, and the lowest and highest pressure: the
+                # surveyed points between are in the grade-line figure
+                ends = (j == 0 or j == len(prof) - 1 or prof[j - 1]["element"] != st["element"]
+                        or prof[j + 1]["element"] != st["element"])
+                if not ends and j not in (low_j, high_j):
+                    continue
                 row = [shown(st["chainage"], "length", s), shown(st["elevation"], "length", s),
                        shown(st["hgl"], "head", s), shown(st["egl"], "head", s),
                        shown(st["pressure_head"], "head", s),
@@ -69,7 +78,9 @@ def results(c: Context) -> list[dict]:
                 if not stations or row != stations[-1]:  # a station repeated at the printed precision says nothing new
                     stations.append(row)
             grade = Table(["Chainage", "Elevation", "HGL", "EGL", "Pressure head", "Pressure (gauge)"], stations,
-                          "", ["r"] * 6, css="compact grade")
+                          "", ["r"] * 6, css="compact grade",
+                          note="Each run's ends, each machine's and valve's sides, and the lowest and highest pressure; "
+                               "the grade lines through every surveyed point are drawn in the grade-line figure.")
         low = min(p["profile"], key=lambda st: st["pressure_head"]) if p["profile"] else None
         summary = [["Flow Q", shown(p["Q"], "flow", s)],
                    ["Total head at the start", shown(p["head_start"], "head", s)],
