@@ -17,6 +17,7 @@ class Context:
         self.sol = analysis.solution
         self.system = system
         self.refs = References()
+        self._said: dict[str, str] = {}
         self.liquid = self.line.liquid
         m = friction.METHODS[self.line.method]
         self.method = m
@@ -53,3 +54,11 @@ class Context:
             "churchill_1977": "f = 8 [ (8/Re)^12 + (A + B)^(-3/2) ]^(1/12), A = [2.457 ln(1/((7/Re)^0.9 + 0.27 ε/D))]^16, B = (37530/Re)^16",
             "serghides_1984": "A = -2 log₁₀((ε/D)/3.7 + 12/Re), B = -2 log₁₀((ε/D)/3.7 + 2.51A/Re), C = -2 log₁₀((ε/D)/3.7 + 2.51B/Re), f = [A - (B-A)²/(C-2B+A)]^-2",
         }[self.line.method]
+
+    def once(self, text: str, where: str) -> str:
+        """``text`` the first time the record gives it; after that 'as for <where it was first given>', so
+        that a note repeated for runs of one material is printed once."""
+        if not text:
+            return ""
+        first = self._said.setdefault(text, where)
+        return text if first == where else f"as for {first}"

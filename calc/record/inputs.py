@@ -137,17 +137,18 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
         if r is None and el.material is not None:
             source = el.material.source_aged if aged else el.material.source_roughness
             refs, detail = c.refs.cite_source(source or "", "aged roughness" if aged else "pipe roughness")
+            note = c.once(f"{el.material.name}" + (f" ({detail})" if detail else ""), f"element {i + 1}")
             rows.append(["Roughness ε" + (" (aged pipe)" if aged else ""),
                          f"material {as_text(e.get('material'))}" + (", condition aged" if aged else ""),
-                         f"{si(el.eps)} m", f"material table: {el.material.name}"
-                         + (f" ({detail})" if detail else "") + f" {refs}"])
+                         f"{si(el.eps)} m", f"material table: {note} {refs}"])
         else:
             rows.append(r)
         if el.material is not None and el.eps_aged and not aged and r is None:
             refs, detail = c.refs.cite_source(el.material.source_aged or "", "aged roughness")
+            note = c.once(detail, f"element {i + 1}")
             rows.append(["Roughness of aged pipe (upper end of the uncertainty band; not the solve)", "",
                          f"{si(el.eps_aged)} m",
-                         "material table" + (f" ({detail})" if detail else "") + f" {refs}"])
+                         "material table" + (f" ({note})" if note else "") + f" {refs}"])
         rows.append(_typed(c, e, "end_elevation", LENGTH, "Elevation at the end of the run"))
         rows.append(_typed(c, e, "wall_thickness", LENGTH, "Wall thickness"))  # else in the size row
         rows.append(_typed(c, e, "rating", PRESSURE, "Pressure rating (gauge)"))
@@ -169,6 +170,7 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
                      else "fitting table")
             if ft.why:
                 detail = ft.why + (f"; {detail}" if detail else "")
+            detail = c.once(detail, f"element {i + 1}")
             model = {"k": "K", "2k": "2-K", "3k": "3-K", "cone": "change of bore"}[ft.model]
             rows.append([f"Fitting: {ft.name}" + (f" × {ft.count}" if ft.count > 1 else ""),
                          "(not typed)" if ft.implied else f"{ft.key}, count {ft.count}", f"{model}: {consts}",
