@@ -39,9 +39,10 @@ class CheckSettings:
 
     #: Where each default comes from.
     SOURCES = {
-        "velocity_max": SRC_PRACTICE + " (mains 0.5-2 m/s, plant discharge lines 1.5-3 m/s)",
-        "velocity_max_suction": SRC_PRACTICE + " (pump suction 0.6-1.5 m/s)",
-        "velocity_min": SRC_PRACTICE + " (about 0.6 m/s keeps a line self-cleansing)",
+        "velocity_max": SRC_PRACTICE + " (mains 0.5-2 m/s or 1.6-6.6 ft/s, plant discharge lines 1.5-3 m/s or "
+                                       "4.9-9.8 ft/s)",
+        "velocity_max_suction": SRC_PRACTICE + " (pump suction 0.6-1.5 m/s or 2-4.9 ft/s)",
+        "velocity_min": SRC_PRACTICE + " (about 0.6 m/s or 2 ft/s keeps a line self-cleansing)",
         "npsh_margin_ratio": SRC_NPSH,
         "npsh_margin_min": SRC_NPSH,
         "bep_low": SRC_BEP,
