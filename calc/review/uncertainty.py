@@ -285,7 +285,9 @@ def band(line: Line, solution: Solution, settings: CheckSettings | None = None) 
     if k > 0.0:
         parts.append(f"fitting K values +/-{k * 100:g} %")
     if plan["friction"]:
-        parts.append("each friction formula")
+        names = [friction.METHODS[m].name + (f" {m.rsplit('_', 1)[-1]}" if m.rsplit("_", 1)[-1].isdigit() else "")
+                 for m in friction.METHODS if m != line.method]
+        parts.append("each other friction formula (" + ", ".join(names) + ")")
     if plan.get("transition"):
         parts.append("the friction factor from laminar to turbulent in the transitional runs")
     return {
