@@ -67,7 +67,63 @@ def steps(c: Context) -> list[StepGroup]:
         Step("E", "energy balance residual", "E = H_start - H_end - Σ hᵢ",
              f"= {sub(p['head_start'])} - {sub(p['head_end'])} - {paren(total)}", num(E, 3), "m", E),
     ], ["A residual this small (round-off against heads of this size) confirms the operating point."]))
+    surge = _surge_steps(c, p)
+    if surge is not None:
+        groups.append(surge)
     return groups
+
+
+_C1 = {  # the restraint factor's formula by restraint, thin and thick wall (calc.transient.wave.restraint_factor)
+    ("anchored", False): "c₁ = 1 − ν²", ("expansion_joints", False): "c₁ = 1", ("anchored_upstream", False): "c₁ = 1 − ν/2",
+    ("anchored", True): "c₁ = 2 (e/D)(1 + ν) + (1 − ν²)/(1 + e/D)",
+    ("expansion_joints", True): "c₁ = 2 (e/D)(1 + ν) + 1/(1 + e/D)",
+    ("anchored_upstream", True): "c₁ = 2 (e/D)(1 + ν) + (1 − ν/2)/(1 + e/D)",
+}
+
+
+def _surge_steps(c: Context, p: dict) -> StepGroup | None:
+    """Each run's wave speed (Korteweg, with its restraint factor) and Joukowsky's rise for a sudden stop of
+    its flow, and the pipeline period: the numbers the surge findings and the transient grid rest on."""
+    from calc.record.sources import JOUKOWSKY_REF, KORTEWEG_REF
+    from calc.transient.wave import wave_speed_detail
+
+    steps, travel, notes = [], 0.0, []
+    r_k, r_j = c.refs.cite(KORTEWEG_REF, "wave speed"), c.refs.cite(JOUKOWSKY_REF, "surge")
+    for i, (el, d) in enumerate(zip(c.line.elements, p["elements"])):
+        if not isinstance(el, PipeRun):
+            continue
+        w = wave_speed_detail(c.line, el)
+        name = el.label or f"element {i + 1}"
+        if w["a"] is None:
+            notes.append(f"{name}: no wave speed: {w['missing']} not given.")
+            continue
+        a = w["a"]
+        if w["form"] == "typed":
+            steps.append(Step("a", f"{name}: wave speed (typed for the run)", "a", "", num(a), "m/s", a))
+        else:
+            thick = w["form"] == "thick-wall"
+            eD = w["e"] / w["D"]
+            form = _C1[(w["restraint"], thick)]
+            if thick:
+                subst = f"e/D = {sub(w['e'])} / {sub(w['D'])} = {sub(eD)}, ν = {sub(w['nu'])}"
+            else:
+                subst = f"ν = {sub(w['nu'])} (D/e = {sub(w['D_over_e'])}: thin wall)"
+            steps.append(Step("c₁", f"{name}: restraint factor ({w['restraint'].replace('_', ' ')})", form, subst,
+                              num(w["c1"]), "–", w["c1"]))
+            steps.append(Step("a", f"{name}: wave speed (Korteweg)", "a = √(K/ρ) / √(1 + c₁ K D / (E e))",
+                              f"= √({sub(w['K'])}/{sub(w['rho'])}) / √(1 + {sub(w['c1'])} × {sub(w['K'])} × "
+                              f"{sub(w['D'])} / ({sub(w['E'])} × {sub(w['e'])}))", num(a), "m/s", a, r_k))
+        dH = a * abs(d["V"]) / G
+        steps.append(Step("ΔH", f"{name}: rise for a sudden stop of its flow (Joukowsky)", "ΔH = a V / g",
+                          f"= {sub(a)} × {sub(abs(d['V']))} / 9.80665", num(dH), "m", dH, r_j))
+        travel += el.L / a
+    if not steps:
+        return None
+    T = 2.0 * travel
+    steps.append(Step("T", "pipeline period of the whole line", "T = 2 Σ L/a", f"= 2 × {sub(travel)}", num(T), "s", T))
+    notes.append("A stop faster than T gives the full rise at the stop; a slower one, less (the surge findings and, "
+                 "for the cases with events, the transient analysis).")
+    return StepGroup("Wave speed and surge", "surge", steps, notes)
 
 
 def _node_steps(c: Context, which: str, node, Q: float, H: float) -> StepGroup:
