@@ -13,7 +13,7 @@ import math
 import pytest
 from CoolProp.CoolProp import PropsSI
 from fluids.friction import Colebrook
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from linetools import gravity_line, pump_curve
 from scipy.optimize import brentq
@@ -142,7 +142,9 @@ def _pump_sheet(end_levels) -> dict:
 @settings(max_examples=20, deadline=None)
 @given(st.lists(st.floats(min_value=81.0, max_value=105.0), min_size=2, max_size=4, unique=True))
 def test_raising_the_tank_never_raises_the_pumps_flow(levels):
-    levels = sorted(levels)
+    # the cases are named by their level to a mm: two levels that round alike would be one case twice
+    levels = sorted({round(z, 3) for z in levels})
+    assume(len(levels) >= 2)
     a = analyse(_pump_sheet(levels))
     assert a.ok
     flows = [c.solution.design["Q"] for c in a.cases[1:]]
