@@ -127,10 +127,10 @@ def main() -> int:
         times.append(time.perf_counter() - t0)
     r = ans.result
     # the same grid with each run's friction held (the plain loops hold it too), for the agreement
-    system, (H0, Qs, _), vapour, _ = build(line, Q0, spec, events, "Base")
-    held = system.run(H0, Qs, spec.duration, vapour, [])
+    system, (H0, Qs, _), frame = build(line, Q0, spec, events, "Base")
+    held = system.run(H0, Qs, spec.duration, frame.vapour, [])
     peak_fast = max(float(h.max()) for h in held.H_max)
-    system, (H0, Qs, _), _, _ = build(line, Q0, spec, events, "Base")
+    system, (H0, Qs, _), _ = build(line, Q0, spec, events, "Base")
     t0 = time.perf_counter()
     peak_plain = plain_loops(system, H0, Qs, system.joints, spec.duration)
     t_plain = time.perf_counter() - t0

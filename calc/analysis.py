@@ -124,10 +124,6 @@ class Analysis:
             out["transients"] = [t.to_dict() for t in self.transients]
         return out
 
-    def transient(self, name: str | None) -> TransientCase | None:
-        key = (name or BASE_NAME).casefold()
-        return next((t for t in self.transients if t.name.casefold() == key), None)
-
 
 def analyse(doc: dict, transients: str = "all") -> Analysis:
     """Parse, solve, band and review a sheet document and each of its cases, with the transient run of

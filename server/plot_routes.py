@@ -74,16 +74,16 @@ async def plot_svg(request: Request, sheet_id: int, number: int, name: str) -> R
     found = None
     if NAME.match(name):
         found = await run_in_threadpool(_plot_file, request, sheet_id, number, name)
+    return _download(request, found, "image/svg+xml",
+                     f"Revision {number} of sheet {sheet_id} has no plot called '{name[:40]}'.")
+
+
+def _download(request: Request, found: tuple[str, str] | None, media_type: str, missing: str) -> Response:
+    """A file to keep, (text, file name), never cached, never sniffed into another type; 404 saying
+    ``missing`` when there is none."""
     if found is None:
-        return web.error_response(request.url.path, 404, "Not found",
-                                  f"Revision {number} of sheet {sheet_id} has no plot called '{name[:40]}'.",
-                                  request=request)
-    svg, file_name = found
-    return _download(svg, "image/svg+xml", file_name)
-
-
-def _download(text: str, media_type: str, file_name: str) -> Response:
-    """A file to keep: never cached, never sniffed into another type."""
+        return web.error_response(request.url.path, 404, "Not found", missing, request=request)
+    text, file_name = found
     return Response(text, media_type=media_type,
                     headers={"Cache-Control": "no-store", "Content-Disposition": f'attachment; filename="{file_name}"',
                              "X-Content-Type-Options": "nosniff"})
@@ -101,12 +101,8 @@ def _curve_file(request: Request, sheet_id: int, number: int) -> tuple[str, str]
 async def system_curve_csv(request: Request, sheet_id: int, number: int) -> Response:
     """GET the system curve of a revision, every case, as CSV (for a supplier)."""
     found = await run_in_threadpool(_curve_file, request, sheet_id, number)
-    if found is None:
-        return web.error_response(request.url.path, 404, "Not found",
-                                  f"Revision {number} of sheet {sheet_id} has no solution to draw a system curve from.",
-                                  request=request)
-    text, file_name = found
-    return _download(text, "text/csv; charset=utf-8", file_name)
+    return _download(request, found, "text/csv; charset=utf-8",
+                     f"Revision {number} of sheet {sheet_id} has no solution to draw a system curve from.")
 
 
 _API_DOCS: dict[str, dict[str, Any]] = {}

@@ -120,6 +120,7 @@ def summary(line: Line, ans: Answer) -> dict:
         devices.append(out)
     return {
         "case": ans.case, "events": [describe_event(line, ev) for ev in ans.events],
+        "event_kinds": [ev.kind for ev in ans.events],
         "duration": float(r.t[-1]), "dt": r.grid.dt, "reaches": int(sum(r.grid.counts)),
         "steps": int(len(r.t) - 1), "notes": list(ans.notes), "envelope": envelope, "runs": runs,
         "histories": histories, "machines": machines, "devices": devices, "points": ans.points,
@@ -199,8 +200,8 @@ def findings(line: Line, s: dict) -> list[Finding]:
                                f"{d['opened_at']:.2f} s, {where}; the air must leave slowly (a small outflow "
                                "orifice) or its expulsion slams the column shut.", d["air_max"], None, None,
                                SRC_MOC, None, d["chainage"]))
-    for text in s["events"]:
-        if "rejects its load" in text or "(nozzle)" in text:
+    for kind in s["event_kinds"]:
+        if kind == "turbine":
             out.append(Finding("caution", "transient-runaway", "Turbine speed rise on load rejection",
                                f"When a turbine rejects its load it speeds up towards its runaway speed while its gate "
                                f"closes, {where}: the closing time trades the pressure rise against the speed rise. The "

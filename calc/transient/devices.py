@@ -110,12 +110,12 @@ class AirVessel(Device):
         self.Qd = 0.0
         self.C = 0.0
         self.emptied_at = None
-        self.t, self.gas, self.flows, self.heads = [], [], [], []
+        self.t, self.gas, self.flows = [], [], []
 
     def start(self, H, Q):
         self.V, self.Qd = self.gas0, 0.0
         self.C = (H - self.surface + self.h_atm) * self.gas0 ** self.n
-        self.t, self.gas, self.flows, self.heads = [0.0], [self.V], [0.0], [H]
+        self.t, self.gas, self.flows = [0.0], [self.V], [0.0]
 
     def _gas_head(self, V: float) -> float:
         return self.C / V ** self.n
@@ -147,7 +147,6 @@ class AirVessel(Device):
         self.t.append(t)
         self.gas.append(V)
         self.flows.append(q)
-        self.heads.append(H)
         Q_in = (cp - H) / b
         return H, Q_in, Q_in - q
 

@@ -134,6 +134,12 @@ class Joint:
         self.c_up, self.c_down, self.name = c_up, c_down, name
         self.Q = 0.0
         self._losses_only = all(isinstance(el, Loss) for el in self.elements)
+        # what each step needs and never changes (the step runs thousands of times)
+        self._timed = tuple(x for x in (upstream, downstream) if x is not None and x.opening is not None)
+        self._moving = tuple(el for el in self.elements if type(el).at is not Element.at
+                             and not (isinstance(el, Loss) and el.phi is None))
+        self._forward = (any(el.forward_only for el in self.elements)
+                         or any(x is not None and x.forward_only for x in (upstream, downstream)))
 
     def start(self, H1, Q1, H2, Q2):
         self.Q = Q1 if Q1 is not None else Q2
@@ -179,17 +185,7 @@ class Joint:
             return 0.0
         return solve_falling(F, self.Q, lo=0.0 if forward else -math.inf)
 
-    def _ready(self):
-        """What each step needs and never changes, worked out once (the step runs thousands of times)."""
-        self._fixed = tuple(x for x in (self.upstream, self.downstream) if x is not None)
-        self._timed = tuple(x for x in self._fixed if x.opening is not None)
-        self._moving = tuple(el for el in self.elements if type(el).at is not Element.at
-                             and not (isinstance(el, Loss) and el.phi is None))
-        self._forward = any(el.forward_only for el in self.elements) or any(x.forward_only for x in self._fixed)
-
     def step(self, t, dt, up, down):
-        if not hasattr(self, "_fixed"):
-            self._ready()
         for side in self._timed:
             side.at(t)
         shut = False

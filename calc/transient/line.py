@@ -23,7 +23,7 @@ from calc.steady.series import run_stations
 from calc.transient import devices as dev_mod
 from calc.transient.joints import CurvePump, Fixed, Joint, Loss, velocity_head_coefficient
 from calc.transient.machines import Homologous, PumpMachine, Suter, torque_curve_points
-from calc.transient.moc import Pipe, System, Watch
+from calc.transient.moc import Grid, Pipe, System, Watch
 from calc.transient.wave import wave_speed_detail
 from calc.water import G
 
@@ -107,7 +107,9 @@ def _phi_of_valve(el: Valve, ev: Event):
     return lambda t: law.travel(t, 1.0)
 
 
-def _pump_model(el: Pump, ev: Event, rho: float):
+def _pump_model(el: Pump, ev: Event, rho: float, Q0: float):
+    """A tripping pump's one-unit model: its own curves by the homologous laws, or its four-quadrant table
+    scaled (once for head, once for torque) onto the steady point those curves give."""
     if el.mode != "curve" or el.curve is None:
         raise TransientProblem(f"{ev.path}.element", "a pump that trips or starts needs its head curve (curve mode)")
     omega_R = ev.rated_speed
@@ -125,11 +127,16 @@ def _pump_model(el: Pump, ev: Event, rho: float):
     homologous = Homologous(el.curve, el.curve.slope, torque)
     if not ev.four_quadrant:
         return homologous
-    Q_bep = el.efficiency_curve.peak()[0] if el.efficiency_curve is not None else el.curve.Q[len(el.curve.Q) // 2]
-    return Suter(ev.four_quadrant, Q_bep, float(el.curve(Q_bep)), float(torque(Q_bep)))
+    Q_bep = eff.peak()[0] if eff is not None else el.curve.Q[len(el.curve.Q) // 2]
+    unit = Suter(ev.four_quadrant, Q_bep, float(el.curve(Q_bep)), float(torque(Q_bep)))
+    if Q0 > 0:
+        q, alpha = Q0 / el.in_parallel, el.speed_ratio
+        unit.kh = homologous.h(q, alpha)[0] / unit.h(q, alpha)[0]
+        unit.kb = homologous.T(q, alpha) / unit.T(q, alpha)
+    return unit
 
 
-def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], case: str) -> tuple[System, list, list, Answer]:
+def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], case: str) -> tuple[System, tuple, Answer]:
     """The grid, its steady state (heads and flows at every node) and the answer's frame, for one case."""
     rho = line.liquid.rho
     fluid = line.fluid
@@ -142,15 +149,9 @@ def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], cas
     z = line.start.pipe_elevation
     for i, el in enumerate(line.elements):
         if isinstance(el, PipeRun):
-            w = wave_speed_detail(line, el)
-            if w["a"] is None:
-                raise TransientProblem(f"elements.{i}.wave_speed", f"the transient needs this run's wave speed: give "
-                                       f"{w['missing']} (Korteweg's wave speed), or type the wave speed")
             profile = run_stations(el, z)
-            Qf = Q0 if Q0 > 0 else None
-            h = el.head(Qf, fluid) if Qf else 0.0
-            f_eq = h * 2 * G * el.D * el.A * el.A / (el.L * Qf * Qf) if Qf else _friction_at_rest(el, line)
-            pipes.append(Pipe(L=el.L, D=el.D, a=w["a"], f=f_eq, label=el.label or f"run {len(pipes) + 1}", x0=x,
+            h = el.head(Q0, fluid) if Q0 > 0 else 0.0
+            pipes.append(Pipe(L=el.L, D=el.D, a=_wave_speed(line, i, el), f=_RunFriction(el, line)(Q0), label=el.label or f"run {len(pipes) + 1}", x0=x,
                               profile=profile, rating=el.rating))
             run_index.append(i)
             c_pipe.append(velocity_head_coefficient(el.D))
@@ -164,7 +165,7 @@ def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], cas
         notes.append(f"{reaches} reaches in all rather than {spec.reaches}: the line's travel time is short for a run of "
                      f"{spec.duration:g} s; type the reaches for a finer grid")
     dt = choose_step([p.L / p.a for p in pipes], reaches)
-    system = System(pipes, [None] * (len(pipes) + 1), reaches_min=1, gridded=_grid_for(pipes, dt))
+    system = System(pipes, [None] * (len(pipes) + 1), reaches_min=1, gridded=Grid.at_step(pipes, dt))
     for k, (p, a) in enumerate(zip(pipes, system.grid.a_used)):
         if abs(a / p.a - 1.0) > ADJUST_NOTED:
             notes.append(f"{p.label}: too short for the grid to hold its wave speed; {p.a:.4g} m/s taken as "
@@ -245,19 +246,21 @@ def build(line: Line, Q0: float, spec: TransientInputs, events: list[Event], cas
             watches.append(Watch(name, k, node))
             points.append((name, float(system.chainage[k][node])))
     answer = Answer(case, events, pipes, None, vapour, rating, placed, machines, points, notes, run_index, at_rest, rho)
-    return system, (H0, Qs, watches), vapour, answer
+    return system, (H0, Qs, watches), answer
+
+
+def _wave_speed(line: Line, i: int, run: PipeRun) -> float:
+    """A run's wave speed, or the problem naming what the run lacks for it."""
+    w = wave_speed_detail(line, run)
+    if w["a"] is None:
+        raise TransientProblem(f"elements.{i}.wave_speed", f"the transient needs this run's wave speed: give "
+                               f"{w['missing']} (Korteweg's wave speed), or type the wave speed")
+    return w["a"]
 
 
 def estimate(line: Line, spec: TransientInputs) -> tuple[int, int]:
     """The steps and nodes a run of the sheet would take (before building it), to refuse or defer a long one."""
-    travels = []
-    for i, el in enumerate(line.elements):
-        if isinstance(el, PipeRun):
-            a = wave_speed_detail(line, el)["a"]
-            if a is None:
-                raise TransientProblem(f"elements.{i}.wave_speed", "the transient needs this run's wave speed: give "
-                                       "its wall and material (Korteweg's wave speed), or type the wave speed")
-            travels.append(el.L / a)
+    travels = [el.L / _wave_speed(line, i, el) for i, el in enumerate(line.elements) if isinstance(el, PipeRun)]
     if not travels:
         raise TransientProblem("elements", "the transient needs at least one pipe run")
     dt = choose_step(travels, reaches_for(spec, travels))
@@ -307,12 +310,6 @@ def too_long(steps: int, nodes: int) -> str:
             "node-steps): shorten the time it covers or ask for fewer reaches")
 
 
-def _grid_for(pipes, dt):
-    from calc.transient.moc import Grid
-    counts = [max(1, round(p.L / (p.a * dt))) for p in pipes]
-    return Grid(dt, counts, [p.L / (n * dt) for p, n in zip(pipes, counts)])
-
-
 def _friction_laws(line: Line) -> list:
     """Each run's friction factor at a flow, lumping its fittings as the steady solve counts them (so a run
     settling at a new flow loses what the steady answer at that flow would)."""
@@ -360,23 +357,13 @@ def _element(line, i, el, ev, Q0, rho, machines, start_ev):
                 raise TransientProblem(f"{start_ev.path}.element", "a line with two pumps starting at once is not "
                                        "modelled: start one pump a case")
             return [CurvePump(lambda Q, p=el: float(p.pump_head(Q)), name=name)]
-        unit = _pump_model(el, ev, rho) if ev.kind == "pump_trip" else None
         if ev.kind == "pump_start":
             omega = ev.rated_speed or 1.0
-            unit = _pump_model_start(el, ev, rho)
-            m = PumpMachine(unit, 0.0, omega, 1.0, el.in_parallel, el.in_series,
+            m = PumpMachine(_pump_model_start(el, ev), 0.0, omega, 1.0, el.in_parallel, el.in_series,
                             speed=_speed_ramp(ev.start, ev.time, el.speed_ratio), name=name)
         else:
-            m = PumpMachine(unit, el.speed_ratio, ev.rated_speed, ev.inertia, el.in_parallel, el.in_series,
-                            trip_at=ev.start, name=name)
-            if isinstance(unit, Suter) and Q0 > 0:
-                q = Q0 / el.in_parallel
-                h_unit = float(el.unit_head(Q0))
-                unit.kh = 1.0
-                unit.kh = h_unit / unit.h(q, el.speed_ratio)[0]
-                T_unit = Homologous(el.curve, el.curve.slope, _torque_of(el, ev, rho)).T(q, el.speed_ratio)
-                unit.kb = 1.0
-                unit.kb = T_unit / unit.T(q, el.speed_ratio)
+            m = PumpMachine(_pump_model(el, ev, rho, Q0), el.speed_ratio, ev.rated_speed, ev.inertia, el.in_parallel,
+                            el.in_series, trip_at=ev.start, name=name)
         machines[i] = m
         out = [m]
         if ev.check_valve:
@@ -385,14 +372,7 @@ def _element(line, i, el, ev, Q0, rho, machines, start_ev):
     raise TypeError(type(el).__name__)
 
 
-def _torque_of(el, ev, rho):
-    eff = el.efficiency_curve
-    pts = torque_curve_points(eff.Q, [float(el.curve(q)) for q in eff.Q], eff.y, rho, ev.rated_speed) if eff else \
-        torque_curve_points(el.curve.Q, el.curve.y, [el.efficiency] * len(el.curve.Q), rho, ev.rated_speed)
-    return Curve([q for q, _ in pts], [T for _, T in pts])
-
-
-def _pump_model_start(el: Pump, ev: Event, rho: float):
+def _pump_model_start(el: Pump, ev: Event):
     """A pump brought to speed by its motor: its head by the homologous laws (the motor holds the speed,
     so the torque is not needed)."""
     if el.mode != "curve" or el.curve is None:
@@ -437,13 +417,13 @@ def _device_model(line: Line, dv, system: System, k: int, node: int, rho: float)
 
 def run(line: Line, Q0: float, spec: TransientInputs, events: list[Event], case: str) -> Answer:
     """Build and run one case's transient from its steady flow ``Q0``."""
-    system, (H0, Qs, watches), vapour, answer = build(line, Q0, spec, events, case)
+    system, (H0, Qs, watches), answer = build(line, Q0, spec, events, case)
     for p in answer.placed:
         if isinstance(p.model, dev_mod.SurgeTank):
             level = float(H0[p.pipe][p.node])
             if not p.model.bottom < level < p.model.top:
                 raise TransientProblem(f"{p.device.path}.top" if level >= p.model.top else f"{p.device.path}.bottom",
                                        f"the steady head there ({level:.2f} m) must lie between the tank's floor and rim")
-    answer.result = system.run(H0, Qs, spec.duration, vapour, watches, friction=_friction_laws(line))
+    answer.result = system.run(H0, Qs, spec.duration, answer.vapour, watches, friction=_friction_laws(line))
     answer.notes = answer.result.notes + answer.notes
     return answer

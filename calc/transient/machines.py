@@ -94,7 +94,7 @@ class PumpMachine(Element):
         self.parallel, self.series, self.trip_at, self.speed, self.name = parallel, series, trip_at, speed, name
         self.alpha_try = alpha0
         self.T_now = 0.0
-        self.t, self.alphas, self.flows, self.heads = [], [], [], []
+        self.t, self.alphas, self.flows = [], [], []
         self.reversed_at = None
 
     def driven(self, t: float) -> bool:
@@ -104,7 +104,6 @@ class PumpMachine(Element):
         q = Q / self.parallel
         self.T_now = self.unit.T(q, self.alpha)
         self.t, self.alphas, self.flows = [0.0], [self.alpha], [Q]
-        self.heads = [self.series * self.unit.h(q, self.alpha)[0]]
 
     def at(self, t: float, dt: float) -> None:
         if self.speed is not None and self.driven(t):
@@ -135,10 +134,9 @@ class PumpMachine(Element):
         self.t.append(t)
         self.alphas.append(self.alpha)
         self.flows.append(Q)
-        self.heads.append(self.series * self.unit.h(q, self.alpha)[0])
 
     def histories(self) -> dict:
-        return {self.name: {"speed": self.alphas, "Q": self.flows, "head": self.heads, "t": self.t}}
+        return {self.name: {"speed": self.alphas, "Q": self.flows, "t": self.t}}
 
 
 def torque_curve_points(flows, heads, efficiencies, rho: float, omega_R: float) -> list[tuple[float, float]]:

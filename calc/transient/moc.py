@@ -67,6 +67,12 @@ class Grid:
     counts: list[int]
     a_used: list[float]
 
+    @classmethod
+    def at_step(cls, pipes: list[Pipe], dt: float) -> "Grid":
+        """Each pipe as many reaches of a dt's travel as fit (at least one), its wave speed adjusted to dx/dt."""
+        counts = [max(1, round(p.L / (p.a * dt))) for p in pipes]
+        return cls(dt, counts, [p.L / (n * dt) for p, n in zip(pipes, counts)])
+
     def notes(self, pipes: list[Pipe]) -> list[str]:
         return [f"{p.label or f'pipe {k + 1}'}: wave speed {p.a:.4g} m/s adjusted to {a:.4g} m/s "
                 f"({(a / p.a - 1) * 100:+.2f} %), {n} reach{'' if n == 1 else 'es'} of {p.L / n:.4g} m"
@@ -80,8 +86,7 @@ def grid(pipes: list[Pipe], reaches_min: int = 4, reaches_total: int = 0) -> Gri
     dt = min(p.L / p.a for p in pipes) / max(1, reaches_min)
     if reaches_total:
         dt = min(dt, sum(p.L / p.a for p in pipes) / reaches_total)
-    counts = [max(1, round(p.L / (p.a * dt))) for p in pipes]
-    return Grid(dt, counts, [p.L / (n * dt) for p, n in zip(pipes, counts)])
+    return Grid.at_step(pipes, dt)
 
 
 @dataclass
