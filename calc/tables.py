@@ -206,6 +206,8 @@ def _schedule40() -> tuple[list[float], list[float]]:
 
 
 _S40_ID, _S40_NPS = _schedule40()
+#: Where the Schedule 40 bores behind Darby's nominal size come from.
+S40_SOURCE = _read("sizes_asme_b36_10m.json")["sources"]["asme-b36.10m-2004"]
 
 
 # ---------------------------------------------------------------------------
@@ -439,14 +441,25 @@ def darby_nominal_size(D: float) -> float:
     >>> round(darby_nominal_size(0.05248) / 0.0254, 6)
     2.0
     """
+    return darby_nominal_bracket(D)["nps"] * INCH
+
+
+def darby_nominal_bracket(D: float) -> dict:
+    """How :func:`darby_nominal_size` finds its size, for the record's working: the Schedule 40 bores
+    ``D0``, ``D1`` [m] and their sizes ``nps0``, ``nps1`` [in] it interpolates between (``nps0`` and ``D0``
+    0 below NPS 1/2, where it scales in proportion), and the size ``nps`` [in].
+
+    >>> b = darby_nominal_bracket(0.06)
+    >>> b["nps0"], b["nps1"], round(b["nps"], 4)
+    (2.0, 2.5, 2.3134)
+    """
     D = _check_positive("D", D)
     if D <= _S40_ID[0]:
-        nps = _S40_NPS[0] * D / _S40_ID[0]
+        x0, x1, y0, y1 = 0.0, _S40_ID[0], 0.0, _S40_NPS[0]
     else:
         i = min(bisect.bisect_left(_S40_ID, D), len(_S40_ID) - 1)
         x0, x1, y0, y1 = _S40_ID[i - 1], _S40_ID[i], _S40_NPS[i - 1], _S40_NPS[i]
-        nps = y0 + (y1 - y0) * (D - x0) / (x1 - x0)
-    return nps * INCH
+    return {"D0": x0, "D1": x1, "nps0": float(y0), "nps1": float(y1), "nps": y0 + (y1 - y0) * (D - x0) / (x1 - x0)}
 
 
 def k_coefficients(model: str, params: Mapping, D: float) -> tuple[float, float]:

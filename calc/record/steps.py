@@ -7,10 +7,11 @@ import math
 from calc import friction, tables
 from calc.model import valve_law
 from calc.model.elements import PipeRun, Pump, Turbine, Valve
+from calc.model.settings import SRC_NPSH
 from calc.record.context import Context
 from calc.record.parts import Step, StepGroup
 from calc.record.text import num, paren, shown, si, sub
-from calc.review.machines import impulse_duty
+from calc.review.machines import impulse_duty, npsh_available
 from calc.water import G
 
 
@@ -209,6 +210,15 @@ def _pipe_steps(c: Context, title: str, el: PipeRun, d: dict, Q: float, nu: floa
     steps.append(Step("h_f", "friction loss", "h_f = f (L/D) h_v",
                       f"= {sub(d['f'])} × ({sub(L)} / {sub(D)}) × {sub(hv)}", num(d["h_friction"]), "m",
                       d["h_friction"], c.ref_darcy))
+    if any(ft.model == "3k" for ft in el.fittings):
+        b = tables.darby_nominal_bracket(D)
+        steps.append(Step("D_n", "nominal size for the 3-K constants: the Schedule 40 steel size of this bore",
+                          "D_n = N₀ + (N₁ − N₀)(D − D₀)/(D₁ − D₀)",
+                          f"= {sub(b['nps0'])} + ({sub(b['nps1'])} − {sub(b['nps0'])}) × ({sub(D)} − {sub(b['D0'])}) / "
+                          f"({sub(b['D1'])} − {sub(b['D0'])})", num(b["nps"]), "in", b["nps"],
+                          c.refs.cite(tables.S40_SOURCE, "3-K nominal size"),
+                          also=f"between NPS {sub(b['nps0'])} (bore {sub(b['D0'] * 1000)} mm) and NPS {sub(b['nps1'])} "
+                               f"(bore {sub(b['D1'] * 1000)} mm)"))
     for ft, x in zip(el.fittings, d["fittings"]):
         name = ft.name
         if ft.model == "2k":
@@ -302,12 +312,49 @@ def _turbine_steps(c: Context, title: str, el: Turbine, d: dict, Q: float, rho: 
     notes = []
     m = next((m for m in c.sol.machines if m["index"] == d["index"]), None)
     if m and m.get("Q_at_max"):
-        notes.append(f"The most shaft power the line can give this turbine is {shown(m['power_max'], 'power', c.system)} "
-                     f"at {shown(m['Q_at_max'], 'flow', c.system)} (head available "
-                     f"{shown(m['head_available_at_max'], 'head', c.system)}).")
+        steps += _max_power_steps(c, el, d, m, rho)
     if d.get("in_curve_range") is False:
         notes.append("The flow lies outside the typed curve points: the curve is extrapolated.")
-    return StepGroup(title, "turbine", steps, notes)
+    return StepGroup(title, "turbine", _once_each(steps), notes)
+
+
+def _max_power_steps(c: Context, el: Turbine, d: dict, m: dict, rho: float) -> list[Step]:
+    """The largest power the line can give the turbine, worked at the flow the search found, with the power a
+    step either side of it so that a checker sees it is the top."""
+    from calc.steady.series import make_residual
+
+    Qm, Hm, Pm = m["Q_at_max"], m["head_available_at_max"], m["power_max"]
+    p = c.design
+    gross = p["head_start"] - p["head_end"]
+    losses = gross - Hm
+    eta = float(el.eta(Qm))
+    left = make_residual(c.line, skip=d["index"])
+    side = [(k * Qm, float(el.eta(k * Qm)) * rho * G * k * Qm * left(k * Qm)) for k in (0.95, 1.05)]
+    return [
+        Step("Q*", "flow of the largest power (searched over the flows, refined by a parabola through the best three)",
+             "dP/dQ = 0", "", num(Qm), "m³/s", Qm),
+        Step("H_a", "head left for the turbine at Q* (the line's own losses at Q* taken off the gross head)",
+             "H_a = H_start − H_end − Σ h_line(Q*)", f"= {sub(p['head_start'])} − {sub(p['head_end'])} − {sub(losses)}",
+             num(Hm), "m", Hm),
+        Step("P_max", "largest shaft power", "P_max = η ρ g Q* H_a",
+             f"= {sub(eta)} × {sub(rho)} × 9.80665 × {sub(Qm)} × {sub(Hm)}", num(Pm), "W", Pm,
+             also=f"either side: P(0.95 Q*) = {num(side[0][1])} W, P(1.05 Q*) = {num(side[1][1])} W, both lower; "
+                  f"the line loses {losses / gross * 100:.0f} % of the gross head at Q* (a third where every loss "
+                  "grows as Q²)"),
+    ]
+
+
+def _once_each(steps: list[Step]) -> list[Step]:
+    """The steps without a repeat of one already worked (the same curve position t for head, efficiency and
+    NPSH read at one flow between the same typed points)."""
+    seen, out = set(), []
+    for s in steps:
+        key = (s.symbol, s.equation, s.substituted)
+        if key in seen:
+            continue
+        seen.add(key)
+        out.append(s)
+    return out
 
 
 def _pump_steps(c: Context, title: str, el: Pump, d: dict, Q: float, rho: float) -> StepGroup:
@@ -354,8 +401,17 @@ def _pump_steps(c: Context, title: str, el: Pump, d: dict, Q: float, rho: float)
         steps.append(Step("P", "shaft power", "P = P_h/η", f"= {sub(d['power_hydraulic'])} / {sub(eta)}",
                           num(d["power_shaft"]), "W", d["power_shaft"]))
     if d.get("npsh_required") is not None:
-        steps.append(Step("NPSH_r", "NPSH required (fitted curve)", f"NPSH_r = n² NPSH₁({Qs}/n)", "",
-                          num(d["npsh_required"]), "m", d["npsh_required"]))
+        q1 = q_unit / n
+        r1 = float(el.npshr_curve(q1))
+        if n != 1.0:
+            steps += _curve_steps(c, "NPSH₁", "NPSH required at the curve's own speed", el.npshr_curve, q1, r1, "m",
+                                  "Q₁")
+            steps.append(Step("NPSH_r", "NPSH required at this speed", "NPSH_r = n² NPSH₁",
+                              f"= {sub(n)}² × {sub(r1)}", num(d["npsh_required"]), "m", d["npsh_required"]))
+        else:
+            steps += _curve_steps(c, "NPSH_r", "NPSH required", el.npshr_curve, q1, r1, "m", Qs)
+    steps += _npsh_available_steps(c, d)
+    steps = _once_each(steps)
     notes = []
     if el.curve is not None:
         notes.append("The curve passes through every typed point; between them it is the shape-preserving cubic, "
@@ -363,6 +419,26 @@ def _pump_steps(c: Context, title: str, el: Pump, d: dict, Q: float, rho: float)
     if d.get("in_curve_range") is False:
         notes.append("The flow lies outside the typed curve points: the curve is extrapolated.")
     return StepGroup(title, "pump", steps, notes)
+
+
+def _npsh_available_steps(c: Context, d: dict) -> list[Step]:
+    """NPSH available at the pump's inlet from the grade line there, the number the NPSH finding rests on."""
+    stations = [s for s in c.design["profile"] if s["element"] == d["index"]]
+    if len(stations) < 2:
+        return []
+    inlet = stations[0]
+    lq, rho = c.liquid, c.liquid.rho
+    hp, hv = inlet["pressure_head"], inlet["egl"] - inlet["hgl"]
+    p_abs = c.line.p_atm + rho * G * hp
+    npsha = npsh_available(p_abs, math.sqrt(max(2 * G * hv, 0.0)), lq.p_vap, rho)
+    return [
+        Step("p_in", "absolute pressure at the pump inlet (its pressure head from the grade line there)",
+             "p_in = p_atm + ρ g h_p", f"= {sub(c.line.p_atm)} + {sub(rho)} × 9.80665 × {paren(hp)}", num(p_abs),
+             "Pa", p_abs),
+        Step("NPSH_a", "NPSH available at the inlet", "NPSH_a = (p_in − p_v)/(ρ g) + V²/(2 g)",
+             f"= ({sub(p_abs)} − {sub(lq.p_vap)}) / ({sub(rho)} × 9.80665) + {sub(hv)}", num(npsha), "m", npsha,
+             c.refs.cite(SRC_NPSH, "NPSH")),
+    ]
 
 
 PCHIP_REF = ("Fritsch, F. N. and Carlson, R. E. (1980). Monotone piecewise cubic interpolation. SIAM Journal on "
