@@ -451,7 +451,7 @@ def darby_nominal_bracket(D: float) -> dict:
 
     >>> b = darby_nominal_bracket(0.06)
     >>> b["nps0"], b["nps1"], round(b["nps"], 4)
-    (2.0, 2.5, 2.3134)
+    (2.0, 2.5, 2.3686)
     """
     D = _check_positive("D", D)
     if D <= _S40_ID[0]:

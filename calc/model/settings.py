@@ -6,12 +6,14 @@ from dataclasses import dataclass, field, fields
 
 # Where each default limit comes from, written once so that findings, the record and the docs agree.
 SRC_PRACTICE = "common practice"
-SRC_NPSH = ("ANSI/HI 9.6.1-2012 (NPSH margin), as summarised in secondary sources: NPSHA/NPSH3 at least "
-            "1.1 or NPSH3 + 0.6 m, whichever is greater, for water services; confirm against the standard")
-SRC_BEP = ("ANSI/HI 9.6.3 (allowable and preferred operating regions), from memory; 70-120 % of "
-           "best-efficiency flow is common practice")
-SRC_EN805 = ("EN 805 (water supply outside buildings): where surge is not calculated, allow at least "
-             "200 kPa over the design pressure, from memory")
+SRC_NPSH = ("ANSI/HI 9.6.1-2012, Rotodynamic Pumps Guideline for NPSH Margin, Hydraulic Institute, Parsippany NJ: "
+            "the margin of NPSHA over NPSH3; the figures used, NPSHA/NPSH3 at least 1.1 or NPSH3 + 0.6 m, whichever "
+            "is greater, for water services, are as secondary sources summarise it: confirm against the standard")
+SRC_BEP = ("common practice: 70-120 % of the best-efficiency flow as the preferred operating region, where "
+           "a rotodynamic pump runs with little recirculation, vibration and wear; a pump's own region is its "
+           "maker's")
+SRC_EN805 = ("common practice: where surge is not calculated, allow at least 200 kPa over the design pressure "
+             "(the kind of fixed allowance water-supply codes set; the code where the works are built governs)")
 
 
 @dataclass
@@ -78,12 +80,12 @@ class CheckSettings:
         "velocity_min": "common practice",
         "npsh_margin_ratio": "ANSI/HI 9.6.1",
         "npsh_margin_min": "ANSI/HI 9.6.1",
-        "bep_low": "ANSI/HI 9.6.3, from memory",
-        "bep_high": "ANSI/HI 9.6.3, from memory",
+        "bep_low": "common practice",
+        "bep_high": "common practice",
         "k_uncertainty": "common practice",
         "roughness_low": "the material table",
         "roughness_high": "the material table (Idelchik 2007 and others)",
-        "surge_allowance": "EN 805, from memory",
+        "surge_allowance": "common practice",
         "surge_closure_time": "common practice: the worst case",
     }
 

@@ -57,12 +57,14 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
                       errors=[{"path": e.path, "message": e.message} for e in analysis.errors], **common)
     b = Context(analysis, system)
     shown_results = results.results(b)
+    worked = steps.steps(b)
     return Record(
         scope=scope.scope(b),
         assumptions=scope.assumptions(b),
         inputs=inputs.inputs(b),
         equations=method.equations(b),
-        steps=steps.steps(b),
+        steps=worked,
+        working=steps.working(b, worked),
         steps_point=steps.steps_point(b),
         solve_log=results.solve_log(b),
         solve_notes=results.solve_notes(b),

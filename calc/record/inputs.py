@@ -61,6 +61,7 @@ def inputs(c: Context) -> list[Table]:
     tables_out.append(Table(head, rows, "Liquid, site and method", align, css="inputs"))
     tables_out.append(_check_limits(c, head, align))
 
+    small: list[Table] = []  # the ends, valves and machines, gathered into one table below
     for which in ("start", "end"):
         node_doc = doc.get(which) or {}
         node = getattr(c.line, which)
@@ -78,11 +79,123 @@ def inputs(c: Context) -> list[Table]:
                          "default: 0.97-0.99 for a well-made nozzle (common practice)" if node.nozzle_diameter
                          else "default: a jet from the open pipe end loses only its velocity head"])
         kind = {"reservoir": "a reservoir", "pressure": "a point of known pressure", "jet": "a free jet"}[node.kind]
-        tables_out.append(Table(head, rows, f"{which.capitalize()} of the line: {kind}", align, css="inputs"))
+        small.append(Table(head, rows, f"{which.capitalize()} of the line: {kind}", align, css="inputs"))
 
-    for i, (e, el) in enumerate(zip(doc.get("elements") or [], c.line.elements)):
-        tables_out += _element_inputs(c, i, e, el, head, align)
-    return tables_out
+    pairs = list(zip(doc.get("elements") or [], c.line.elements))
+    runs = [(i, e, el) for i, (e, el) in enumerate(pairs) if isinstance(el, PipeRun)]
+    if runs:
+        tables_out += _runs_inputs(c, runs)
+    curves = []
+    for i, (e, el) in enumerate(pairs):
+        if not isinstance(el, PipeRun):
+            own, *pts = _element_inputs(c, i, e, el, head, align)
+            small.append(own)
+            curves += pts
+    rows = [[t.caption if k == 0 else ""] + r for t in small for k, r in enumerate(t.rows)]
+    tables_out.append(Table(["Item"] + head, rows, "Ends of the line, valves and machines", ["l"] + align,
+                            css="inputs items"))
+    return tables_out + curves
+
+
+def _cell(d: dict, key: str, kind) -> str:
+    """A typed value for a table cell: as typed, with its SI value after it where the two read differently."""
+    v = d.get(key) if isinstance(d, dict) else None
+    if v is None or (isinstance(v, str) and not v.strip()):
+        return ""
+    typed = as_text(v)
+    try:
+        value = parse_quantity(v, kind, key)
+    except ValueError:
+        return typed
+    si_text = f"{si(value)} {_SI_UNIT[kind]}" if kind is not RATIO else si(value)
+    return typed if _same(typed, si_text) else f"{typed} = {si_text}"
+
+
+def _same(typed: str, si_text: str) -> bool:
+    """Whether a typed value reads as its SI value.
+
+    >>> _same("640 m", "640 m"), _same("412.0 m", "412 m"), _same("0.52", "0.52"), _same("16 bar", "1.6×10⁶ Pa")
+    (True, True, True, False)
+    """
+    t = typed.split()
+    s = si_text.split()
+    if len(t) == 1 and len(s) == 1:  # plain numbers
+        t, s = t + ["-"], s + ["-"]
+    if len(t) != 2 or len(s) != 2 or t[1] != s[1]:
+        return False
+    try:
+        return float(t[0]) == float(s[0].replace("×10", "e").translate(_SUP_BACK))
+    except ValueError:
+        return False
+
+
+_SUP_BACK = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁺", "0123456789-+")
+
+
+def _runs_inputs(c: Context, runs: list) -> list[Table]:
+    """The pipe runs' inputs: a run a row (as typed, its SI value where that reads differently, references),
+    where each value came from in the note below; their fittings in a table of their own, and the surveyed
+    profile points."""
+    rows, notes, frows, prows = [], [], [], []
+    for i, e, el in runs:
+        where = f"run {i + 1}"
+        said = []
+        size = e.get("size") if isinstance(e.get("size"), dict) else {}
+        bore = _cell(e, "diameter", LENGTH)
+        if not bore and el.size is not None:
+            refs, _ = c.refs.cite_source(el.size.source, "pipe sizes")
+            bore = f"{as_text(size.get('nominal'))} {as_text(size.get('class'))} = {si(el.D)} m {refs}"
+            said.append(f"bore from the size table, OD {si(el.size.OD * 1e3)} mm less twice the wall "
+                        f"{si(el.size.wall * 1e3)} mm")
+        aged = e.get("condition") == "aged"
+        rough = _cell(e, "roughness", LENGTH)
+        if not rough and el.material is not None:
+            source = el.material.source_aged if aged else el.material.source_roughness
+            refs, detail = c.refs.cite_source(source or "", "aged roughness" if aged else "pipe roughness")
+            rough = f"{as_text(e.get('material'))}{' aged' if aged else ''} = {si(el.eps)} m {refs}"
+            note = c.once(f"{el.material.name}" + (f" ({detail})" if detail else ""), where)
+            said.append(f"ε{' (aged)' if aged else ''} from the material table: {note}")
+        band = ""
+        if el.material is not None and el.eps_aged and not aged and not _cell(e, "roughness", LENGTH):
+            refs, detail = c.refs.cite_source(el.material.source_aged or "", "aged roughness")
+            band = f"{si(el.eps_aged)} m {refs}"
+            if detail:
+                said.append(f"aged ε: {c.once(detail, where)}")
+        wall = _cell(e, "wall_thickness", LENGTH) or (f"{si(el.size.wall * 1e3)} mm" if el.size is not None else "")
+        rows.append([f"{i + 1}" + (f" {el.label}" if el.label else ""), _cell(e, "length", LENGTH), bore, rough, band,
+                     _cell(e, "end_elevation", LENGTH), wall, _cell(e, "rating", PRESSURE),
+                     as_text(e.get("restraint")).replace("_", " ")])
+        if said:
+            notes.append(f"Run {i + 1}: " + "; ".join(said) + ".")
+        for ft in el.fittings:
+            refs, detail = c.fitting_ref(ft)
+            consts = ", ".join(f"{k} = {sub(v)}" for k, v in ft.params.items())
+            if ft.model == "cone":
+                consts = f"cone {sub(ft.params['angle_deg'])}°, K = {sub(ft.derived_K or 0.0)}"
+            how = ("counted by default" if ft.implied else "typed" if ft.source.startswith("typed")
+                   else "fitting table")
+            if ft.why:
+                detail = ft.why + (f"; {detail}" if detail else "")
+            detail = c.once(detail, where)
+            model = {"k": "K", "2k": "2-K", "3k": "3-K", "cone": "change of bore"}[ft.model]
+            frows.append([str(i + 1), ft.name, "(not typed)" if ft.implied else f"{ft.key} × {ft.count}",
+                          f"{model}: {consts}", how + (f" ({detail})" if detail else "") + (f" {refs}" if refs else "")])
+        points = [p for p in (e.get("profile") or []) if isinstance(p, dict)]
+        if points:
+            prows.append([str(i + 1), "; ".join(f"{_cell(p, 'chainage', LENGTH)} / {_cell(p, 'elevation', LENGTH)}"
+                                                for p in points)])
+    head = ["Run", "Length L", "Bore D", "Roughness ε", "Aged ε (band only)", "Elevation at the end", "Wall",
+            "Rating (gauge)", "Restraint"]
+    keep = [k for k in range(len(head)) if k < 4 or any(r[k] for r in rows)]  # no column of blanks
+    out = [Table([head[k] for k in keep], [[r[k] for k in keep] for r in rows], "Pipe runs", ["l"] * len(keep),
+                 " ".join(notes), css=f"run-inputs cols-{len(keep)}")]
+    if prows:
+        out.append(Table(["Run", "Surveyed points: chainage in the run / elevation, as typed"], prows,
+                         "Profile points", ["l", "l"], css="profile-inputs"))
+    if frows:
+        out.append(Table(["Run", "Fitting", "As typed", "Constants", "Source"], frows, "Fittings on the runs",
+                         ["l"] * 5, css="fitting-inputs"))
+    return out
 
 
 #: The SI unit each check limit is held in ("" a plain number); its name is CheckSettings.LABELS'.
@@ -96,7 +209,14 @@ def _check_limits(c: Context, head, align) -> Table:
     settings = c.doc.get("settings") if isinstance(c.doc.get("settings"), dict) else {}
     typed = settings.get("checks") if isinstance(settings.get("checks"), dict) else {}
     rows = []
+    pumps = any(isinstance(el, Pump) for el in c.line.elements)
+    closers = any(isinstance(el, (Valve, Turbine)) for el in c.line.elements) or c.line.end.kind == "jet"
+    unrated = any(getattr(f, "code", "") == "surge-wave-speed-missing" for f in c.a.findings)
+    applies = {"velocity_max_suction": pumps, "npsh_margin_ratio": pumps, "npsh_margin_min": pumps, "bep_low": pumps,
+               "bep_high": pumps, "surge_allowance": unrated, "surge_closure_time": closers}
     for key, label in CheckSettings.LABELS.items():
+        if not applies.get(key, True) and key not in s.given:  # a limit no check of this line used
+            continue
         unit = _LIMIT_UNITS.get(key, "")
         v = getattr(s, key)
         if isinstance(v, tuple):
@@ -106,14 +226,23 @@ def _check_limits(c: Context, head, align) -> Table:
         else:
             value = f"{si(v)} {unit}".strip()
         if key in s.given:
-            where = "set on the sheet"
+            where = f"set on the sheet: {as_text(typed.get(key))}"
         else:
             # a published source once, in the references; common practice with its reason, briefly
             full = s.source(key)
             ref = c.refs.cite(full, "check limits") if looks_published(full) else ""
             where = f"default: {CheckSettings.SHORT_SOURCES[key].split(',')[0]} {ref}".strip() if ref else f"default: {full}"
-        rows.append([label, as_text(typed.get(key)) if key in s.given else "", value, where])
-    return Table(head, rows, "Check limits applied", align, css="inputs")
+        rows.append([label, value, "as above" if rows and where == _last_source(rows) else where])
+    return Table(["Limit", "Value", "Source"], rows, "Check limits applied (those this line's checks use)",
+                 ["l", "r", "l"], css="limits")
+
+
+def _last_source(rows: list[list[str]]) -> str:
+    """The source last written out in full above (past any 'as above')."""
+    for r in reversed(rows):
+        if r[2] != "as above":
+            return r[2]
+    return ""
 
 
 def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]:
@@ -155,12 +284,13 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
         if e.get("restraint"):
             rows.append(["Restraint", as_text(e.get("restraint")), "", "typed"])
         # Profile points and fittings go in the same table (one table per element lays out faster).
-        for j, p in enumerate(x for x in (e.get("profile") or []) if isinstance(x, dict)):
-            ch = parse_quantity(p.get("chainage"), LENGTH, "chainage")
-            z = parse_quantity(p.get("elevation"), LENGTH, "elevation")
-            rows.append([f"Profile point {j + 1}: chainage in the run, elevation",
-                         f"{as_text(p.get('chainage'))}, {as_text(p.get('elevation'))}",
-                         f"{si(ch)} m, {si(z)} m", "typed"])
+        points = [p for p in (e.get("profile") or []) if isinstance(p, dict)]
+        if points:  # one row: the surveyed points in order, chainage in the run / elevation
+            typed_pts = "; ".join(f"{as_text(p.get('chainage'))} / {as_text(p.get('elevation'))}" for p in points)
+            si_pts = "; ".join(f"{si(parse_quantity(p.get('chainage'), LENGTH, 'chainage'))} / "
+                               f"{si(parse_quantity(p.get('elevation'), LENGTH, 'elevation'))}" for p in points)
+            rows.append([f"Profile points ({len(points)}): chainage in the run / elevation", typed_pts,
+                         f"{si_pts} m", "typed"])
         for ft in el.fittings:
             refs, detail = c.fitting_ref(ft)
             consts = ", ".join(f"{k} = {sub(v)}" for k, v in ft.params.items())
@@ -230,19 +360,14 @@ def _element_inputs(c: Context, i: int, e: dict, el, head, align) -> list[Table]
         rows.append(r or ["Diameter D", "", f"{si(el.D)} m", el.D_source])
     curve = [p for p in (e.get("curve") or []) if isinstance(p, dict)] if e.get("mode") == "curve" else []
     if isinstance(el, Turbine) and el.mode != "curve":
-        for j, p in enumerate(e.get("curve") or []):
-            if isinstance(p, dict) and as_text(p.get("efficiency")).strip():
-                q = parse_quantity(p.get("flow"), FLOW, "flow")
-                rows.append([f"Efficiency point {j + 1}: flow, efficiency",
-                             f"{as_text(p.get('flow'))}, {as_text(p.get('efficiency'))}",
-                             f"{si(q)} m³/s, {si(parse_quantity(p.get('efficiency'), RATIO, 'efficiency'))}", "typed"])
-    for j, p in enumerate(curve):
-        q = parse_quantity(p.get("flow"), FLOW, "flow")
-        h = parse_quantity(p.get("head"), LENGTH, "head")
-        extra = [as_text(p.get(k)) for k in ("efficiency", "npsh_required") if as_text(p.get(k)).strip()]
-        rows.append([f"Curve point {j + 1}: flow, head" + (", efficiency" if as_text(p.get("efficiency")).strip() else "")
-                     + (", NPSH required" if as_text(p.get("npsh_required")).strip() else ""),
-                     ", ".join([as_text(p.get("flow")), as_text(p.get("head"))] + extra),
-                     f"{si(q)} m³/s, {si(h)} m", "typed"])
+        curve = [p for p in (e.get("curve") or []) if isinstance(p, dict) and as_text(p.get("efficiency")).strip()]
     out.append(Table(head, [r for r in rows if r], title, align, css="inputs"))
+    if curve:  # the typed points, a point a row, each value as typed (its SI value where that reads differently)
+        cols = [("flow", FLOW, "Flow"), ("head", LENGTH, "Head"), ("efficiency", RATIO, "Efficiency"),
+                ("npsh_required", LENGTH, "NPSH required")]
+        cols = [col for col in cols if any(as_text(p.get(col[0])).strip() for p in curve)]
+        out.append(Table(["Point"] + [col[2] for col in cols],
+                         [[str(j + 1)] + [_cell(p, key, kind) for key, kind, _ in cols] for j, p in enumerate(curve)],
+                         f"Element {i + 1}: typed curve points", ["r"] + ["l"] * len(cols), css="curve-inputs"))
     return out
+

@@ -46,6 +46,8 @@ class StepGroup:
     kind: str
     steps: list[Step] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    #: A pipe run's figures for the runs' table of the printed working (see calc.record.steps.working).
+    row: dict = field(default_factory=dict)
 
 
 @dataclass
@@ -155,6 +157,9 @@ class Record:
     cases: list[Table] = field(default_factory=list)  # calc.record.cases: empty without operating cases
     energy: list[Table] = field(default_factory=list)  # calc.record.energy: empty without energy inputs
     transients: list[dict] = field(default_factory=list)  # calc.record.transient: empty without events
+    #: The working as printed: the step groups, with the pipe runs' groups gathered into tables
+    #: (calc.record.steps.working); the same numbers as ``steps``.
+    working: list = field(default_factory=list)
 
     @property
     def signed(self) -> bool:

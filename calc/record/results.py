@@ -4,35 +4,33 @@ from __future__ import annotations
 
 from calc.record.context import Context
 from calc.record.parts import Table
-from calc.record.sources import JOUKOWSKY_REF, KORTEWEG_REF, looks_published
+from calc.record.sources import WAVE_REF, looks_published
 from calc.record.text import DISPLAY_KINDS, as_text, num, shown
 from calc.water import G
 
 
 def solve_log(c: Context) -> list[Table]:
     log = c.sol.log
-    scan = log.get("scan", {})
     s = c.system
-    t1 = Table(["Item", "Value"], [
-        ["Flows scanned", f"{shown(scan.get('Q_min'), 'flow', s)} to {shown(scan.get('Q_max'), 'flow', s)}"],
-        ["Grid points (logarithmic)", str(scan.get("grid_points", "–"))],
-        ["Brackets with a sign change", str(scan.get("brackets", "–"))],
-        ["Extrema refined (close pairs of roots)", str(scan.get("extrema_refined", "–"))],
-    ], "Scan of the energy balance E(Q)", ["l", "r"], css="scan")
     rows = []
     for k, r in enumerate(log.get("roots", [])):
         a, b = r["bracket"]
         rows.append([str(k + 1), f"{shown(a, 'flow', s, 6)} to {shown(b, 'flow', s, 6)}",
                      str(r["iterations"]), str(r["function_calls"]), shown(r["Q"], "flow", s, 6),
                      f"{num(r['residual'], 3)} m"])
-    t2 = Table(["Root", "Bracket", "Iterations", "Function calls", "Flow", "Final residual E"], rows,
-               "Roots closed with Brent's method", ["r", "l", "r", "r", "r", "r"], css="roots")
-    return [t1, t2]
+    return [Table(["Root", "Bracket", "Iterations", "Function calls", "Flow", "Final residual E"], rows,
+                  "Roots closed with Brent's method", ["r", "l", "r", "r", "r", "r"], css="roots")]
 
 
 def solve_notes(c: Context) -> list[str]:
     sol = c.sol
     out = [f"Status: {sol.status.replace('_', ' ')}; {sol.message}."]
+    scan = sol.log.get("scan", {})
+    if scan:
+        s = c.system
+        out.append(f"E(Q) scanned from {shown(scan.get('Q_min'), 'flow', s)} to {shown(scan.get('Q_max'), 'flow', s)} "
+                   f"on {scan.get('grid_points', '–')} logarithmic grid points: {scan.get('brackets', '–')} brackets with "
+                   f"a sign change, {scan.get('extrema_refined', '–')} extrema refined (close pairs of roots).")
     if sol.design is not None:
         out.append(f"Design point: operating point {sol.design_index + 1}, {sol.design['why']}.")
     return out
@@ -151,10 +149,8 @@ def findings(c: Context) -> dict[str, list[dict]]:
         source = d.get("source") or ""
         ref = c.refs.cite(source, "checks") if looks_published(source) else ""
         if str(d.get("code", "")).startswith("surge"):
-            if "joukowsky" not in published:
-                ref += c.refs.cite(JOUKOWSKY_REF, "surge check")
-            if "korteweg" not in published:
-                ref += c.refs.cite(KORTEWEG_REF, "surge check")
+            if "joukowsky" not in published and "korteweg" not in published:
+                ref += c.refs.cite(WAVE_REF, "surge check")
         where = ""
         if d.get("element") is not None and 0 <= d["element"] < len(c.line.elements):
             el = c.line.elements[d["element"]]

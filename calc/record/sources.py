@@ -7,6 +7,7 @@ import re
 from calc import tables
 from calc.record.parts import Reference
 from calc.record.text import split_detail
+from calc.transient.sources import WAVE_REF
 
 DISCLAIMER = ("This record is the output of a design aid. It does not replace review, design and approval "
               "under the codes and standards that apply where the works are built, by a licensed or "
@@ -36,11 +37,8 @@ DARBY_REF = ("Darby, R. (2001). Chemical Engineering Fluid Mechanics, 2nd editio
              "New York: 3-K method for valves and fittings.")
 DARCY_REF = ("Darcy-Weisbach equation for friction loss in full pipe flow, h_f = f (L/D) V²/2g, as in "
              "Moody, L. F. (1944). Friction factors for pipe flow. Transactions of the ASME 66(8): 671-684.")
-JOUKOWSKY_REF = ("Joukowsky, N. (1898, translated 1904). On the hydraulic hammer in water supply pipes. "
-                 "Proceedings of the American Water Works Association 24: 341-424 (from memory).")
-KORTEWEG_REF = ("Korteweg, D. J. (1878). Über die Fortpflanzungsgeschwindigkeit des Schalles in elastischen "
-                "Röhren. Annalen der Physik 241(12): 525-542 (from memory); wave speed as in Wylie, E. B. "
-                "and Streeter, V. L. (1993). Fluid Transients in Systems. Prentice Hall.")
+# Korteweg's wave speed and Joukowsky's rise as the transient textbook gives them (one reference for both).
+JOUKOWSKY_REF = KORTEWEG_REF = WAVE_REF
 
 
 class References:
@@ -82,7 +80,7 @@ def method_citation(model: str) -> str:
 def looks_published(source: str) -> bool:
     """Whether a finding's source names a publication (a year or a standard), not a rule of thumb.
 
-    >>> looks_published("Chaudhry, Applied Hydraulic Transients (2014), from memory"), looks_published("steady grade line")
+    >>> looks_published("Bergant, Simpson and Tijsseling (2006)"), looks_published("steady grade line")
     (True, False)
     """
     if not source or source.lower().startswith("common practice"):

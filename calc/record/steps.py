@@ -9,7 +9,8 @@ from calc.model import valve_law
 from calc.model.elements import PipeRun, Pump, Turbine, Valve
 from calc.model.settings import SRC_NPSH
 from calc.record.context import Context
-from calc.record.parts import Step, StepGroup
+from calc.record.parts import Step, StepGroup, Table
+from calc.record.sources import JOUKOWSKY_REF, KORTEWEG_REF
 from calc.record.text import num, paren, shown, si, sub
 from calc.review.machines import impulse_duty, npsh_available
 from calc.water import G
@@ -85,10 +86,9 @@ _C1 = {  # the restraint factor's formula by restraint, thin and thick wall (cal
 def _surge_steps(c: Context, p: dict) -> StepGroup | None:
     """Each run's wave speed (Korteweg, with its restraint factor) and Joukowsky's rise for a sudden stop of
     its flow, and the pipeline period: the numbers the surge findings and the transient grid rest on."""
-    from calc.record.sources import JOUKOWSKY_REF, KORTEWEG_REF
     from calc.transient.wave import wave_speed_detail
 
-    steps, travel, notes = [], 0.0, []
+    steps, travel, notes, rows = [], 0.0, [], []
     r_k, r_j = c.refs.cite(KORTEWEG_REF, "wave speed"), c.refs.cite(JOUKOWSKY_REF, "surge")
     for i, (el, d) in enumerate(zip(c.line.elements, p["elements"])):
         if not isinstance(el, PipeRun):
@@ -115,6 +115,8 @@ def _surge_steps(c: Context, p: dict) -> StepGroup | None:
                               f"= √({sub(w['K'])}/{sub(w['rho'])}) / √(1 + {sub(w['c1'])} × {sub(w['K'])} × "
                               f"{sub(w['D'])} / ({sub(w['E'])} × {sub(w['e'])}))", num(a), "m/s", a, r_k))
         dH = a * abs(d["V"]) / G
+        rows.append({"number": i + 1, "label": el.label, "w": w, "a": a, "V": abs(d["V"]), "dH": dH, "L": el.L,
+                     "c1_form": "" if w["form"] == "typed" else _C1[(w["restraint"], w["form"] == "thick-wall")]})
         steps.append(Step("ΔH", f"{name}: rise for a sudden stop of its flow (Joukowsky)", "ΔH = a V / g",
                           f"= {sub(a)} × {sub(abs(d['V']))} / 9.80665", num(dH), "m", dH, r_j))
         travel += el.L / a
@@ -124,7 +126,7 @@ def _surge_steps(c: Context, p: dict) -> StepGroup | None:
     steps.append(Step("T", "pipeline period of the whole line", "T = 2 Σ L/a", f"= 2 × {sub(travel)}", num(T), "s", T))
     notes.append("A stop faster than T gives the full rise at the stop; a slower one, less (the surge findings and, "
                  "for the cases with events, the transient analysis).")
-    return StepGroup("Wave speed and surge", "surge", steps, notes)
+    return StepGroup("Wave speed and surge", "surge", steps, notes, {"runs": rows, "T": T, "travel": travel})
 
 
 def _node_steps(c: Context, which: str, node, Q: float, H: float) -> StepGroup:
@@ -206,7 +208,8 @@ def _pipe_steps(c: Context, title: str, el: PipeRun, d: dict, Q: float, nu: floa
         Step("Re", "Reynolds number", "Re = V D / ν", f"= {sub(V)} × {sub(D)} / {sub(nu)}", num(Re), "–", Re),
         Step("ε/D", "relative roughness", "ε/D", f"= {sub(el.eps)} / {sub(D)}", num(eD), "–", eD),
     ]
-    steps += _friction_steps(c, d, Re, eD)
+    friction_steps = _friction_steps(c, d, Re, eD)
+    steps += friction_steps
     steps.append(Step("h_f", "friction loss", "h_f = f (L/D) h_v",
                       f"= {sub(d['f'])} × ({sub(L)} / {sub(D)}) × {sub(hv)}", num(d["h_friction"]), "m",
                       d["h_friction"], c.ref_darcy))
@@ -219,20 +222,25 @@ def _pipe_steps(c: Context, title: str, el: PipeRun, d: dict, Q: float, nu: floa
                           c.refs.cite(tables.S40_SOURCE, "3-K nominal size"),
                           also=f"between NPS {sub(b['nps0'])} (bore {sub(b['D0'] * 1000)} mm) and NPS {sub(b['nps1'])} "
                                f"(bore {sub(b['D1'] * 1000)} mm)"))
+    fittings = []
     for ft, x in zip(el.fittings, d["fittings"]):
         name = ft.name
+        fittings.append({"name": name, "n": ft.count, "K": x["K"], "h": x["h"], "model": ft.model,
+                         "ref": c.fitting_ref(ft)[0], "working": ""})
         if ft.model == "2k":
             K1, Kinf = ft.params["K1"], ft.params["Kinf"]
             D_in = D / tables.INCH
             steps.append(Step("K", f"{name} (2-K)", "K = K₁/Re + K∞ (1 + 1/D_in)",
                               f"= {sub(K1)}/{sub(Re)} + {sub(Kinf)} × (1 + 1/{sub(D_in)})", num(x["K"]), "–",
                               x["K"], c.fitting_ref(ft)[0]))
+            fittings[-1]["working"] = steps[-1].substituted
         elif ft.model == "3k":
             K1, Ki, Kd = ft.params["K1"], ft.params["Ki"], ft.params["Kd"]
             Dn = tables.darby_nominal_size(D) / tables.INCH
             steps.append(Step("K", f"{name} (3-K)", "K = K₁/Re + K_i (1 + K_d/D_n^0.3)",
                               f"= {sub(K1)}/{sub(Re)} + {sub(Ki)} × (1 + {sub(Kd)}/{sub(Dn)}^0.3)", num(x["K"]), "–",
                               x["K"], c.fitting_ref(ft)[0]))
+            fittings[-1]["working"] = steps[-1].substituted
         steps.append(Step("h_m", f"{name}" + (f" × {ft.count}" if ft.count > 1 else ""), "h_m = n K h_v",
                           f"= {ft.count} × {sub(x['K'])} × {sub(hv)}", num(x["h"]), "m", x["h"],
                           c.fitting_ref(ft)[0] if ft.model == "k" else ""))
@@ -243,7 +251,103 @@ def _pipe_steps(c: Context, title: str, el: PipeRun, d: dict, Q: float, nu: floa
     notes = []
     if d.get("friction_note"):
         notes.append(d["friction_note"])
-    return StepGroup(title, "pipe", steps, notes)
+    dn = next((s for s in steps if s.symbol == "D_n"), None)
+    row = {"number": d["index"] + 1, "label": el.label, "L": L, "D": D, "A": A, "V": V, "hv": hv, "Re": Re, "eD": eD,
+           "friction": friction_steps, "hf": d["h_friction"], "hm": sum(x["h"] for x in d["fittings"]), "h": total,
+           "fittings": fittings, "Dn": dn}
+    return StepGroup(title, "pipe", steps, notes, row)
+
+
+def working(c: Context, groups: list[StepGroup]) -> list:
+    """The working as the record prints it: each group's steps, except that the pipe runs are gathered into
+    one table (a run a row, each column's equation at its head, the inputs it takes in the same row or the
+    heading) and their fittings into another. Every figure is the one the run's own steps hold."""
+    out: list = []
+    runs = [g for g in groups if g.kind == "pipe" and g.row]
+    for g in groups:
+        if g.kind == "surge" and g.row:
+            out.append(_surge_table(c, g))
+        elif g.kind != "pipe" or not g.row:
+            out.append(g)
+        elif g is runs[0]:
+            out += _runs_tables(c, runs)
+    return out
+
+
+def _surge_table(c: Context, g: StepGroup) -> Table:
+    """Each run's wave speed (Korteweg) and Joukowsky's rise, a run a row, the inputs in the row."""
+    lq = c.liquid
+    rows = []
+    for r in g.row["runs"]:
+        w = r["w"]
+        name = f"{r['number']}" + (f" {r['label']}" if r["label"] else "")
+        if w["form"] == "typed":
+            rows.append([name, "typed", "–", "–", "–", "–", "–", num(r["a"]), num(r["V"]), num(r["dH"]), num(r["L"] / r["a"])])
+            continue
+        kind = f"{w['restraint'].replace('_', ' ')}, {'thick' if w['form'] == 'thick-wall' else 'thin'} (D/e {num(w['D_over_e'], 3)})"
+        rows.append([name, kind, num(w["D"]), num(w["e"]), num(w["E"]), num(w["nu"]), num(w["c1"]), num(r["a"]),
+                     num(r["V"]), num(r["dH"]), num(r["L"] / r["a"])])
+    forms = list(dict.fromkeys(f"{r['c1_form']} ({r['w']['restraint'].replace('_', ' ')}, "
+                               f"{'thick' if r['w']['form'] == 'thick-wall' else 'thin'} wall)"
+                               for r in g.row["runs"] if r["c1_form"]))
+    ref = c.refs.cite(KORTEWEG_REF, "wave speed")
+    note = (f"K = {num(lq.bulk_modulus)} Pa, ρ = {num(lq.rho)} kg/m³; restraint factor " + "; ".join(forms) +
+            f"; a wall is thick below D/e = 25. Pipeline period T = 2 Σ L/a = 2 × {sub(g.row['travel'])} = "
+            f"{num(g.row['T'])} s. " + " ".join(g.notes))
+    return Table(["Run", "Restraint, wall", "D [m]", "e [m]", "E [Pa]", "ν", "c₁",
+                  f"a = √(K/ρ) / √(1 + c₁ K D/(E e)) [m/s] {ref}", "V [m/s]", f"ΔH = a V/g [m] {ref}", "L/a [s]"],
+                 rows, "Wave speed and surge", ["l", "l"] + ["r"] * 9, note, css="surge-runs")
+
+
+def _runs_tables(c: Context, runs: list[StepGroup]) -> list:
+    Q = c.design["Q"]
+    lq = c.liquid
+    f_ref = c.ref_method
+    head = ["Run", "L [m]", "D [m]", "A = πD²/4 [m²]", "V = Q/A [m/s]", "h_v = V²/2g [m]", "Re = VD/ν",
+            "ε/D", f"f {f_ref}".strip(), f"h_f = f (L/D) h_v [m] {c.ref_darcy}".strip(), "h_m = Σ n K h_v [m]",
+            "h = h_f + h_m [m]"]
+    rows, notes, colebrook = [], [], []
+    for g in runs:
+        r = g.row
+        fs = r["friction"]
+        f_step = fs[-1]
+        f_text = f_step.result
+        if f_step.also:  # Colebrook: both sides at the root
+            colebrook.append(f"{r['number']}: {f_step.also.removeprefix('check at this f: ')}")
+        if len(fs) > 1 or "laminar" in f_step.name:
+            f_text += " *"
+            notes.append(f"Run {r['number']}: " + "; ".join(f"{s.symbol} = {s.result} ({s.name}: {s.equation})"
+                                                               for s in fs) + ".")
+        name = f"{r['number']}" + (f" {r['label']}" if r["label"] else "")
+        rows.append([name, num(r["L"]), num(r["D"]), num(r["A"]), num(r["V"]), num(r["hv"]), num(r["Re"]),
+                     num(r["eD"]), f_text, num(r["hf"]), num(r["hm"]), num(r["h"])])
+    head_note = (f"Q = {num(Q)} m³/s, ν = μ/ρ = {num(lq.mu / lq.rho)} m²/s, g = 9.80665 m/s². f by "
+                 f"{c.method.name}: {c.friction_equation()}")
+    if colebrook:
+        head_note += "; both sides at the f shown, run " + "; ".join(colebrook)
+    head_note += "."
+    if any("*" in row[8] for row in rows):
+        notes.insert(0, "* outside fully turbulent flow:")
+    out = [Table(head, rows, "Pipe runs", ["l"] + ["r"] * 11,
+                 " ".join([head_note] + notes), css="runs")]
+    frows, dn_notes = [], []
+    for g in runs:
+        r = g.row
+        if r["Dn"] is not None:
+            s = r["Dn"]
+            dn_notes.append(f"run {r['number']}: D_n {s.substituted} = {s.result} in ({s.also})")
+        for ft in r["fittings"]:
+            k = f"{ft['working'].removeprefix('= ')} = {num(ft['K'])}" if ft["working"] else num(ft["K"])
+            frows.append([str(r["number"]), ft["name"], str(ft["n"]), k, num(ft["h"]), ft["ref"]])
+    if frows:
+        note = ""
+        if dn_notes:
+            s = next(g.row["Dn"] for g in runs if g.row["Dn"] is not None)
+            note = (f"3-K: K = K₁/Re + K_i (1 + K_d/D_n^0.3), D_n {s.name.removeprefix('nominal size for the 3-K constants: ')}"
+                    f" {s.ref}, D_n = N₀ + (N₁ − N₀)(D − D₀)/(D₁ − D₀): " + "; ".join(dn_notes) + ".")
+        out.append(Table(["Run", "Fitting", "n", "K", "h_m = n K h_v [m]", "Source"], frows, "Fittings and losses "
+                         "on each run's velocity head", ["l", "l", "r", "l", "r", "l"], note, css="run-fittings"))
+    return out
 
 
 def _valve_steps(c: Context, title: str, el: Valve, d: dict, Q: float) -> StepGroup:

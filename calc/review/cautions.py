@@ -5,6 +5,7 @@ from __future__ import annotations
 from calc.model.elements import Line, Pump, Turbine
 from calc.model.settings import SRC_EN805, SRC_PRACTICE
 from calc.review.findings import SRC_AIR, Finding, Shown
+from calc.transient.sources import MOC_REF
 
 
 def band_findings(band: dict, u: Shown | None = None) -> list[Finding]:
@@ -51,7 +52,7 @@ def general_cautions(line: Line) -> list[Finding]:
         Finding("caution", "general-surge", "Surge and transients",
                 "Surge and transients are not analysed here beyond the screening estimate stated: valve closure, "
                 "pump trip, start-up and load rejection need a transient analysis before the design is final.",
-                source="Chaudhry, Applied Hydraulic Transients (2014), from memory"),
+                source=MOC_REF),
         Finding("caution", "general-ratings", "Pipe and joint ratings",
                 "Check the rating of every pipe, joint, fitting and valve against the highest pressure including "
                 "surge and test pressure, and its derating with temperature.", source=SRC_EN805),

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import asdict, dataclass
 
 from calc.model.elements import Line, PipeRun, Pump, Valve
+from calc.transient.sources import WAVE_REF
 from calc.units import to_display
 
 #: Severity order, worst first.
@@ -15,9 +16,7 @@ SEVERITIES = ("error", "warning", "caution", "info")
 SRC_AIR = ("AWWA Manual M51, Air Valves: Air-Release, Air/Vacuum, and Combination, 2nd edition (2016): "
            "where air collects and which valve lets air out or in")
 SRC_VAPOUR = "vapour pressure of the liquid (water: IAPWS-IF97 saturation equation)"
-SRC_KORTEWEG = ("Korteweg wave speed with restraint factor c1, as in Wylie and Streeter, Fluid Transients "
-                "in Systems (1993)")
-SRC_JOUKOWSKY = "Joukowsky, dH = a dV / g, for a stop faster than the pipeline period 2L/a (standard texts)"
+SRC_KORTEWEG = SRC_JOUKOWSKY = WAVE_REF  # Korteweg's wave speed, Joukowsky's rise: one textbook
 SRC_PENSTOCK = ("penstock losses commonly held to 5-10 % of gross head (common practice); Leon and Zhu "
                 "(2014, Renewable Energy 71:609) suggest at most about 15 %")
 SRC_MAX_POWER = ("largest power where line losses are about one third of gross head with a near-constant "

@@ -159,7 +159,7 @@ def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
                         "every place where the flow can stop, so it sees the drop instead.")
             out.append(Finding("info", "surge-screen", f"{name}: surge screening",
                                text + " Screening estimate, not a transient analysis.",
-                               rg * dH, None, "pressure", SRC_KORTEWEG + "; " + SRC_JOUKOWSKY, i))
+                               rg * dH, None, "pressure", SRC_KORTEWEG, i))
             # The end of a run on a fixed-head boundary (a tank, a point of known pressure) keeps its head.
             fixed_end = i == len(line.elements) - 1 and line.end.kind != "jet"
             candidates = stations[:-1] if fixed_end else stations

@@ -16,11 +16,11 @@ from calc.review.surge import describe_wave_speed
 from calc.transient import devices as dev_mod
 from calc.transient.line import Answer
 from calc.transient.machines import Suter
+from calc.transient.sources import MOC_REF
 from calc.transient.wave import wave_speed_detail
 from calc.water import G
 
-SRC_MOC = ("method of characteristics, Wylie and Streeter, Fluid Transients in Systems (1993); vapour cavities "
-           "by the discrete vapour cavity model (Bergant, Simpson and Tijsseling 2006)")
+SRC_MOC = MOC_REF
 #: Points a history keeps for the page, the JSON and the record: the run's own steps thinned evenly (the
 #: envelope is taken from every step, so no extreme is lost by thinning).
 HISTORY_POINTS = 600
@@ -52,6 +52,16 @@ def describe_event(line: Line, ev: Event) -> str:
                 f"(rated speed {ev.rated_speed * 60 / (2 * math.pi):.0f} rpm), by {fq}, with {cv}")
     return (f"{name} starts at t = {ev.start:g} s, its motor bringing it to speed over {ev.time:g} s (linear), "
             "from the line at rest behind its check valve")
+
+
+def name_event(line: Line, ev: Event) -> str:
+    """An event in a few words, for a finding that names it (its law and times are in the run's summary)."""
+    name = "the jet's nozzle" if ev.element == "end" else label(line, ev.element)
+    if ev.kind == "turbine":
+        return f"{name} rejecting its load" if ev.element != "end" else f"{name} closing"
+    if ev.kind == "valve":
+        return f"{name} closing" if ev.law.kind != "table" and ev.law.to < 1.0 else f"{name} moving"
+    return f"{name} tripping" if ev.kind == "pump_trip" else f"{name} starting"
 
 
 def _thin(t: np.ndarray, *series) -> list:
@@ -120,6 +130,7 @@ def summary(line: Line, ans: Answer) -> dict:
         devices.append(out)
     return {
         "case": ans.case, "events": [describe_event(line, ev) for ev in ans.events],
+        "events_named": [name_event(line, ev) for ev in ans.events],
         "event_kinds": [ev.kind for ev in ans.events],
         "duration": float(r.t[-1]), "dt": r.grid.dt, "reaches": int(sum(r.grid.counts)),
         "steps": int(len(r.t) - 1), "notes": list(ans.notes), "envelope": envelope, "runs": runs,
@@ -132,7 +143,7 @@ def findings(line: Line, s: dict) -> list[Finding]:
     """What the run says against each run's rating, the vapour line and the atmosphere; the devices."""
     u = shown_in(line)
     case = s["case"]
-    ev = "; ".join(s["events"])
+    ev = ", ".join(s.get("events_named") or s["events"])
     where = f"in case {case} ({ev})"
     out: list[Finding] = []
     for run in s["runs"]:
@@ -221,7 +232,7 @@ def findings(line: Line, s: dict) -> list[Finding]:
 def analysed_caution(f: Finding, s: dict) -> Finding:
     """The general caution on surge, for a case whose events were run: what was analysed and what was not."""
     return Finding(f.severity, f.code, f.title,
-                   f"Transients are analysed here for the events listed ({'; '.join(s['events'])}) by the method of "
+                   f"Transients are analysed here for the events listed ({', '.join(s.get('events_named') or s['events'])}) by the method of "
                    "characteristics, from this case's steady state, with quasi-steady friction; other events (other "
                    "closures, power failure of other machines, start-up, air in the line, resonance) are not. The "
                    "model is not the line: confirm the protection with the suppliers of the machines and valves, "

@@ -186,7 +186,7 @@ def test_each_pipe_run_has_its_condition_and_aged_uses_the_aged_roughness(client
     assert response.status_code == 200
     assert _doc(client, sheet_id)["elements"][0]["condition"] == "aged"
     record = html.unescape(client.get(f"/sheets/{sheet_id}/record").text)
-    assert "condition aged" in record and "Roughness ε (aged pipe)" in record
+    assert re.search(r"<td>\S+ aged = [0-9.×⁻⁰-⁹]+ m", record) and "ε (aged) from the material table" in record
     assert client.get(f"/api/sheets/{sheet_id}/revisions/2/record").json() != before
 
 

@@ -24,7 +24,7 @@ FONT = "DejaVu Sans, Liberation Sans, sans-serif"
 SIZE = 12  # text [px]
 TAG_SIZE = 11  # element tags [px]
 #: Width of the viewBox [px] and of the plot area's height; the chart grows downwards with its legend.
-WIDTH, PLOT_HEIGHT = 600, 250
+WIDTH, PLOT_HEIGHT = 600, 190
 #: How far the axis may run past the data to end on a round tick [-, of the data's span].
 OVERSHOOT = 0.10
 #: Rows of tags above the plot before a tag is left out.
@@ -512,18 +512,17 @@ class Chart:
         return out, used
 
     def _place_legend(self, px0: float, px1: float, y0: float) -> tuple[list[str], float]:
-        """The legend under the axes, in two columns; an entry too wide for its column takes the whole row.
-        A row is LEGEND_ROW high."""
+        """The legend under the axes, its entries side by side in reading order, a new row where the next
+        would pass the right edge (so short entries share a row and a printed figure stays short). A row is
+        LEGEND_ROW high."""
         items = sorted(self.legend, key=lambda i: i.order)
-        col = (px1 - px0 + 14) / 2
         parts: list[str] = []
-        row, c = 0, 0
+        row, x = 0, px0
         for item in items:
             text = short(item.label, 60)
-            wide = 34 + text_width(text) + 14 > col
-            if wide and c:
-                row, c = row + 1, 0
-            x = px0 + c * col
+            w = 34 + text_width(text)
+            if x > px0 and x + w > px1:
+                row, x = row + 1, px0
             y = y0 + row * LEGEND_ROW
             sy = y - 4
             if item.kind == "line":
@@ -536,11 +535,8 @@ class Chart:
             else:
                 parts.append(_shape(item.kind, x + 14, sy, 4.5, item.colour, "legend-key"))
             parts.append(f'<text class="legend" x="{x + 34:.1f}" y="{y:.1f}">{esc(text)}</text>')
-            if wide or c == 1:
-                row, c = row + 1, 0
-            else:
-                c = 1
-        rows = row + (1 if c else 0)
+            x += w + 22
+        rows = row + 1 if items else 0
         return parts, rows * LEGEND_ROW
 
     def _markers(self, X, Y, px0, px1, py1, py0) -> list[str]:

@@ -371,17 +371,20 @@ def test_another_friction_method_cites_its_own_author():
 
 
 def test_inputs_show_the_text_as_typed_its_si_value_and_its_source(hydro, cooling):
-    rows = [row for t in record.build(hydro).inputs for row in t.rows]
-    assert ["Length L", "640 m", "640 m", "typed"] in rows
-    diameter = next(r for r in rows if r[0] == "Inner diameter D" and "315" in r[1])
+    tables = record.build(hydro).inputs
+    runs = next(t for t in tables if t.caption == "Pipe runs")
+    first = runs.rows[0]
+    assert first[1] == "640 m"  # as typed, which reads as its SI value
     # ISO 4427-2: PE 315 SDR 17, e_min 18.7 mm, e_max 20.7 mm (ISO 11922-1 grade V), mean wall 19.7 mm,
-    # bore 315 - 2 x 19.7 = 275.6 mm.
-    assert diameter[2] == "0.2756 m" and diameter[3].startswith("size table")
-    roughness = next(r for r in rows if r[0] == "Roughness ε" and "pe100" in r[1])
-    assert "material table" in roughness[3]
+    # bore 315 - 2 x 19.7 = 275.6 mm; the size table's standards cited by number.
+    assert re.fullmatch(r"315 SDR17 = 0\.2756 m (\[\d+\])+", first[2]), first[2]
+    assert first[3].startswith("pe100 = ") and re.search(r"\[\d+\]$", first[3])
+    assert "bore from the size table" in runs.note and "material table" in runs.note
     # US customary as typed: 38 psi = 38 x 6894.757 Pa (psi by definition, NIST SP 811) = 262001 Pa.
     us_rows = [row for t in record.build(cooling).inputs for row in t.rows]
-    assert ["Pressure (gauge)", "38 psi", "262001 Pa", "typed"] in us_rows
+    assert any(r[1:] == ["Pressure (gauge)", "38 psi", "262001 Pa", "typed"] for r in us_rows)
+    us_runs = next(t for t in record.build(cooling).inputs if t.caption == "Pipe runs")
+    assert any(" ft = " in r[1] and r[1].endswith(" m") for r in us_runs.rows)  # feet typed, metres used
 
 
 # ----------------------------------------------------------------------------- fingerprint
