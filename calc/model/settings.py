@@ -12,7 +12,7 @@ SRC_NPSH = ("ANSI/HI 9.6.1-2012, Rotodynamic Pumps Guideline for NPSH Margin, Hy
 SRC_BEP = ("common practice: 70-120 % of the best-efficiency flow as the preferred operating region, where "
            "a rotodynamic pump runs with little recirculation, vibration and wear; a pump's own region is its "
            "maker's")
-SRC_EN805 = ("common practice: where surge is not calculated, allow at least 200 kPa over the design pressure "
+SRC_EN805 = ("common practice: where surge is not calculated, allow at least 200 kPa (29 psi) over the design pressure "
              "(the kind of fixed allowance water-supply codes set; the code where the works are built governs)")
 
 
@@ -51,7 +51,7 @@ class CheckSettings:
         "bep_high": SRC_BEP,
         "k_uncertainty": SRC_PRACTICE + " (published K values for one fitting type scatter by tens of per cent)",
         "roughness_low": "each run's roughness as given (new pipe, material table)",
-        "roughness_high": "each run's aged roughness from the material table (Idelchik 2007 and others)",
+        "roughness_high": "each run's aged roughness from the material table, its source given with the run",
         "surge_allowance": SRC_EN805,
         "surge_closure_time": SRC_PRACTICE + " (screening takes a stop at once, the worst case; give the valve's closure time)",
     }
@@ -84,7 +84,7 @@ class CheckSettings:
         "bep_high": "common practice",
         "k_uncertainty": "common practice",
         "roughness_low": "the material table",
-        "roughness_high": "the material table (Idelchik 2007 and others)",
+        "roughness_high": "the material table",
         "surge_allowance": "common practice",
         "surge_closure_time": "common practice: the worst case",
     }

@@ -9,6 +9,10 @@ from calc.record.parts import ROLE_TITLES, ROLES, Meta, Record, Signature, revis
 from calc.record.sources import CAUTIONS, DISCLAIMER
 from calc.record.text import as_text
 
+#: The record's charts are drawn this many px wide, two to a row of the page: their 12 px lettering prints at
+#: about 7.5 pt on A4 or Letter (the sheet page draws them 600 px wide, one to a row).
+RECORD_CHART_WIDTH = 400
+
 
 def build(analysis, meta: Meta | None = None, version: str | None = None) -> Record:
     """The record of an analysed sheet. ``meta`` carries revision, dates and signatures from the store.
@@ -71,7 +75,7 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
         results=shown_results,
         points_table=results.points_table(b, shown_results),
         no_point=results.no_point(b),
-        plots=plots.all_plots(analysis, system),
+        plots=plots.all_plots(analysis, system, width=RECORD_CHART_WIDTH),
         findings=results.findings(b),
         solver_notes=list(analysis.solution.warnings),
         uncertainty=results.uncertainty(b),

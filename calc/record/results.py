@@ -31,8 +31,8 @@ def solve_notes(c: Context) -> list[str]:
         out.append(f"E(Q) scanned from {shown(scan.get('Q_min'), 'flow', s)} to {shown(scan.get('Q_max'), 'flow', s)} "
                    f"on {scan.get('grid_points', '–')} logarithmic grid points: {scan.get('brackets', '–')} brackets with "
                    f"a sign change, {scan.get('extrema_refined', '–')} extrema refined (close pairs of roots).")
-    if sol.design is not None:
-        out.append(f"Design point: operating point {sol.design_index + 1}, {sol.design['why']}.")
+    if sol.design is not None:  # why it is the design point: with the operating points in the results
+        out.append(f"Design point: operating point {sol.design_index + 1} (see the results).")
     return out
 
 

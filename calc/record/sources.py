@@ -48,9 +48,12 @@ class References:
         self._by_text: dict[str, Reference] = {}
 
     def cite(self, citation: str, used_for: str = "") -> str:
+        """'[n]' for a publication; a rule of the trade is no publication, and is said as such in place."""
         citation = citation.strip()
         if not citation:
             return ""
+        if citation.lower().startswith("common practice"):
+            return "(common practice)"
         ref = self._by_text.get(citation)
         if ref is None:
             ref = self._by_text[citation] = Reference(len(self._by_text) + 1, citation)

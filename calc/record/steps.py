@@ -31,7 +31,7 @@ def steps(c: Context) -> list[StepGroup]:
         Step("μ", "dynamic viscosity", "μ", "", num(lq.mu), "Pa·s", lq.mu, c.ref_liquid),
         Step("ν", "kinematic viscosity", "ν = μ/ρ", f"= {sub(lq.mu)} / {sub(lq.rho)}", num(nu), "m²/s", nu),
         Step("g", "gravity", "g", "", "9.80665", "m/s²", G, g_ref),
-    ])]
+    ], row={"inputs": True})]
     p = c.design
     if p is None:
         return groups
@@ -265,7 +265,9 @@ def working(c: Context, groups: list[StepGroup]) -> list:
     out: list = []
     runs = [g for g in groups if g.kind == "pipe" and g.row]
     for g in groups:
-        if g.kind == "surge" and g.row:
+        if g.kind == "liquid" and g.row:  # ρ, μ and g are printed with the inputs: only ν is worked here
+            out.append(StepGroup(g.title, g.kind, [s for s in g.steps if s.substituted], g.notes))
+        elif g.kind == "surge" and g.row:
             out.append(_surge_table(c, g))
         elif g.kind != "pipe" or not g.row:
             out.append(g)

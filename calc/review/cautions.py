@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from calc.model.elements import Line, Pump, Turbine
-from calc.model.settings import SRC_EN805, SRC_PRACTICE
+from calc.model.settings import SRC_PRACTICE
 from calc.review.findings import SRC_AIR, Finding, Shown
 from calc.transient.sources import MOC_REF
 
@@ -55,7 +55,7 @@ def general_cautions(line: Line) -> list[Finding]:
                 source=MOC_REF),
         Finding("caution", "general-ratings", "Pipe and joint ratings",
                 "Check the rating of every pipe, joint, fitting and valve against the highest pressure including "
-                "surge and test pressure, and its derating with temperature.", source=SRC_EN805),
+                "surge and test pressure, and its derating with temperature.", source=SRC_PRACTICE),
         Finding("caution", "general-anchorage", "Anchorage and thrust",
                 "Bends, tees, reducers, valves and dead ends need thrust blocks or restrained joints sized for "
                 "the test pressure; above-ground runs need anchors and supports.", source=SRC_PRACTICE),

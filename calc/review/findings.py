@@ -17,8 +17,9 @@ SRC_AIR = ("AWWA Manual M51, Air Valves: Air-Release, Air/Vacuum, and Combinatio
            "where air collects and which valve lets air out or in")
 SRC_VAPOUR = "vapour pressure of the liquid (water: IAPWS-IF97 saturation equation)"
 SRC_KORTEWEG = SRC_JOUKOWSKY = WAVE_REF  # Korteweg's wave speed, Joukowsky's rise: one textbook
-SRC_PENSTOCK = ("penstock losses commonly held to 5-10 % of gross head (common practice); Leon and Zhu "
-                "(2014, Renewable Energy 71:609) suggest at most about 15 %")
+SRC_PENSTOCK = ("Leon, A. S. and Zhu, L. (2014). A dimensional analysis for determining optimal discharge and "
+                "penstock diameter in impulse and reaction water turbines. Renewable Energy 71: 609-615: head loss "
+                "at most about 15 % of the gross head; 5-10 % is what designs commonly aim for (common practice)")
 SRC_MAX_POWER = ("largest power where line losses are about one third of gross head with a near-constant "
                  "friction factor (standard textbook result); found here by search on the solved line")
 SRC_LAMINAR = "Hagen-Poiseuille f = 64/Re; laminar K values: Rennels and Hudson, Pipe Flow (2012)"

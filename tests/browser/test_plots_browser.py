@@ -48,7 +48,7 @@ def test_the_sheet_page_shows_readable_plots_with_values_on_hover_and_a_download
     expect(figures).to_have_count(4)
     curves = page.locator("#plot-curves")
     expect(curves.locator("text.axis-title")).to_have_text(["Flow [L/s]", "Head [m]"])
-    expect(page.locator("#plot-profile text.legend", has_text="Energy grade line (EGL)")).to_have_count(1)
+    expect(page.locator("#plot-profile text.legend", has_text="EGL")).to_have_count(1)
     assert page.evaluate(OVERLAPS_JS) == []
 
     # Values on hover: a marker says its own value; elsewhere in the plot the readout follows the pointer.
@@ -124,7 +124,7 @@ def test_a_read_only_link_shows_the_same_plots_and_downloads(browser, live):
         assert envelope.get_attribute("href") == f"/view/{token}/sheets/{sid}/revisions/1/plots/envelope-1.svg"
         with page.expect_download() as info:
             envelope.click()
-        assert "Highest head in the run" in Path(info.value.path()).read_text(encoding="utf-8")
+        assert "Highest head" in Path(info.value.path()).read_text(encoding="utf-8")
         expect(page.locator("#plot-profile text.axis-title")).to_have_text(["Chainage along the line [m]",
                                                                             "Elevation and head [m]"])
         expect(page.locator("#plot-profile text.tag")).to_have_text(["V1", "T1"])

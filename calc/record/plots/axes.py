@@ -15,6 +15,8 @@ still in the marker's hover title).
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
 import math
 from dataclasses import dataclass, field
 
@@ -25,6 +27,19 @@ SIZE = 12  # text [px]
 TAG_SIZE = 11  # element tags [px]
 #: Width of the viewBox [px] and of the plot area's height; the chart grows downwards with its legend.
 WIDTH, PLOT_HEIGHT = 600, 190
+#: Width of the viewBox of the charts being drawn: WIDTH, or narrower where two charts share a printed row
+#: (the lettering keeps its size in px, so it prints larger). Set with `chart_width`.
+_WIDTH: contextvars.ContextVar[int] = contextvars.ContextVar("chart_width", default=WIDTH)
+
+
+@contextlib.contextmanager
+def chart_width(width: int):
+    """Charts made inside this block are ``width`` px wide (their plot area as high as ever)."""
+    token = _WIDTH.set(int(width))
+    try:
+        yield
+    finally:
+        _WIDTH.reset(token)
 #: How far the axis may run past the data to end on a round tick [-, of the data's span].
 OVERSHOOT = 0.10
 #: Rows of tags above the plot before a tag is left out.
@@ -356,7 +371,7 @@ class Chart:
     x: Axis
     y: Axis
     title: str
-    width: int = WIDTH
+    width: int = field(default_factory=_WIDTH.get)
     plot_height: int = PLOT_HEIGHT
     lines: list[_Line] = field(default_factory=list)
     markers: list[_Marker] = field(default_factory=list)

@@ -29,7 +29,9 @@ from calc.record.plots.axes import (
     MACHINE_COLOURS,
     SYSTEM_COLOURS,
     SYSTEM_DASHES,
+    WIDTH,
     Chart,
+    chart_width,
     esc,
     fit_axis,
     short,
@@ -156,7 +158,7 @@ def chainage_chart(analysis, u: _Units, ys: list, title: str, y_title: str) -> t
     chart = Chart(fit_axis(0.0, float(ch.max()) or 1.0, f"Chainage along the line [{u.l}]", most=10),
                   fit_axis(lo, hi, y_title, pad=0.04), title)
     chart.line(ch, z, COLOURS["pipe"], 3.0, title="Pipe centreline (profile as typed)", cls="series pipe")
-    chart.key("Pipe centreline (profile as typed)", COLOURS["pipe"])
+    chart.key("Pipe centreline", COLOURS["pipe"])
     counts: dict[str, int] = {}
     for i, el in enumerate(analysis.line.elements):
         if el.kind == "pipe":
@@ -197,18 +199,18 @@ def profile_plot(analysis, system: str = "SI") -> Plot | None:
     ch = np.array([s["chainage"] for s in st]) * u.kl
     chart.line(ch, vapour * u.kh, COLOURS["vapour"], 1.5, "2 3", title="Vapour-pressure line: the HGL at which the water boils",
                cls="series vapour")
-    chart.key("Vapour pressure (HGL where the water boils)", COLOURS["vapour"], "2 3")
+    chart.key("Vapour pressure line (water boils)", COLOURS["vapour"], "2 3")
     for n, (label, chs, heads) in enumerate(ratings):
         chart.line(np.array(chs) * u.kl, np.array(heads) * u.kh, COLOURS["rating"], 1.6, "12 4 3 4",
                    title=f"{label}: pressure rating as head (z + p/ρg)", cls="series rating")
     if ratings:
         above = ("" if len(shown_ratings) == len(ratings) else ": above the plot" if not shown_ratings
                  else " (higher ones above the plot)")
-        chart.key(f"Pipe rating as head, z + p/ρg{above}", COLOURS["rating"], "12 4 3 4")
+        chart.key(f"Pipe rating as head z + p/ρg{above}", COLOURS["rating"], "12 4 3 4")
     chart.line(ch, hgl * u.kh, COLOURS["hgl"], 2.4, title="Hydraulic grade line (HGL)", cls="series hgl")
     chart.line(ch, egl * u.kh, COLOURS["egl"], 1.8, "9 4", title="Energy grade line (EGL)", cls="series egl")
-    chart.key("Hydraulic grade line (HGL)", COLOURS["hgl"])
-    chart.key("Energy grade line (EGL)", COLOURS["egl"], "9 4")
+    chart.key("HGL", COLOURS["hgl"])
+    chart.key("EGL", COLOURS["egl"], "9 4")
     low = min(st, key=lambda s: s["pressure_head"])
     high = max(st, key=lambda s: s["pressure_head"])
     rg = line.liquid.rho * G
@@ -217,7 +219,7 @@ def profile_plot(analysis, system: str = "SI") -> Plot | None:
         chart.marker(at["chainage"] * u.kl, at["hgl"] * u.kh, COLOURS["hgl"], shape,
                      f"{words} at chainage {u.length(at['chainage'])}", cls=f"point {what.lower()}",
                      r=5.0 if shape == "ring" else 4.5)
-        chart.key(f"{what} pressure, {u.head(at['pressure_head'])} of water", COLOURS["hgl"], kind=shape)
+        chart.key(f"{what} pressure {u.head(at['pressure_head'])}", COLOURS["hgl"], kind=shape)
     title = "Grade lines along the chainage at the design point"
     caption = (f"Pipe centreline, hydraulic grade line (HGL) and energy grade line (EGL) at the design point, "
                f"Q = {u.flow(p['Q'])}. The vertical gap between the HGL and the pipe is the pressure head; where the "
@@ -486,17 +488,19 @@ FIGURES = (profile_plot, curves_plot, efficiency_plot, npsh_plot, power_plot)
 KEYS = ("profile", "curves", "efficiency", "npsh", "power")
 
 
-def all_plots(analysis, system: str = "SI") -> list[Plot]:
-    """Every plot that applies to this sheet, in the order the page and the record show them."""
+def all_plots(analysis, system: str = "SI", width: int | None = None) -> list[Plot]:
+    """Every plot that applies to this sheet, in the order the page and the record show them; ``width`` the
+    charts' viewBox width (the printed record draws them narrower, two to a row)."""
     if analysis is None or analysis.solution is None:
         return []
     from calc.record.plots.transient import transient_plots
 
     system = system if system in ("SI", "US") else "SI"
-    out = [p for p in (f(analysis, system) for f in FIGURES) if p is not None]
-    # the transient figures come right after the grade lines they extend
-    at = 1 if out and out[0].key == "profile" else 0
-    return out[:at] + transient_plots(analysis, system) + out[at:]
+    with chart_width(width or WIDTH):
+        out = [p for p in (f(analysis, system) for f in FIGURES) if p is not None]
+        # the transient figures come right after the grade lines they extend
+        at = 1 if out and out[0].key == "profile" else 0
+        return out[:at] + transient_plots(analysis, system) + out[at:]
 
 
 def plot_named(analysis, key: str, system: str = "SI") -> Plot | None:

@@ -47,7 +47,7 @@ def envelope_plot(analysis, summary: dict, key: str, system: str = "SI") -> Plot
     x, v = _joined(env, "vapour", u)
     chart.line(x, v, COLOURS["vapour"], 1.5, "2 3", title="Vapour-pressure line: the head at which the water boils",
                cls="series vapour")
-    chart.key("Vapour pressure (head where the water boils)", COLOURS["vapour"], "2 3")
+    chart.key("Vapour pressure line (water boils)", COLOURS["vapour"], "2 3")
     if shown:
         for r in env:
             if r["rating"] is not None and max(r["rating"]) <= room:
@@ -55,17 +55,17 @@ def envelope_plot(analysis, summary: dict, key: str, system: str = "SI") -> Plot
                            "12 4 3 4", title=f"{r['run']}: pressure rating as head (z + p/ρg)", cls="series rating")
     if ratings:
         above = "" if len(shown) == len(ratings) else (": above the plot" if not shown else " (higher ones above the plot)")
-        chart.key(f"Pipe rating as head, z + p/ρg{above}", COLOURS["rating"], "12 4 3 4")
+        chart.key(f"Pipe rating as head z + p/ρg{above}", COLOURS["rating"], "12 4 3 4")
     x, s = _joined(env, "steady", u)
     chart.line(x, s, ENVELOPE_COLOURS["steady"], 1.6, "6 3", title="Steady HGL (t = 0)", cls="series steady")
-    chart.key("Steady HGL at the start of the run", ENVELOPE_COLOURS["steady"], "6 3")
+    chart.key("Steady HGL (t = 0)", ENVELOPE_COLOURS["steady"], "6 3")
     x, hi = _joined(env, "max", u)
     chart.line(x, hi, ENVELOPE_COLOURS["max"], 2.4, title="Highest head in the run", cls="series envelope-max")
-    chart.key("Highest head in the run", ENVELOPE_COLOURS["max"])
+    chart.key("Highest head", ENVELOPE_COLOURS["max"])
     x, lo = _joined(env, "min", u)
     # a dash of its own as well as a colour: the record may be printed in grey
     chart.line(x, lo, ENVELOPE_COLOURS["min"], 2.4, "10 3 2 3", title="Lowest head in the run", cls="series envelope-min")
-    chart.key("Lowest head in the run", ENVELOPE_COLOURS["min"], "10 3 2 3")
+    chart.key("Lowest head", ENVELOPE_COLOURS["min"], "10 3 2 3")
     for d in summary["devices"]:
         chart.marker(d["chainage"] * u.kl, float(np.interp(d["chainage"], *_flat(env, "chainage", "steady"))) * u.kh,
                      "#000000", "square", f"{d['label']} at chainage {u.length(d['chainage'])}", cls="point device")
