@@ -17,6 +17,13 @@ def scope(c: Context) -> list[str]:
             counts.append(f"{n} {word}{'s' if n > 1 else ''}")
     length = sum(e.L for e in c.line.runs)
     liquid = c.liquid.name + (f" at {c.liquid.T - 273.15:.4g} °C" if c.liquid.T else "")
+    rest = ("structural design of pipes, anchors, thrust blocks and supports; machine selection and mechanical, "
+            "electrical and control design.")
+    if any(t.summary is not None for t in (getattr(c.a, "transients", None) or [])):
+        covered_not = ("Transient pressures are analysed by the method of characteristics for the events listed with "
+                       "the transient results, and for no others. Not covered: " + rest)
+    else:
+        covered_not = "Not covered: transient pressures (surge, water hammer) beyond any surge finding shown; " + rest
     out = [
         f"Steady flow of {liquid} in a series line of {', '.join(counts)} "
         f"({shown(length, 'length', c.system)} of pipe in all), from "
@@ -24,9 +31,7 @@ def scope(c: Context) -> list[str]:
         "The record finds every operating point of the line with its machines, works the design point "
         "step by step, traces the energy and hydraulic grade lines along the chainage, and reports "
         "the checks made on the result.",
-        "Not covered: transient pressures (surge, water hammer) beyond any surge finding shown; "
-        "structural design of pipes, anchors, thrust blocks and supports; machine selection and "
-        "mechanical, electrical and control design.",
+        covered_not,
     ]
     return out
 

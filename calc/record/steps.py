@@ -296,9 +296,9 @@ def _surge_table(c: Context, g: StepGroup) -> Table:
     note = (f"K = {num(lq.bulk_modulus)} Pa, ρ = {num(lq.rho)} kg/m³; restraint factor " + "; ".join(forms) +
             f"; a wall is thick below D/e = 25. Pipeline period T = 2 Σ L/a = 2 × {sub(g.row['travel'])} = "
             f"{num(g.row['T'])} s. " + " ".join(g.notes))
-    return Table(["Run", "Restraint, wall", "D [m]", "e [m]", "E [Pa]", "ν", "c₁",
-                  f"a = √(K/ρ) / √(1 + c₁ K D/(E e)) [m/s] {ref}", "V [m/s]", f"ΔH = a V/g [m] {ref}", "L/a [s]"],
-                 rows, "Wave speed and surge", ["l", "l"] + ["r"] * 9, note, css="surge-runs")
+    return Table(["Run", "Restraint, wall", "D [m]", "e [m]", "E [Pa]", "ν", "c₁", "a [m/s]", "V [m/s]", "ΔH [m]",
+                  "L/a [s]"], rows, f"Wave speed and surge: a = √(K/ρ) / √(1 + c₁ K D/(E e)), ΔH = a V/g {ref}",
+                 ["l", "l"] + ["r"] * 9, note, css="surge-runs")
 
 
 def _runs_tables(c: Context, runs: list[StepGroup]) -> list:

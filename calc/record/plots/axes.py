@@ -534,7 +534,10 @@ class Chart:
         parts: list[str] = []
         row, x = 0, px0
         for item in items:
-            text = short(item.label, 60)
+            text, n = short(item.label, 60), 60
+            while 34 + text_width(text) > px1 - px0 and n > 12:  # never wider than the plot: cut, with an ellipsis
+                n -= 2
+                text = short(item.label, n)
             w = 34 + text_width(text)
             if x > px0 and x + w > px1:
                 row, x = row + 1, px0

@@ -404,3 +404,18 @@ def test_every_kind_of_machine_plots_with_no_text_colliding(name):
         assert len([el for el in curves.iter() if "typed" in (el.get("class") or "")]) == 3
     if name == "US pump":
         assert "Flow [gpm]" in [el.text for el in texts(curves, "axis-title")]
+
+
+@pytest.mark.parametrize("name", ["hydro-penstock", "pumped-main", "cooling-water", "siphon-check"])
+def test_the_records_narrow_charts_keep_every_legend_entry_inside_the_drawing(name):
+    # The record draws its charts 400 px wide, two to a row: a legend entry too long for that width is cut
+    # with an ellipsis, never left running past the edge of the picture (SVG text does not wrap).
+    from calc.record.plots.axes import text_width
+
+    for plot in plots.all_plots(analyse(demo(name)), "SI", width=400):
+        root = ET.fromstring(plot.svg)
+        assert root.get("viewBox").split()[2] == "400"
+        legend = [t for t in root.iter("{http://www.w3.org/2000/svg}text") if t.get("class") == "legend"]
+        assert legend, plot.key
+        for t in legend:
+            assert float(t.get("x")) + text_width(t.text or "") <= 400 + 1e-9, (plot.key, t.text)
