@@ -1,12 +1,17 @@
-"""Benchmark: median time to render the largest demo sheet's calculation record as HTML and as PDF.
+"""Benchmark: time to render each demo sheet's calculation record as HTML and as PDF, cold.
 
 Run by hand: python benchmarks/record.py [repeats]
-Goes through the app in-process (a real store in a temporary folder), as a browser would: the record
-page, then the PDF. Each timing starts with the analysis cache and the recent-PDF cache cleared, so
-it includes parsing, solving, the checks and the uncertainty band, not just the drawing. Prints
-wall-clock and CPU medians; the CPU time counts this process and the PDF worker processes that
-ended during the timing (each PDF is laid out in a worker of its own, see server/pdf.py). On a
-shared machine the CPU time is the steadier figure. Target: PDF under 1.5 s.
+Goes through the app in-process (a real store in a temporary folder), as a browser would. A cold render
+starts with the analysis cache and the recent-PDF cache cleared, so it includes parsing, solving, the
+checks, the uncertainty band, the transient run of a sheet with events and the layout of every page,
+not just a lookup. Before each cold PDF the benchmark waits for the spare PDF worker to be ready (an
+idle server keeps one started, WeasyPrint loaded: see server/pdf.py), which is what a checker asking
+for a PDF meets; it then also prints PDFs asked for back to back, where each waits for the worker the
+last one left starting, and a repeat of the same PDF, which the recent-PDF cache answers.
+
+Prints wall-clock and CPU medians; the CPU time counts this process and the PDF worker processes that
+ended during the timing. On a shared machine the CPU time is the steadier figure. Target (issue 15):
+a cold PDF of each demo in at most 1.0 s.
 """
 
 from __future__ import annotations
@@ -35,7 +40,7 @@ from server import pdf as server_pdf  # noqa: E402
 from server import record as server_record  # noqa: E402
 from server.app import create_app  # noqa: E402
 
-TARGET_PDF = 1.5  # [s]
+TARGET_PDF = 1.0  # [s], a cold PDF of a demo sheet
 
 
 def _cpu() -> float:
@@ -44,11 +49,14 @@ def _cpu() -> float:
     return time.process_time() + children.ru_utime + children.ru_stime
 
 
-def timed(fn, repeats: int) -> tuple[float, float, object]:
+def timed(fn, repeats: int, cold: bool = True, wait_spare: bool = True) -> tuple[float, float, object]:
     walls, cpus, out = [], [], None
     for _ in range(repeats):
-        server_record._analysis.cache_clear()
-        server_pdf._render_cached.cache_clear()
+        if cold:
+            server_record._analysis.cache_clear()
+            server_pdf._render_cached.cache_clear()
+        if wait_spare:
+            server_pdf.spare_ready(30.0)
         w, c = time.perf_counter(), _cpu()
         out = fn()
         walls.append(time.perf_counter() - w)
@@ -56,37 +64,38 @@ def timed(fn, repeats: int) -> tuple[float, float, object]:
     return statistics.median(walls), statistics.median(cpus), out
 
 
-def main(repeats: int = 7) -> None:
+def main(repeats: int = 5) -> None:
     logging.getLogger("weasyprint").setLevel(logging.ERROR)
     with tempfile.TemporaryDirectory() as tmp, TestClient(create_app(Path(tmp))) as client:
         sheets = client.get("/api/sheets").json()["sheets"]
-        sizes = {}
-        for s in sheets:  # the largest sheet is the one whose record runs to the most pages
-            body = client.get(f"/sheets/{s['id']}/revisions/{s['revision']}/record.pdf").content
-            sizes[s["id"]] = (len(PdfReader(io.BytesIO(body)).pages), len(body))
-        largest = max(sheets, key=lambda s: sizes[s["id"]])
-        base = f"/sheets/{largest['id']}/revisions/{largest['revision']}/record"
-        pages, _ = sizes[largest["id"]]
-        print(f"largest demo sheet: {largest['title']!r} ({pages} pages)")
-        html_wall, html_cpu, response = timed(lambda: client.get(base), repeats)
-        assert response.status_code == 200
-        print(f"record as HTML: median {html_wall * 1e3:7.1f} ms wall, {html_cpu * 1e3:7.1f} ms CPU "
-              f"({len(response.content) / 1e3:.0f} kB, {repeats} runs)")
-        for paper in ("a4", "letter"):
-            pdf_wall, pdf_cpu, response = timed(lambda: client.get(base + ".pdf", params={"paper": paper}), repeats)
-            assert response.status_code == 200
-            verdict = "within" if pdf_wall < TARGET_PDF else "OVER"
-            print(f"record as PDF ({paper:6s}): median {pdf_wall * 1e3:7.1f} ms wall, {pdf_cpu * 1e3:7.1f} ms CPU "
-                  f"({len(response.content) / 1e3:.0f} kB) -- {verdict} the {TARGET_PDF:g} s target")
+        print(f"cold renders (analysis and PDF caches cleared, the spare worker ready), median of {repeats}:")
+        over = 0
         for s in sheets:
-            if s["id"] != largest["id"]:
-                url = f"/sheets/{s['id']}/revisions/{s['revision']}/record.pdf"
-                wall, cpu, _ = timed(lambda: client.get(url), max(3, repeats // 2))
-                print(f"  other demo {s['title'][:40]!r:44s} PDF median {wall * 1e3:7.1f} ms wall, "
-                      f"{cpu * 1e3:7.1f} ms CPU ({sizes[s['id']][0]} pages)")
-        app_state = client.app.state
-        app_state.store.close()
+            base = f"/sheets/{s['id']}/revisions/{s['revision']}/record"
+            html_wall, html_cpu, page = timed(lambda: client.get(base), repeats, wait_spare=False)
+            assert page.status_code == 200
+            pdf_wall, pdf_cpu, pdf = timed(lambda: client.get(base + ".pdf"), repeats)
+            assert pdf.status_code == 200
+            pages = len(PdfReader(io.BytesIO(pdf.content)).pages)
+            verdict = "within" if pdf_wall <= TARGET_PDF else "OVER"
+            over += pdf_wall > TARGET_PDF
+            print(f"  {s['title'][:40]!r:44s} HTML {html_wall * 1e3:6.0f} ms; PDF {pdf_wall * 1e3:6.0f} ms wall, "
+                  f"{pdf_cpu * 1e3:6.0f} ms CPU, {pages} pages, {len(pdf.content) / 1e3:.0f} kB -- {verdict} "
+                  f"the {TARGET_PDF:g} s target")
+        largest = max(sheets, key=lambda s: s["title"].startswith("Penstock"))
+        url = f"/sheets/{largest['id']}/revisions/{largest['revision']}/record.pdf"
+        for paper in ("letter",):
+            wall, cpu, _ = timed(lambda: client.get(url, params={"paper": paper}), repeats)
+            print(f"  the penstock's record on US Letter: PDF {wall * 1e3:6.0f} ms wall, {cpu * 1e3:6.0f} ms CPU")
+        wall, cpu, _ = timed(lambda: client.get(url), repeats, wait_spare=False)
+        print(f"back to back (cold, each PDF waiting for the worker the last one left starting): "
+              f"{wall * 1e3:.0f} ms wall, {cpu * 1e3:.0f} ms CPU")
+        client.get(url)
+        wall, _, _ = timed(lambda: client.get(url), repeats, cold=False, wait_spare=False)
+        print(f"cache hit (the same PDF again, from the recent-PDF cache): {wall * 1e3:.1f} ms")
+        print(f"{len(sheets) - over} of {len(sheets)} demo records within the {TARGET_PDF:g} s target")
+        client.app.state.store.close()
 
 
 if __name__ == "__main__":
-    main(int(sys.argv[1]) if len(sys.argv) > 1 else 7)
+    main(int(sys.argv[1]) if len(sys.argv) > 1 else 5)

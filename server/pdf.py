@@ -356,6 +356,19 @@ def _keep_spare() -> None:
                 _end(old[0])
 
 
+def spare_ready(timeout: float = 10.0) -> bool:
+    """Wait until the spare worker has WeasyPrint loaded and waits for a page (its 'ready' is in the pipe,
+    not yet read); False if there is no spare or it is not ready within ``timeout`` seconds. For the
+    benchmark, which times a PDF as an idle server makes it."""
+    spare = _spare
+    if spare is None:
+        return False
+    try:
+        return bool(spare[1].poll(timeout))
+    except (OSError, EOFError):
+        return False
+
+
 def spare_pid() -> int | None:
     """The process id of the idle spare worker, if one is kept."""
     spare = _spare

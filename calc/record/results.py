@@ -154,7 +154,9 @@ def findings(c: Context) -> dict[str, list[dict]]:
         where = ""
         if d.get("element") is not None and 0 <= d["element"] < len(c.line.elements):
             el = c.line.elements[d["element"]]
-            where = f"element {d['element'] + 1}" + (f" «{el.label}»" if el.label else "")
+            # the element by its number; by its label too unless the title already names it
+            named = bool(el.label) and as_text(d.get("title")).startswith(el.label)
+            where = f"element {d['element'] + 1}" + (f" «{el.label}»" if el.label and not named else "")
         if d.get("chainage") is not None:
             where += (", " if where else "") + f"chainage {shown(d['chainage'], 'length', c.system)}"
         sev = d.get("severity") if d.get("severity") in SEVERITIES else "info"
@@ -178,9 +180,9 @@ def uncertainty(c: Context) -> list[Table]:
             rows.append([str(name).replace("_", " ").capitalize(), shown(f.get("Q_low"), "flow", s),
                          shown(band.get("Q_nominal"), "flow", s), shown(f.get("Q_high"), "flow", s)])
     out = [Table(["Factor", "Lowest flow", "Nominal flow", "Highest flow"], rows,
-                 "Design flow over the range of the uncertain inputs", ["l", "r", "r", "r"], css="band-factors",
-                 note=as_text(band.get("describe")))]
+                 "Design flow over the range of the uncertain inputs (the range of the answer, above)",
+                 ["l", "r", "r", "r"], css="band-factors")]
     notes = [n for n in band.get("notes") or [] if isinstance(n, str)]
     if notes:
-        out[0].note = (out[0].note + ". " if out[0].note else "") + "; ".join(notes)
+        out[0].note = "; ".join(notes)
     return out
