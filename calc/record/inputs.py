@@ -136,7 +136,7 @@ def _runs_inputs(c: Context, runs: list) -> list[Table]:
     """The pipe runs' inputs: a run a row (as typed, its SI value where that reads differently, references),
     where each value came from in the note below; their fittings in a table of their own, and the surveyed
     profile points."""
-    rows, notes, frows, prows = [], [], [], []
+    rows, notes, prows = [], [], []
     for i, e, el in runs:
         where = f"run {i + 1}"
         said = []
@@ -167,19 +167,6 @@ def _runs_inputs(c: Context, runs: list) -> list[Table]:
                      as_text(e.get("restraint")).replace("_", " ")])
         if said:
             notes.append(f"Run {i + 1}: " + "; ".join(said) + ".")
-        for ft in el.fittings:
-            refs, detail = c.fitting_ref(ft)
-            consts = ", ".join(f"{k} = {sub(v)}" for k, v in ft.params.items())
-            if ft.model == "cone":
-                consts = f"cone {sub(ft.params['angle_deg'])}°, K = {sub(ft.derived_K or 0.0)}"
-            how = ("counted by default" if ft.implied else "typed" if ft.source.startswith("typed")
-                   else "fitting table")
-            if ft.why:
-                detail = ft.why + (f"; {detail}" if detail else "")
-            detail = c.once(detail, where)
-            model = {"k": "K", "2k": "2-K", "3k": "3-K", "cone": "change of bore"}[ft.model]
-            frows.append([str(i + 1), ft.name, "(not typed)" if ft.implied else f"{ft.key} × {ft.count}",
-                          f"{model}: {consts}", how + (f" ({detail})" if detail else "") + (f" {refs}" if refs else "")])
         points = [p for p in (e.get("profile") or []) if isinstance(p, dict)]
         if points:
             prows.append([str(i + 1), "; ".join(f"{_cell(p, 'chainage', LENGTH)} / {_cell(p, 'elevation', LENGTH)}"
@@ -192,10 +179,25 @@ def _runs_inputs(c: Context, runs: list) -> list[Table]:
     if prows:
         out.append(Table(["Run", "Surveyed points: chainage in the run / elevation, as typed"], prows,
                          "Profile points", ["l", "l"], css="profile-inputs"))
-    if frows:
-        out.append(Table(["Run", "Fitting", "As typed", "Constants", "Source"], frows, "Fittings on the runs",
-                         ["l"] * 5, css="fitting-inputs"))
+    if any(el.fittings for _, _, el in runs):
+        out[0].note = (out[0].note + " " if out[0].note else "") + ("The runs' fittings, as typed, with their "
+                                                                    "constants, sources and losses: section 5.")
     return out
+
+
+def fitting_cells(c: Context, ft, where: str) -> tuple[str, str, str]:
+    """A fitting's inputs for the record: as typed, its constants, and where they come from."""
+    refs, detail = c.fitting_ref(ft)
+    consts = ", ".join(f"{k} = {sub(v)}" for k, v in ft.params.items())
+    if ft.model == "cone":
+        consts = f"cone {sub(ft.params['angle_deg'])}°, K = {sub(ft.derived_K or 0.0)}"
+    how = "counted by default" if ft.implied else "typed" if ft.source.startswith("typed") else "fitting table"
+    if ft.why:
+        detail = ft.why + (f"; {detail}" if detail else "")
+    detail = c.once(detail, where)
+    model = {"k": "K", "2k": "2-K", "3k": "3-K", "cone": "change of bore"}[ft.model]
+    return ("(not typed)" if ft.implied else f"{ft.key} × {ft.count}", f"{model}: {consts}",
+            how + (f" ({detail})" if detail else "") + (f" {refs}" if refs else ""))
 
 
 #: The SI unit each check limit is held in ("" a plain number); its name is CheckSettings.LABELS'.

@@ -18,8 +18,7 @@ def equations(c: Context) -> list[Equation]:
                  "Every root is found: E is scanned on a logarithmic grid of flows for sign changes, and each "
                  "bracket is closed with Brent's method."),
         Equation("Total head at an end", "H = z + p/(ρ g) + V²/(2 g)",
-                 "z elevation [m]; p gauge pressure [Pa]; the velocity head counts at a pressure point or jet, "
-                 "not at a reservoir surface."),
+                 "the velocity head counts at a pressure point or jet, not at a reservoir surface"),
         Equation("Friction factor, laminar flow and the transition",
                  "f = 64/Re (Re < 2000);  f = (1 - w) 64/Re + w f_t, w = (Re - 2000)/2000 (2000 ≤ Re < 4000)",
                  f"f_t the turbulent factor by {c.method.name} at the same Re and ε/D; the transition band has no "

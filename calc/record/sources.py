@@ -42,10 +42,26 @@ JOUKOWSKY_REF = KORTEWEG_REF = WAVE_REF
 
 
 class References:
-    """Numbered references in order of first use; a citation cited twice keeps its number."""
+    """Numbered references in order of first use; a citation cited twice keeps its number, and two parts
+    of one publication (author and year, then ': ' and what was taken from it) share one number, the
+    parts listed after the publication."""
 
     def __init__(self):
         self._by_text: dict[str, Reference] = {}
+        self._parts: dict[str, list[str]] = {}
+
+    @staticmethod
+    def _publication(citation: str) -> tuple[str, str]:
+        """(the publication, the part of it used) for an author-year citation 'Author (1993). Title: part';
+        (the citation, '') for any other.
+
+        >>> References._publication("Wylie, E. B. (1993). Fluid Transients. Prentice Hall: the wave speed.")
+        ('Wylie, E. B. (1993). Fluid Transients. Prentice Hall', 'the wave speed.')
+        """
+        head, sep, part = citation.partition(": ")
+        if sep and re.match(r"[^(]{2,80}\((1[89]|20)\d\d\)\.", head) and part:
+            return head, part
+        return citation, ""
 
     def cite(self, citation: str, used_for: str = "") -> str:
         """'[n]' for a publication; a rule of the trade is no publication, and is said as such in place."""
@@ -54,9 +70,14 @@ class References:
             return ""
         if citation.lower().startswith("common practice"):
             return "(common practice)"
-        ref = self._by_text.get(citation)
+        key, part = self._publication(citation)
+        ref = self._by_text.get(key)
         if ref is None:
-            ref = self._by_text[citation] = Reference(len(self._by_text) + 1, citation)
+            ref = self._by_text[key] = Reference(len(self._by_text) + 1, citation)
+            self._parts[key] = [part]
+        elif part and part not in self._parts[key]:
+            self._parts[key].append(part)
+            ref.citation = key + ": " + "; ".join(p.rstrip(".") for p in self._parts[key]) + "."
         if used_for and used_for not in ref.used_for:
             ref.used_for.append(used_for)
         return f"[{ref.number}]"

@@ -9,6 +9,7 @@ from calc.model import valve_law
 from calc.model.elements import PipeRun, Pump, Turbine, Valve
 from calc.model.settings import SRC_NPSH
 from calc.record.context import Context
+from calc.record.inputs import fitting_cells
 from calc.record.parts import Step, StepGroup, Table
 from calc.record.sources import JOUKOWSKY_REF, KORTEWEG_REF
 from calc.record.text import num, paren, shown, si, sub
@@ -225,8 +226,10 @@ def _pipe_steps(c: Context, title: str, el: PipeRun, d: dict, Q: float, nu: floa
     fittings = []
     for ft, x in zip(el.fittings, d["fittings"]):
         name = ft.name
+        typed, consts, source = fitting_cells(c, ft, f"run {d['index'] + 1}")
         fittings.append({"name": name, "n": ft.count, "K": x["K"], "h": x["h"], "model": ft.model,
-                         "ref": c.fitting_ref(ft)[0], "working": ""})
+                         "ref": c.fitting_ref(ft)[0], "working": "", "typed": typed, "consts": consts,
+                         "source": source})
         if ft.model == "2k":
             K1, Kinf = ft.params["K1"], ft.params["Kinf"]
             D_in = D / tables.INCH
@@ -339,15 +342,16 @@ def _runs_tables(c: Context, runs: list[StepGroup]) -> list:
             s = r["Dn"]
             dn_notes.append(f"run {r['number']}: D_n {s.substituted} = {s.result} in ({s.also})")
         for ft in r["fittings"]:
-            k = f"{ft['working'].removeprefix('= ')} = {num(ft['K'])}" if ft["working"] else num(ft["K"])
-            frows.append([str(r["number"]), ft["name"], str(ft["n"]), k, num(ft["h"]), ft["ref"]])
+            k = (f"{ft['working'].removeprefix('= ')} = {num(ft['K'])}" if ft["working"] else
+                 ft["consts"].split(": ", 1)[-1])
+            frows.append([str(r["number"]), ft["name"], ft["typed"], k, num(ft["h"]), ft["source"]])
     if frows:
         note = ""
         if dn_notes:
             s = next(g.row["Dn"] for g in runs if g.row["Dn"] is not None)
             note = (f"3-K: K = K₁/Re + K_i (1 + K_d/D_n^0.3), D_n {s.name.removeprefix('nominal size for the 3-K constants: ')}"
                     f" {s.ref}, D_n = N₀ + (N₁ − N₀)(D − D₀)/(D₁ − D₀): " + "; ".join(dn_notes) + ".")
-        out.append(Table(["Run", "Fitting", "n", "K", "h_m = n K h_v [m]", "Source"], frows, "Fittings and losses "
+        out.append(Table(["Run", "Fitting", "As typed", "K", "h_m = n K h_v [m]", "Source"], frows, "Fittings and losses "
                          "on each run's velocity head", ["l", "l", "r", "l", "r", "l"], note, css="run-fittings"))
     return out
 

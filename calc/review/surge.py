@@ -35,10 +35,14 @@ def pipeline_period(lengths_and_speeds) -> float:
     return 2.0 * sum(L / a for L, a in lengths_and_speeds)
 
 
-def describe_wave_speed(w: dict, u: Shown) -> str:
-    """The wave speed with the inputs a checker needs to repeat it."""
+def describe_wave_speed(w: dict, u: Shown, brief: bool = False) -> str:
+    """The wave speed with the inputs a checker needs to repeat it; ``brief``, with its restraint factor
+    only (for a finding: the record works it in full)."""
     if w["form"] == "typed":
         return f"wave speed {u(w['a'], 'velocity', '.0f')} (typed for the run)"
+    if brief:
+        return (f"wave speed {u(w['a'], 'velocity', '.0f')} (Korteweg, {w['form']}, c1 = {w['c1']:.4f} for "
+                f"{w['restraint'].replace('_', ' ')})")
     return (f"wave speed {u(w['a'], 'velocity', '.0f')} (Korteweg, {w['form']} restraint factor c1 = {w['c1']:.4f} for "
             f"{w['restraint'].replace('_', ' ')}, D/e = {w['D_over_e']:.1f}; E = {w['E'] / 1e9:.4g} GPa, "
             f"nu = {w['nu']:.3g}, e = {u(w['e'], 'diameter', '.4g')}, D = {u(w['D'], 'diameter', '.4g')}, K = {w['K'] / 1e9:.4g} GPa, "
@@ -150,12 +154,12 @@ def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
             surge, src = rg * dH, SRC_JOUKOWSKY
             if dH > 0.0:
                 how = f"a rise of {u(dH, 'head', '.1f')} ({u(rg * dH, 'pressure', '.0f')}) from {wave['up_from']}"
-                text = (f"{_first_up(describe_wave_speed(w, u))}. The surge reaching this run is a rise of {u(dH, 'head', '.1f')} "
+                text = (f"{_first_up(describe_wave_speed(w, u, brief=True))}. The surge reaching this run is a rise of {u(dH, 'head', '.1f')} "
                         f"({u(rg * dH, 'pressure', '.0f')}) from {wave['up_from']}; its own velocity {u(d['V'], 'velocity', '.2f')} "
                         f"stopped at once would give a V / g = {u(own, 'head', '.1f')}.")
             else:
                 how = "no rise (it lies downstream of where the flow stops)"
-                text = (f"{_first_up(describe_wave_speed(w, u))}. No rise reaches this run: it lies downstream of "
+                text = (f"{_first_up(describe_wave_speed(w, u, brief=True))}. No rise reaches this run: it lies downstream of "
                         "every place where the flow can stop, so it sees the drop instead.")
             out.append(Finding("info", "surge-screen", f"{name}: surge screening",
                                text + " Screening estimate, not a transient analysis.",

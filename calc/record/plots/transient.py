@@ -71,7 +71,7 @@ def envelope_plot(analysis, summary: dict, key: str, system: str = "SI") -> Plot
                      "#000000", "square", f"{d['label']} at chainage {u.length(d['chainage'])}", cls="point device")
     if summary["devices"]:
         chart.key("Protection device", "#000000", kind="square")
-    events = "; ".join(summary["events"])
+    events = ", ".join(summary.get("events_named") or summary["events"])
     caption = (f"Highest and lowest head reached anywhere along the line in case {summary['case']} ({events}), "
                f"by the method of characteristics over {summary['duration']:.4g} s, with the steady grade line it "
                "started from. Where the lowest head meets the vapour line the column parts; where the highest "
@@ -100,7 +100,7 @@ def history_plot(summary: dict, key: str, system: str = "SI") -> Plot | None:
         chart.line(np.asarray(h["t"]), np.asarray(h["H"]) * u.kh, colour, 1.8, dash, title=f"Head {name}")
         chart.key(f"Head {name}", colour, dash)
     caption = (f"Head in time at the machines and valves (either side), the devices and the points picked, case "
-               f"{summary['case']} ({'; '.join(summary['events'])}).")
+               f"{summary['case']} ({', '.join(summary.get('events_named') or summary['events'])}).")
     return _plot(key, f"Head in time, case {summary['case']}", caption, chart)
 
 
@@ -130,7 +130,7 @@ def state_plot(summary: dict, key: str, system: str = "SI") -> Plot | None:
         colour = MACHINE_COLOURS[k % len(MACHINE_COLOURS)]
         chart.line(np.asarray(t), y, colour, 1.8, title=name)
         chart.key(name, colour)
-    caption = f"Pump speed and device states in time, case {summary['case']} ({'; '.join(summary['events'])})."
+    caption = f"Pump speed and device states in time, case {summary['case']} ({', '.join(summary.get('events_named') or summary['events'])})."
     return _plot(key, f"Machines and devices in time, case {summary['case']}", caption, chart)
 
 
