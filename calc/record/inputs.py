@@ -42,8 +42,7 @@ def inputs(c: Context) -> list[Table]:
             if r:
                 rows.append(r)
     else:
-        rows.append(["Liquid", "water", "", "typed"])
-        r = _typed(c, liq, "temperature", TEMPERATURE, "Temperature T")
+        r = _typed(c, liq, "temperature", TEMPERATURE, "Water temperature T")
         if r:
             rows.append(r)
         src = c.ref_liquid

@@ -140,6 +140,8 @@ def findings(c: Context) -> dict[str, list[dict]]:
                          if looks_published(str(getattr(f, "source", "")))).lower()
     for f in c.a.findings:
         d = f.to_dict() if hasattr(f, "to_dict") else dict(f)
+        if d.get("code") == "general-codes":  # the record's disclaimer says it, once
+            continue
         q = d.get("quantity")
         value = limit = ""
         if d.get("value") is not None:
