@@ -12,6 +12,8 @@ from calc.record.text import as_text
 #: The record's charts are drawn this many px wide, two to a row of the page: their 12 px lettering prints at
 #: about 7.5 pt on A4 or Letter (the sheet page draws them 600 px wide, one to a row).
 RECORD_CHART_WIDTH = 400
+#: ... and their plot areas this high [px]: a row of two figures takes about a third of a page.
+RECORD_PLOT_HEIGHT = 150
 
 
 def build(analysis, meta: Meta | None = None, version: str | None = None) -> Record:
@@ -75,7 +77,7 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
         results=shown_results,
         points_table=results.points_table(b, shown_results),
         no_point=results.no_point(b),
-        plots=plots.all_plots(analysis, system, width=RECORD_CHART_WIDTH),
+        plots=plots.all_plots(analysis, system, width=RECORD_CHART_WIDTH, plot_height=RECORD_PLOT_HEIGHT),
         findings=results.findings(b),
         solver_notes=list(analysis.solution.warnings),
         uncertainty=results.uncertainty(b),

@@ -30,16 +30,19 @@ WIDTH, PLOT_HEIGHT = 600, 190
 #: Width of the viewBox of the charts being drawn: WIDTH, or narrower where two charts share a printed row
 #: (the lettering keeps its size in px, so it prints larger). Set with `chart_width`.
 _WIDTH: contextvars.ContextVar[int] = contextvars.ContextVar("chart_width", default=WIDTH)
+_PLOT_HEIGHT: contextvars.ContextVar[int] = contextvars.ContextVar("plot_height", default=PLOT_HEIGHT)
 
 
 @contextlib.contextmanager
-def chart_width(width: int):
-    """Charts made inside this block are ``width`` px wide (their plot area as high as ever)."""
-    token = _WIDTH.set(int(width))
+def chart_width(width: int, plot_height: int | None = None):
+    """Charts made inside this block are ``width`` px wide, their plot area ``plot_height`` px high (as on
+    the page if not given)."""
+    tokens = (_WIDTH.set(int(width)), _PLOT_HEIGHT.set(int(plot_height or PLOT_HEIGHT)))
     try:
         yield
     finally:
-        _WIDTH.reset(token)
+        _WIDTH.reset(tokens[0])
+        _PLOT_HEIGHT.reset(tokens[1])
 #: How far the axis may run past the data to end on a round tick [-, of the data's span].
 OVERSHOOT = 0.10
 #: Rows of tags above the plot before a tag is left out.
@@ -372,7 +375,7 @@ class Chart:
     y: Axis
     title: str
     width: int = field(default_factory=_WIDTH.get)
-    plot_height: int = PLOT_HEIGHT
+    plot_height: int = field(default_factory=_PLOT_HEIGHT.get)
     lines: list[_Line] = field(default_factory=list)
     markers: list[_Marker] = field(default_factory=list)
     tags: list[_Tag] = field(default_factory=list)

@@ -488,15 +488,16 @@ FIGURES = (profile_plot, curves_plot, efficiency_plot, npsh_plot, power_plot)
 KEYS = ("profile", "curves", "efficiency", "npsh", "power")
 
 
-def all_plots(analysis, system: str = "SI", width: int | None = None) -> list[Plot]:
-    """Every plot that applies to this sheet, in the order the page and the record show them; ``width`` the
-    charts' viewBox width (the printed record draws them narrower, two to a row)."""
+def all_plots(analysis, system: str = "SI", width: int | None = None, plot_height: int | None = None) -> list[Plot]:
+    """Every plot that applies to this sheet, in the order the page and the record show them; ``width`` and
+    ``plot_height`` the charts' viewBox width and plot-area height (the printed record draws them smaller,
+    two to a row)."""
     if analysis is None or analysis.solution is None:
         return []
     from calc.record.plots.transient import transient_plots
 
     system = system if system in ("SI", "US") else "SI"
-    with chart_width(width or WIDTH):
+    with chart_width(width or WIDTH, plot_height):
         out = [p for p in (f(analysis, system) for f in FIGURES) if p is not None]
         # the transient figures come right after the grade lines they extend
         at = 1 if out and out[0].key == "profile" else 0
