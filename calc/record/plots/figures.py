@@ -206,7 +206,7 @@ def profile_plot(analysis, system: str = "SI") -> Plot | None:
     if ratings:
         above = ("" if len(shown_ratings) == len(ratings) else ": above the plot" if not shown_ratings
                  else " (higher ones above the plot)")
-        chart.key(f"Pipe rating as head z + p/ρg{above}", COLOURS["rating"], "12 4 3 4")
+        chart.key(f"Rating as head z + p/ρg{above}", COLOURS["rating"], "12 4 3 4")
     chart.line(ch, hgl * u.kh, COLOURS["hgl"], 2.4, title="Hydraulic grade line (HGL)", cls="series hgl")
     chart.line(ch, egl * u.kh, COLOURS["egl"], 1.8, "9 4", title="Energy grade line (EGL)", cls="series egl")
     chart.key("HGL", COLOURS["hgl"])
@@ -462,7 +462,7 @@ def power_plot(analysis, system: str = "SI") -> Plot | None:
         colour = MACHINE_COLOURS[n % len(MACHINE_COLOURS)]
         name = _name(el.label, "turbine")
         chart.line(Q * u.kq, P * u.kp, colour, 2.4, title=f"{name}: power the line can give")
-        chart.key(f"{name}: power the line can give", colour)
+        chart.key(f"{name}: power available", colour)
         if el.mode == "power":
             chart.line(Q * u.kq, np.full_like(Q, el.power) * u.kp, COLOURS["set"], 1.6, "6 4", title=f"{name}: set power")
             chart.key(f"{name}: set power", COLOURS["set"], "6 4")

@@ -55,7 +55,7 @@ def envelope_plot(analysis, summary: dict, key: str, system: str = "SI") -> Plot
                            "12 4 3 4", title=f"{r['run']}: pressure rating as head (z + p/ρg)", cls="series rating")
     if ratings:
         above = "" if len(shown) == len(ratings) else (": above the plot" if not shown else " (higher ones above the plot)")
-        chart.key(f"Pipe rating as head z + p/ρg{above}", COLOURS["rating"], "12 4 3 4")
+        chart.key(f"Rating as head z + p/ρg{above}", COLOURS["rating"], "12 4 3 4")
     x, s = _joined(env, "steady", u)
     chart.line(x, s, ENVELOPE_COLOURS["steady"], 1.6, "6 3", title="Steady HGL (t = 0)", cls="series steady")
     chart.key("Steady HGL (t = 0)", ENVELOPE_COLOURS["steady"], "6 3")

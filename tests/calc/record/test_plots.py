@@ -320,7 +320,7 @@ def test_vapour_line_and_ratings_near_the_grade_line_are_drawn():
     ratings = _polylines(root, "rating")
     assert ratings and all(el.get("stroke-dasharray") for el in ratings)
     legend = " ".join(el.text for el in texts(root, "legend"))
-    assert "Pipe rating as head" in legend and "Vapour pressure" in legend
+    assert "Rating as head" in legend and "Vapour pressure" in legend
     # The rating is z + p/(rho g) along each run: 9 bar over the pipe at its first station.
     run = next(i for i, e in enumerate(a.line.elements) if e.kind == "pipe")
     _, _, heads = S.rating_lines(a.line, a.solution.design["profile"])[0]
