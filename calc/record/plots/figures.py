@@ -245,7 +245,8 @@ def head_flow_plot(systems: list[S.SystemCurve], machines: list[S.CurveSeries], 
                     + [np.array([m.y for s in systems for m in s.points]) * ky],
                     cap, -cap if cap else None)
     chart = Chart(axis, fit_axis(lo, hi, f"Head [{u.h}]", zero=True, pad=0.04), title)
-    what = "head the line needs" if sign < 0 else "head left for the turbine" if sign > 0 else "line losses"
+    what = ("head the line needs" if sign < 0 else "head left for the turbine" if sign > 0
+            else "losses + change in velocity head")  # Σ h + V²/2g out − V²/2g in, against the static head
     for n, s in enumerate(systems):
         colour, dash = SYSTEM_COLOURS[n % len(SYSTEM_COLOURS)], SYSTEM_DASHES[n % len(SYSTEM_DASHES)]
         label = f"{s.name}: {what}"

@@ -419,3 +419,19 @@ def test_the_records_narrow_charts_keep_every_legend_entry_inside_the_drawing(na
         assert legend, plot.key
         for t in legend:
             assert float(t.get("x")) + text_width(t.text or "") <= 400 + 1e-9, (plot.key, t.text)
+
+
+def test_a_line_without_machines_plots_its_losses_and_the_change_in_velocity_head():
+    # The cooling-water demo runs between two points of known pressure: its curve is what the flow takes from
+    # the static head, the losses of every element plus the velocity head it leaves with less the one it
+    # came in with (V = Q / (pi D^2 / 4) at each end; Bernoulli between the two points).
+    a = analyse(demo("cooling-water"))
+    p = a.solution.design
+    start, end = a.line.start, a.line.end
+    def hv(node):
+        return (p["Q"] / (math.pi * node.D_adjacent ** 2 / 4)) ** 2 / (2 * 9.80665)
+    expected = sum(d["head_change"] for d in p["elements"]) + hv(end) - hv(start)
+    curve = next(s for s in S.system_curves(a, np.array([p["Q"]])))
+    assert curve.H[0] == pytest.approx(expected, rel=1e-9)
+    legend = plots.all_plots(a, "SI")[[pl.key for pl in plots.all_plots(a, "SI")].index("curves")].svg
+    assert "losses + change in velocity head" in legend
