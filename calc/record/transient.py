@@ -28,18 +28,16 @@ def transients(c: Context) -> list[dict]:
     s = c.system
     r_moc = c.refs.cite(MOC_REF, "transient analysis")
     r_dvcm = c.refs.cite(DVCM_REF, "vapour cavities")
-    method = (f"Method of characteristics {r_moc}: along C+ and C-, H_P = C_P - B Q_P and H_P = C_M + B Q_P with "
-              "B = a/(gA) and C_P = H_A + B Q_A - R Q_A|Q_A|, R = f dx/(2 g D A²) (quasi-steady friction: each run's "
-              "losses, fittings included, lumped into f at its steady flow, so that t = 0 is the steady answer, and "
-              "worked out again at its mean flow as that moves); one time step for the line, "
-              "each run's reaches dx = a dt (Courant number 1) with its wave speed adjusted to fit, as listed. "
-              "Joints in total head: reservoirs, junctions, valves (relative flow coefficient by the law in time), "
-              "turbines (the steady head as an orifice scaled by the gate), pumps (running on their curves; after "
-              "a trip by the homologous laws and the run-down I ω dα/dt = -T, trapezoidal in time; an ideal check "
-              "valve shutting on reverse flow). Where the head falls to the vapour head a vapour cavity is held "
-              f"there (discrete vapour cavity model {r_dvcm}) until it collapses. Devices: an open surge tank "
-              "(level integrated from its flow, a throat loss), an air vessel (p V^n constant, losses in and out), "
-              "an air valve (isentropic orifice flow of air in and out, the pocket isothermal).")
+    method = (f"Method of characteristics {r_moc}: H_P = C_P - B Q_P along C+ and H_P = C_M + B Q_P along C-, "
+              "B = a/(gA), C_P = H_A + B Q_A - R Q_A|Q_A|, R = f dx/(2 g D A²), with quasi-steady friction (each "
+              "run's losses, fittings included, lumped into f at its steady flow, so that t = 0 is the steady "
+              "answer, and worked again at its mean flow as that moves); one time step, each run's reaches "
+              "dx = a dt (Courant number 1), its wave speed adjusted to fit as listed. Joints in total head: "
+              "valves by their relative flow coefficient in time, turbines as the steady orifice scaled by the "
+              "gate, pumps on their curves (after a trip by the homologous laws and I ω dα/dt = -T, an ideal check "
+              "valve shutting on reverse flow). Vapour cavities where the head falls to the vapour head (discrete "
+              f"vapour cavity model {r_dvcm}); surge tanks by their level, air vessels by p V^n = constant, air "
+              "valves by isentropic orifice flow of air.")
     out = []
     names = {t.name.casefold() for t in runs}
     screening = [cr.name for cr in c.a.cases if cr.name.casefold() not in names]

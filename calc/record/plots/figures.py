@@ -221,9 +221,9 @@ def profile_plot(analysis, system: str = "SI") -> Plot | None:
                      r=5.0 if shape == "ring" else 4.5)
         chart.key(f"{what} pressure {u.head(at['pressure_head'])}", COLOURS["hgl"], kind=shape)
     title = "Grade lines along the chainage at the design point"
-    caption = (f"Pipe centreline, hydraulic grade line (HGL) and energy grade line (EGL) at the design point, "
-               f"Q = {u.flow(p['Q'])}. The vertical gap between the HGL and the pipe is the pressure head; where the "
-               "HGL meets the vapour-pressure line the water boils. Machines and valves are tagged where they sit.")
+    caption = (f"Pipe centreline, hydraulic and energy grade lines (HGL, EGL) at Q = {u.flow(p['Q'])}. The gap "
+               "from the pipe up to the HGL is the pressure head; where the HGL meets the vapour line the water "
+               "boils. Machines and valves are tagged where they sit.")
     plot = _plot("profile", title, caption, chart)
     if chart.dropped_tags:
         plot.caption += f" Tags left out for want of room: {', '.join(chart.dropped_tags)} (named in the legend)."

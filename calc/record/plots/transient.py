@@ -72,10 +72,9 @@ def envelope_plot(analysis, summary: dict, key: str, system: str = "SI") -> Plot
     if summary["devices"]:
         chart.key("Protection device", "#000000", kind="square")
     events = ", ".join(summary.get("events_named") or summary["events"])
-    caption = (f"Highest and lowest head reached anywhere along the line in case {summary['case']} ({events}), "
-               f"by the method of characteristics over {summary['duration']:.4g} s, with the steady grade line it "
-               "started from. Where the lowest head meets the vapour line the column parts; where the highest "
-               "passes a rating line the pipe is over its rating.")
+    caption = (f"Highest and lowest head along the line in case {summary['case']} ({events}) over "
+               f"{summary['duration']:.4g} s, with the steady HGL it started from. Where the lowest head meets the "
+               "vapour line the column parts; above a rating line the pipe is over its rating.")
     return _plot(key, title, caption, chart)
 
 
