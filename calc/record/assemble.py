@@ -79,6 +79,7 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
         no_point=results.no_point(b),
         plots=plots.all_plots(analysis, system, width=RECORD_CHART_WIDTH, plot_height=RECORD_PLOT_HEIGHT),
         findings=results.findings(b),
+        findings_elsewhere=results.findings_elsewhere(b),
         solver_notes=list(analysis.solution.warnings),
         uncertainty=results.uncertainty(b),
         references=b.refs.items,

@@ -160,6 +160,8 @@ class Record:
     #: The working as printed: the step groups, with the pipe runs' groups gathered into tables
     #: (calc.record.steps.working); the same numbers as ``steps``.
     working: list = field(default_factory=list)
+    #: Information printed in the working or results, so not listed again among the findings.
+    findings_elsewhere: list[str] = field(default_factory=list)
 
     @property
     def signed(self) -> bool:

@@ -132,6 +132,20 @@ def no_point(c: Context) -> str:
     return c.sol.no_point["reason"] if c.sol.no_point else ""
 
 
+#: Information the record prints in its working or results, so not again among the findings: a machine's
+#: duty point (section 5), the pipeline period (the wave-speed table), a transient peak within its rating
+#: (the transient table). A finding of these codes that is a caution, warning or error is always listed.
+WORKED_ELSEWHERE = {"turbine-duty": "each machine's duty point (section 5)", "pump-duty": "each machine's duty point (section 5)",
+                    "surge-period": "the pipeline period 2L/a (section 5)",
+                    "transient-rating": "transient peaks within rating (the transient tables, section 7)"}
+
+
+def findings_elsewhere(c: Context) -> list[str]:
+    """What information the findings do not repeat, because the working or results print it."""
+    codes = {f.code for f in c.a.findings if f.severity == "info"}
+    return list(dict.fromkeys(text for code, text in WORKED_ELSEWHERE.items() if code in codes))
+
+
 def findings(c: Context) -> dict[str, list[dict]]:
     from calc.review.findings import SEVERITIES
 
@@ -141,6 +155,8 @@ def findings(c: Context) -> dict[str, list[dict]]:
     for f in c.a.findings:
         d = f.to_dict() if hasattr(f, "to_dict") else dict(f)
         if d.get("code") == "general-codes":  # the record's disclaimer says it, once
+            continue
+        if d.get("severity") == "info" and d.get("code") in WORKED_ELSEWHERE:  # its figures are printed already
             continue
         q = d.get("quantity")
         value = limit = ""

@@ -483,9 +483,16 @@ def test_findings_are_grouped_worst_first(hydro):
 
     rec = record.build(hydro)
     order = [SEVERITIES.index(s) for s in rec.findings]
-    # every finding of the checks, but the general caution that local codes govern: the disclaimer says it
-    shown = [f for f in hydro.findings if f.code != "general-codes"]
+    # every finding of the checks, but the general caution that local codes govern (the disclaimer says it)
+    # and information the working or results print already (a duty point, the pipeline period, a transient
+    # peak within rating), which the record names instead
+    from calc.record.results import WORKED_ELSEWHERE
+    shown = [f for f in hydro.findings if f.code != "general-codes"
+             and not (f.severity == "info" and f.code in WORKED_ELSEWHERE)]
     assert order == sorted(order) and sum(len(v) for v in rec.findings.values()) == len(shown) < len(hydro.findings)
+    assert any("duty point" in t for t in rec.findings_elsewhere)
+    printed = {x["title"] for xs in rec.findings.values() for x in xs}
+    assert not any(f.severity == "info" and f.code in WORKED_ELSEWHERE and f.title in printed for f in hydro.findings)
     assert DISCLAIMER_WORDS <= set(rec.disclaimer.lower().split())
     assert {"codes", "standards"} <= set(rec.disclaimer.lower().replace(",", "").split())
 
