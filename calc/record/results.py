@@ -22,6 +22,13 @@ def solve_log(c: Context) -> list[Table]:
                   "Roots closed with Brent's method", ["r", "l", "r", "r", "r", "r"], css="roots")]
 
 
+def _count(n, one: str, many: str = "") -> str:
+    """'1 bracket', '2 brackets'; a dash for an unknown count."""
+    if not isinstance(n, int):
+        return f"– {many or one + 's'}"
+    return f"{n} {one if n == 1 else many or one + 's'}"
+
+
 def solve_notes(c: Context) -> list[str]:
     sol = c.sol
     out = [f"Status: {sol.status.replace('_', ' ')}; {sol.message}."]
@@ -29,8 +36,9 @@ def solve_notes(c: Context) -> list[str]:
     if scan:
         s = c.system
         out.append(f"E(Q) scanned from {shown(scan.get('Q_min'), 'flow', s)} to {shown(scan.get('Q_max'), 'flow', s)} "
-                   f"on {scan.get('grid_points', '–')} logarithmic grid points: {scan.get('brackets', '–')} brackets with "
-                   f"a sign change, {scan.get('extrema_refined', '–')} extrema refined (close pairs of roots).")
+                   f"on {scan.get('grid_points', '–')} logarithmic grid points: {_count(scan.get('brackets'), 'bracket')} "
+                   f"with a sign change, {_count(scan.get('extrema_refined'), 'extremum', 'extrema')} refined "
+                   "(close pairs of roots).")
     if sol.design is not None:  # why it is the design point: with the operating points in the results
         out.append(f"Design point: operating point {sol.design_index + 1} (see the results).")
     return out
