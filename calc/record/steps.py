@@ -335,12 +335,12 @@ def _runs_tables(c: Context, runs: list[StepGroup]) -> list:
         notes.insert(0, "* outside fully turbulent flow:")
     out = [Table(head, rows, "Pipe runs", ["l"] + ["r"] * 11,
                  " ".join([head_note] + notes), css="runs")]
-    frows, dn_notes = [], []
+    frows, dn_notes = [], {}  # one D_n working for the runs of one bore
     for g in runs:
         r = g.row
         if r["Dn"] is not None:
             s = r["Dn"]
-            dn_notes.append(f"run {r['number']}: D_n {s.substituted} = {s.result} in ({s.also})")
+            dn_notes.setdefault(f"D_n {s.substituted} = {s.result} in ({s.also})", []).append(str(r["number"]))
         for ft in r["fittings"]:
             k = (f"{ft['working'].removeprefix('= ')} = {num(ft['K'])}" if ft["working"] else
                  ft["consts"].split(": ", 1)[-1])
@@ -350,9 +350,11 @@ def _runs_tables(c: Context, runs: list[StepGroup]) -> list:
         if dn_notes:
             s = next(g.row["Dn"] for g in runs if g.row["Dn"] is not None)
             note = (f"3-K: K = K₁/Re + K_i (1 + K_d/D_n^0.3), D_n {s.name.removeprefix('nominal size for the 3-K constants: ')}"
-                    f" {s.ref}, D_n = N₀ + (N₁ − N₀)(D − D₀)/(D₁ − D₀): " + "; ".join(dn_notes) + ".")
+                    f" {s.ref}, D_n = N₀ + (N₁ − N₀)(D − D₀)/(D₁ − D₀): " +
+                    "; ".join(f"run{'s' if len(ns) > 1 else ''} {', '.join(ns)}: {text}" for text, ns in dn_notes.items())
+                    + ".")
         out.append(Table(["Run", "Fitting", "As typed", "K", "h_m = n K h_v [m]", "Source"], frows, "Fittings and losses "
-                         "on each run's velocity head", ["l", "l", "r", "l", "r", "l"], note, css="run-fittings"))
+                         "on each run's velocity head", ["l", "l", "l", "l", "r", "l"], note, css="run-fittings"))
     return out
 
 
