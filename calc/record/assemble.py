@@ -80,6 +80,7 @@ def build(analysis, meta: Meta | None = None, version: str | None = None) -> Rec
         plots=plots.all_plots(analysis, system, width=RECORD_CHART_WIDTH, plot_height=RECORD_PLOT_HEIGHT),
         findings=results.findings(b),
         findings_elsewhere=results.findings_elsewhere(b),
+        surge_screen=results.surge_screening(b),
         solver_notes=list(analysis.solution.warnings),
         uncertainty=results.uncertainty(b),
         references=b.refs.items,

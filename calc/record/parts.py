@@ -162,6 +162,8 @@ class Record:
     working: list = field(default_factory=list)
     #: Information printed in the working or results, so not listed again among the findings.
     findings_elsewhere: list[str] = field(default_factory=list)
+    #: Each run's surge screening at the design point (calc.record.results.surge_screening), or None.
+    surge_screen: Table | None = None
 
     @property
     def signed(self) -> bool:

@@ -145,12 +145,48 @@ def no_point(c: Context) -> str:
 #: (the transient table). A finding of these codes that is a caution, warning or error is always listed.
 WORKED_ELSEWHERE = {"turbine-duty": "each machine's duty point (section 5)", "pump-duty": "each machine's duty point (section 5)",
                     "surge-period": "the pipeline period 2L/a (section 5)",
+                    "surge-screen": "each run's surge screening (the screening table, section 7)",
+                    "surge-rating": "each run's surge screening (the screening table, section 7)",
                     "transient-rating": "transient peaks within rating (the transient tables, section 7)"}
+#: Of those, the ones the record prints for the base case only: a case's own screening is listed.
+WORKED_ELSEWHERE_CASE_FREE = {"surge-screen", "surge-rating"}
+
+
+def surge_screening(c: Context) -> Table | None:
+    """Each run's surge screening at the design point as one table (Joukowsky's rise reaching it and where
+    from, its highest steady pressure, the two together against its rating), for a sheet whose base case is
+    screened rather than run in time."""
+    from calc.model.settings import CheckSettings
+    from calc.review.findings import RATING_NEAR
+    from calc.review.surge import run_screening
+
+    if c.design is None or not any(f.code == "surge-screen" and not f.case for f in c.a.findings):
+        return None
+    s = c.system
+    rows = []
+    for r in run_screening(c.line, c.design, c.a.check_settings or CheckSettings()):
+        if r["w"]["a"] is None:
+            rise, frm = f"allowance {shown(r['surge'], 'pressure', s)}", "wave speed unknown"
+        else:
+            rise = (f"{shown(r['up'], 'head', s)} = {shown(r['surge'], 'pressure', s)}" if r["up"] > 0 else "none")
+            frm = r["up_from"] or "downstream of every stop"
+        rating = r["rating"]
+        verdict = ("no rating given" if not rating else "steady pressure over rating" if r["p_steady"] > rating else
+                   "over rating" if r["peak"] > rating else "within 10 % of rating" if r["peak"] > RATING_NEAR * rating
+                   else "within rating")
+        rows.append([r["name"], rise, frm, shown(r["p_steady"], "pressure", s), shown(r["peak"], "pressure", s),
+                     shown(rating, "pressure", s) if rating else "–", verdict])
+    return Table(["Run", "Rise reaching it", "From", "Highest steady pressure", "Steady + rise", "Rating",
+                  "Against it"], rows, "Surge screening at the design point (Joukowsky; not a transient analysis)",
+                 ["l", "r", "l", "r", "r", "r", "l"], css="surge-screen",
+                 note="A run's own velocity stopped at once would give a V/g, in the wave-speed table of section 5; "
+                      "the findings list any run over or near its rating, or whose column may part.")
+
 
 
 def findings_elsewhere(c: Context) -> list[str]:
     """What information the findings do not repeat, because the working or results print it."""
-    codes = {f.code for f in c.a.findings if f.severity == "info"}
+    codes = {f.code for f in c.a.findings if f.severity == "info" and not (f.code in WORKED_ELSEWHERE_CASE_FREE and f.case)}
     return list(dict.fromkeys(text for code, text in WORKED_ELSEWHERE.items() if code in codes))
 
 
@@ -164,7 +200,8 @@ def findings(c: Context) -> dict[str, list[dict]]:
         d = f.to_dict() if hasattr(f, "to_dict") else dict(f)
         if d.get("code") == "general-codes":  # the record's disclaimer says it, once
             continue
-        if d.get("severity") == "info" and d.get("code") in WORKED_ELSEWHERE:  # its figures are printed already
+        if d.get("severity") == "info" and d.get("code") in WORKED_ELSEWHERE and not (
+                d.get("code") in WORKED_ELSEWHERE_CASE_FREE and d.get("case")):  # its figures are printed already
             continue
         q = d.get("quantity")
         value = limit = ""
@@ -189,8 +226,26 @@ def findings(c: Context) -> dict[str, list[dict]]:
         groups.setdefault(sev, []).append({
             "title": as_text(d.get("title")), "message": as_text(d.get("message")), "value": value,
             "limit": limit, "source": source, "ref": ref, "where": where, "code": as_text(d.get("code")),
+            "case": as_text(d.get("case")),
         })
+    _merge_unrated(c, groups)
     return {sev: groups[sev] for sev in SEVERITIES if sev in groups}
+
+
+def _merge_unrated(c: Context, groups: dict[str, list[dict]]) -> None:
+    """The base case's runs with no pressure rating, as one caution naming them: their pressures, steady and
+    with the surge, are in the screening table."""
+    cautions = groups.get("caution", [])
+    unrated = [f for f in cautions if f["code"] == "surge-no-rating" and not f.get("case")]
+    if len(unrated) < 2 or surge_screening(c) is None:
+        return
+    first = cautions.index(unrated[0])
+    names = [f["title"].removesuffix(": no pressure rating given") for f in unrated]
+    merged = {**unrated[0], "title": "No pressure rating given", "where": "", "value": "",
+              "message": f"{', '.join(names)}: give the rating of each run's pipe and joints to check it against its "
+                         "highest pressure, steady and with the surge (the surge screening table, section 7)."}
+    groups["caution"] = [f for f in cautions if f not in unrated]
+    groups["caution"].insert(first, merged)
 
 
 def uncertainty(c: Context) -> list[Table]:

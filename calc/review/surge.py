@@ -117,6 +117,43 @@ def surge_waves(line: Line, point: dict, speeds: dict[int, dict], s: CheckSettin
     return out
 
 
+def run_screening(line: Line, point: dict, s: CheckSettings) -> list[dict]:
+    """Each pipe run's surge screening at an operating point, as numbers: its wave speed (``w``), the rise
+    ``up`` [m] reaching it and where from (``up_from``), the drop ``down`` [m] and where from, the rise its
+    own velocity would give stopped at once (``own``, a V / g) [m], its highest steady pressure ``p_steady``
+    and the surge added to it ``surge`` [Pa] (the surge allowance where the wave speed is unknown), their
+    sum ``peak`` [Pa], its ``rating`` [Pa or None] and ``how`` the surge was had, in words. The surge
+    findings and the record's screening table are both made from these."""
+    u = shown_in(line)
+    rg = line.liquid.rho * G
+    by_index = {d["index"]: d for d in point["elements"]}
+    speeds = {i: wave_speed_detail(line, el) for i, el in enumerate(line.elements) if isinstance(el, PipeRun)}
+    waves = surge_waves(line, point, speeds, s)
+    rows = []
+    for i, el in enumerate(line.elements):
+        if not isinstance(el, PipeRun):
+            continue
+        d = by_index[i]
+        stations = [st for st in point["profile"] if st["element"] == i]
+        h_max = max((st["pressure_head"] for st in stations), default=0.0)
+        w, wave = speeds[i], waves[i]
+        row = {"index": i, "name": label(line, i), "w": w, "V": d["V"], "stations": stations,
+               "p_steady": rg * h_max, "rating": el.rating, "up": 0.0, "up_from": "", "down": wave["down"],
+               "down_from": wave.get("down_from", ""), "own": None}
+        if w["a"] is None:
+            row.update(surge=s.surge_allowance, how="the surge allowance", source=s.source("surge_allowance"))
+        else:
+            dH = wave["up"]
+            row.update(up=dH, up_from=wave.get("up_from", ""), own=joukowsky_head(w["a"], d["V"]), surge=rg * dH,
+                       source=SRC_JOUKOWSKY,
+                       how=(f"a rise of {u(dH, 'head', '.1f')} ({u(rg * dH, 'pressure', '.0f')}) from "
+                            f"{wave['up_from']}" if dH > 0.0 else
+                            "no rise (it lies downstream of where the flow stops)"))
+        row["peak"] = row["p_steady"] + row["surge"]
+        rows.append(row)
+    return rows
+
+
 def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
     """Screening only: each run's wave speed, the surge reaching it from where the flow can stop, and its rating."""
     u = shown_in(line)
@@ -125,40 +162,25 @@ def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
     rg = rho * G
     period_parts = []
     complete = True
-    by_index = {d["index"]: d for d in point["elements"]}
-    speeds = {i: wave_speed_detail(line, el) for i, el in enumerate(line.elements) if isinstance(el, PipeRun)}
-    waves = surge_waves(line, point, speeds, s)
     h_vap = (line.liquid.p_vap - line.p_atm) / rg
-    for i, el in enumerate(line.elements):
-        if not isinstance(el, PipeRun):
-            continue
-        d = by_index[i]
-        name = label(line, i)
-        stations = [st for st in point["profile"] if st["element"] == i]
-        heads = [st["pressure_head"] for st in stations]
-        h_max = max(heads) if heads else 0.0
-        p_steady = rg * h_max
-        w = speeds[i]
-        wave = waves[i]
+    for row in run_screening(line, point, s):
+        i, name, w, stations = row["index"], row["name"], row["w"], row["stations"]
+        el = line.elements[i]
+        p_steady, how, src = row["p_steady"], row["how"], row["source"]
         if w["a"] is None:
             complete = False
             out.append(Finding("info", "surge-wave-speed-missing", f"{name}: wave speed not computed",
                                f"Give {w['missing']} to screen this run for surge; meanwhile an allowance of "
                                f"{u(s.surge_allowance, 'pressure', '.0f')} is used against its rating.",
                                None, None, None, s.source("surge_allowance"), i))
-            surge, how, src = s.surge_allowance, "the surge allowance", s.source("surge_allowance")
         else:
             period_parts.append((el.L, w["a"]))
-            dH = wave["up"]
-            own = joukowsky_head(w["a"], d["V"])
-            surge, src = rg * dH, SRC_JOUKOWSKY
+            dH, own = row["up"], row["own"]
             if dH > 0.0:
-                how = f"a rise of {u(dH, 'head', '.1f')} ({u(rg * dH, 'pressure', '.0f')}) from {wave['up_from']}"
                 text = (f"{_first_up(describe_wave_speed(w, u, brief=True))}. The surge reaching this run is a rise of {u(dH, 'head', '.1f')} "
-                        f"({u(rg * dH, 'pressure', '.0f')}) from {wave['up_from']}; its own velocity {u(d['V'], 'velocity', '.2f')} "
+                        f"({u(rg * dH, 'pressure', '.0f')}) from {row['up_from']}; its own velocity {u(row['V'], 'velocity', '.2f')} "
                         f"stopped at once would give a V / g = {u(own, 'head', '.1f')}.")
             else:
-                how = "no rise (it lies downstream of where the flow stops)"
                 text = (f"{_first_up(describe_wave_speed(w, u, brief=True))}. No rise reaches this run: it lies downstream of "
                         "every place where the flow can stop, so it sees the drop instead.")
             out.append(Finding("info", "surge-screen", f"{name}: surge screening",
@@ -167,18 +189,18 @@ def surge_findings(line: Line, point: dict, s: CheckSettings) -> list[Finding]:
             # The end of a run on a fixed-head boundary (a tank, a point of known pressure) keeps its head.
             fixed_end = i == len(line.elements) - 1 and line.end.kind != "jet"
             candidates = stations[:-1] if fixed_end else stations
-            if wave["down"] > 0.0 and candidates:
+            if row["down"] > 0.0 and candidates:
                 low = min(candidates, key=lambda st: st["pressure_head"])
-                if low["pressure_head"] - wave["down"] <= h_vap:
+                if low["pressure_head"] - row["down"] <= h_vap:
                     out.append(Finding(
                         "warning", "surge-column-separation", f"{name}: column separation likely on the down-surge",
-                        f"The drop of {u(wave['down'], 'head', '.1f')} from {wave['down_from']} takes the head at chainage "
+                        f"The drop of {u(row['down'], 'head', '.1f')} from {row['down_from']} takes the head at chainage "
                         f"{u(low['chainage'], 'head', '.1f')} (steady pressure head {u(low['pressure_head'], 'head', '.2f')}) down to vapour "
                         "pressure: the column is likely to part there, and its rejoining gives the worst surge. "
                         "Slow the stop, add protection (an air vessel, a surge tank, air admission), or confirm "
-                        "with a transient analysis.", rg * (low["pressure_head"] - wave["down"]), rg * h_vap,
+                        "with a transient analysis.", rg * (low["pressure_head"] - row["down"]), rg * h_vap,
                         "pressure", SRC_JOUKOWSKY, i, low["chainage"]))
-        peak = p_steady + surge
+        peak = row["peak"]
         if el.rating:
             text = (f"Highest steady pressure {u(p_steady, 'pressure', '.0f')} plus {how} gives {u(peak, 'pressure', '.0f')} "
                     f"against the rating {u(el.rating, 'pressure', '.0f')}")
