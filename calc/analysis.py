@@ -191,8 +191,10 @@ def analyse_parsed(parsed: Parsed, doc: dict | None = None, transients: str = "a
                 tc = run_transient(r, spec, transients)
                 runs.append(tc)
                 if tc.summary is not None:
+                    # the run replaces the screening, and a load rejection run replaces the general runaway caution
+                    gone = SCREENING_CODES + (("turbine-runaway",) if "turbine" in tc.summary["event_kinds"] else ())
                     kept = [transient_review.analysed_caution(f, tc.summary) if f.code == "general-surge" else f
-                            for f in r.findings if f.code not in SCREENING_CODES]
+                            for f in r.findings if f.code not in gone]
                     r.findings = sorted(kept + tc.findings, key=lambda f: SEVERITIES.index(f.severity))
     base = results[0]
     findings = governing.merge([governing.CaseFindings(r.name, r.findings) for r in results])

@@ -13,7 +13,7 @@ from calc.record.text import as_text
 #: about 7.5 pt on A4 or Letter (the sheet page draws them 600 px wide, one to a row).
 RECORD_CHART_WIDTH = 400
 #: ... and their plot areas this high [px]: a row of two figures takes about a third of a page.
-RECORD_PLOT_HEIGHT = 150
+RECORD_PLOT_HEIGHT = 135
 
 
 def build(analysis, meta: Meta | None = None, version: str | None = None) -> Record:

@@ -39,26 +39,24 @@ def scope(c: Context) -> list[str]:
 def assumptions(c: Context) -> list[Assumption]:
     m = c.method
     if c.line.method == "colebrook":
-        why = ("Colebrook's equation is the basis of the Moody chart and holds for turbulent flow in "
-               "commercial pipe; it is solved here to machine precision rather than approximated.")
+        why = ("the basis of the Moody chart, for turbulent flow in commercial pipe, solved to machine precision "
+               "rather than approximated")
     else:
-        why = (f"{m.name}'s explicit form was chosen on the sheet (for comparison); it departs slightly "
-               "from Colebrook's equation, which is the usual reference.")
+        why = (f"its explicit form chosen on the sheet (for comparison), departing slightly from Colebrook's "
+               "equation, the usual reference")
     liquid = c.liquid
     if liquid.source == "given by the user":
         props = (f"Liquid properties ({liquid.name}) as given on the sheet, constant along the line.")
     else:
         props = (f"Water properties at {liquid.T - 273.15:.4g} °C from the IAPWS formulations {c.ref_liquid}, "
-                 "taken at atmospheric pressure and constant along the line (the effect of pressure on "
-                 "density and viscosity is far below the uncertainty of the roughness).")
+                 "at atmospheric pressure and constant along the line (the effect of pressure on density and "
+                 "viscosity is far below the uncertainty of the roughness).")
     out = [
         Assumption("Steady, incompressible, isothermal flow; every pipe runs full (no free surface, "
                    "no trapped air) and the water levels and pressures at the ends stay as given."),
-        Assumption(f"Friction loss by the Darcy-Weisbach equation {c.ref_darcy}, the friction "
-                   f"factor by {m.name} {c.ref_method}: {why} Laminar flow (Re below 2000) uses "
-                   "64/Re; between Re 2000 and 4000 the factor is blended and flagged as uncertain."),
-        Assumption(props),
-        Assumption(f"Standard gravity g = 9.80665 m/s² {c.ref_g}."),
+        Assumption(f"Friction loss by the Darcy-Weisbach equation {c.ref_darcy}, the friction factor by {m.name} "
+                   f"{c.ref_method} ({why}); laminar flow and the transition as in section 3."),
+        Assumption(f"{props} Standard gravity g = 9.80665 m/s² {c.ref_g}."),
         Assumption("Roughness from the material table (new pipe, or aged where a run says so) unless typed; "
                    "pipe roughens with age and deposits, which raises the losses.", verify=True),
         Assumption("Fitting losses as loss coefficients K on the velocity head of the run they sit on. "

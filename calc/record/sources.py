@@ -21,7 +21,8 @@ CAUTIONS = (
      "this calculation beyond the surge findings shown, and a final design needs a transient analysis."),
     (("general-ratings", "general-anchorage"), "Pipe, joint and fitting pressure ratings, thrust restraint and "
      "anchorage, supports, air valves and drains, and the structural design of the line need their own checks."),
-    ((), "Where the hydraulic grade line comes near or below the pipe, the line runs under vacuum: air is drawn "
+    (("pressure-subatmospheric", "pressure-suction-vacuum", "transient-subatmospheric"),
+     "Where the hydraulic grade line comes near or below the pipe, the line runs under vacuum: air is drawn "
      "in at joints and air valves, the water column can separate, and plastic pipe can collapse."),
     (("general-confined-space",), "Water under pressure is dangerous: fill, flush and test lines slowly, keep "
      "people clear of pressure tests, and isolate and drain before work on a line or a machine."),
@@ -29,14 +30,14 @@ CAUTIONS = (
      "fouls, and machines wear. Check the margins against the supplier's data."),
 )
 
-GRAVITY_REF = ("Standard acceleration of gravity g = 9.80665 m/s², conventional value adopted by the "
-               "3rd General Conference on Weights and Measures (CGPM, 1901); ISO 80000-3:2019.")
+GRAVITY_REF = ("Standard acceleration of gravity g = 9.80665 m/s², adopted by the 3rd CGPM (1901); "
+               "ISO 80000-3:2019.")
 HOOPER_REF = ("Hooper, W. B. (1981). The two-K method predicts head losses in pipe fittings. "
               "Chemical Engineering 88(17): 96-100.")
 DARBY_REF = ("Darby, R. (2001). Chemical Engineering Fluid Mechanics, 2nd edition. Marcel Dekker, "
              "New York: 3-K method for valves and fittings.")
-DARCY_REF = ("Darcy-Weisbach equation for friction loss in full pipe flow, h_f = f (L/D) V²/2g, as in "
-             "Moody, L. F. (1944). Friction factors for pipe flow. Transactions of the ASME 66(8): 671-684.")
+DARCY_REF = ("Moody, L. F. (1944). Friction factors for pipe flow. Transactions of the ASME 66(8), 671-684: the "
+             "Darcy-Weisbach equation for friction loss in full pipe flow, h_f = f (L/D) V²/2g.")
 # Korteweg's wave speed and Joukowsky's rise as the transient textbook gives them (one reference for both).
 JOUKOWSKY_REF = KORTEWEG_REF = WAVE_REF
 

@@ -19,7 +19,7 @@ SRC_VAPOUR = "vapour pressure of the liquid (water: IAPWS-IF97 saturation equati
 SRC_KORTEWEG = SRC_JOUKOWSKY = WAVE_REF  # Korteweg's wave speed, Joukowsky's rise: one textbook
 SRC_PENSTOCK = ("Leon, A. S. and Zhu, L. (2014). A dimensional analysis for determining optimal discharge and "
                 "penstock diameter in impulse and reaction water turbines. Renewable Energy 71: 609-615: head loss "
-                "at most about 15 % of the gross head; 5-10 % is what designs commonly aim for (common practice)")
+                "at most about 15 % of the gross head")
 SRC_MAX_POWER = ("largest power where line losses are about one third of gross head with a near-constant "
                  "friction factor (standard textbook result); found here by search on the solved line")
 SRC_LAMINAR = "Hagen-Poiseuille f = 64/Re; laminar K values: Rennels and Hudson, Pipe Flow (2012)"

@@ -160,12 +160,12 @@ def impulse_duty(line, gross: float, point: dict) -> dict | None:
     return duty
 
 
-def penstock_loss_words(loss: float, within: str = ", within the 5-10 % commonly aimed for.") -> tuple[str, str]:
+def penstock_loss_words(loss: float, within: str = ", within the 5-10 % commonly aimed for (common practice).") -> tuple[str, str]:
     """The severity of a share ``loss`` of the gross head lost in the line, and the words that end its finding."""
     if loss > PENSTOCK_LOSS_WARNING:
-        return "warning", ": more than about 15 %, which wastes water; a larger bore pays back."
+        return "warning", ": more than about 15 % (the most the source holds worth losing), which wastes water; a larger bore pays back."
     if loss > PENSTOCK_LOSS_CAUTION:
-        return "caution", ": above the 5-10 % commonly aimed for."
+        return "caution", ": above the 5-10 % commonly aimed for (common practice)."
     return "info", within if within and loss >= 0.05 else "."
 
 

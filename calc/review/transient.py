@@ -217,7 +217,8 @@ def findings(line: Line, s: dict) -> list[Finding]:
                                f"When a turbine rejects its load it speeds up towards its runaway speed while its gate "
                                f"closes, {where}: the closing time trades the pressure rise against the speed rise. The "
                                "speed rise is not modelled here (the turbine is taken as an orifice scaled by its gate): "
-                               "confirm the runaway speed, the governor and the closing law with the turbine's supplier.",
+                               "check the runaway speed against the turbine's and the generator's rating, and confirm "
+                               "the governor, the overspeed protection and the closing law with the turbine's supplier.",
                                None, None, None, "common practice"))
             break
     for name, m in s["machines"].items():

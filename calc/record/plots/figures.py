@@ -307,8 +307,8 @@ def curves_plot(analysis, system: str = "SI") -> Plot | None:
     systems = S.system_curves(analysis, Q)
     chart = head_flow_plot(systems, case_machine_curves(analysis, Q), u, axis, S.sign_of(line))
     pts = "; ".join(f"{m.label}: Q = {u.flow(m.Q)}" for s in systems for m in s.points) or "none"
-    caption = ("The system curve and each machine's curve; the line runs where they cross. Typed curve points are "
-               f"marked; a dashed curve is carried on past them. Operating points: {pts}.")
+    caption = ("The line runs where the system curve and the machines' curves cross; typed points are marked, a "
+               f"curve carried past them is dashed. Operating points: {pts}.")
     return _plot("curves", "Head against flow: system and machine curves", caption, chart)
 
 

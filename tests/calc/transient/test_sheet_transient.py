@@ -139,6 +139,19 @@ def test_the_findings_name_the_event_and_case_and_a_rating_exceeded_is_an_error(
     assert "method of characteristics" in general.message
 
 
+def test_a_load_rejection_run_replaces_the_general_runaway_caution_with_its_own():
+    # One caution on the turbine's speed for a case that ran its load rejection, saying what the general one
+    # said (check against the machines' ratings, the overspeed protection) and that the speed is not modelled.
+    with_run = analyse(_doc("hydro-penstock"))
+    codes = [f.code for f in with_run.findings]
+    assert "transient-runaway" in codes and "turbine-runaway" not in codes
+    text = next(f.message for f in with_run.findings if f.code == "transient-runaway")
+    assert "generator's rating" in text and "overspeed protection" in text and "not modelled" in text
+    doc = _doc("hydro-penstock")
+    doc["transient"]["events"] = []
+    assert "turbine-runaway" in [f.code for f in analyse(doc).findings]  # without the run, the general one
+
+
 def test_without_events_the_screening_stays():
     a = analyse(_doc("pumped-main"))
     assert not a.transients
