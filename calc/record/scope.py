@@ -42,7 +42,7 @@ def assumptions(c: Context) -> list[Assumption]:
         why = ("the basis of the Moody chart, for turbulent flow in commercial pipe, solved to machine precision "
                "rather than approximated")
     else:
-        why = (f"its explicit form chosen on the sheet (for comparison), departing slightly from Colebrook's "
+        why = ("its explicit form chosen on the sheet (for comparison), departing slightly from Colebrook's "
                "equation, the usual reference")
     liquid = c.liquid
     if liquid.source == "given by the user":
