@@ -185,9 +185,26 @@ def surge_screening(c: Context) -> Table | None:
 
 
 def findings_elsewhere(c: Context) -> list[str]:
-    """What information the findings do not repeat, because the working or results print it."""
+    """What the findings do not repeat, because the working or results print it, or a more specific finding
+    says it."""
     codes = {f.code for f in c.a.findings if f.severity == "info" and not (f.code in WORKED_ELSEWHERE_CASE_FREE and f.case)}
-    return list(dict.fromkeys(text for code, text in WORKED_ELSEWHERE.items() if code in codes))
+    out = list(dict.fromkeys(text for code, text in WORKED_ELSEWHERE.items() if code in codes))
+    if _said_per_run(c) and any(f.code == "surge-pump-trip" for f in c.a.findings):
+        out.append("the general caution on a pump trip's down-surge (the column-separation warnings say it run by run)")
+    return out
+
+
+def _said_per_run(c: Context) -> bool:
+    """Whether a pump trip's down-surge is a warning for some run (column separation), which says what the
+    general pump-trip caution says, for that run."""
+    from calc.model.settings import CheckSettings
+    from calc.review.surge import run_screening
+
+    parted = {f.element for f in c.a.findings if f.code == "surge-column-separation" and not f.case}
+    if not parted or c.design is None:
+        return False
+    rows = run_screening(c.line, c.design, c.a.check_settings or CheckSettings())
+    return any(r["index"] in parted and r["down_from"].startswith("a trip of") for r in rows)
 
 
 def findings(c: Context) -> dict[str, list[dict]]:
@@ -199,6 +216,8 @@ def findings(c: Context) -> dict[str, list[dict]]:
     for f in c.a.findings:
         d = f.to_dict() if hasattr(f, "to_dict") else dict(f)
         if d.get("code") == "general-codes":  # the record's disclaimer says it, once
+            continue
+        if d.get("code") == "surge-pump-trip" and _said_per_run(c):  # each run's warning says it, specifically
             continue
         if d.get("severity") == "info" and d.get("code") in WORKED_ELSEWHERE and not (
                 d.get("code") in WORKED_ELSEWHERE_CASE_FREE and d.get("case")):  # its figures are printed already
@@ -261,7 +280,7 @@ def uncertainty(c: Context) -> list[Table]:
             rows.append([str(name).replace("_", " ").capitalize(), shown(f.get("Q_low"), "flow", s),
                          shown(band.get("Q_nominal"), "flow", s), shown(f.get("Q_high"), "flow", s)])
     out = [Table(["Factor", "Lowest flow", "Nominal flow", "Highest flow"], rows,
-                 "Design flow over the range of the uncertain inputs (the range of the answer, above)",
+                 "Uncertainty band: the design flow over the range of the uncertain inputs (the range of the answer, above)",
                  ["l", "r", "r", "r"], css="band-factors")]
     notes = [n for n in band.get("notes") or [] if isinstance(n, str)]
     if notes:

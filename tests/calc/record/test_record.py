@@ -678,3 +678,25 @@ def test_three_k_nominal_size_is_worked_from_the_schedule_40_bores(hydro):
         assert s.value == pytest.approx(n0 + (n1 - n0) * (D - d0) / (d1 - d0), rel=1e-3)
         assert calculator(s.substituted) == pytest.approx(s.value, rel=1e-3)
         assert f"NPS {n0:g}" in s.also and f"NPS {n1:g}" in s.also
+
+
+def test_what_the_record_says_once_is_named_where_it_is_not_repeated(pumped):
+    # The pumped main's trip parts the column in two runs: their warnings say what the general pump-trip
+    # caution says, run by run, so the record lists the warnings and names the caution it leaves out; its
+    # surge screening is one table, each run's screening and rating information not repeated as paragraphs.
+    rec = record.build(pumped)
+    listed = {x["title"] for xs in rec.findings.values() for x in xs}
+    codes = {f.code for f in pumped.findings}
+    assert {"surge-pump-trip", "surge-column-separation", "surge-screen"} <= codes
+    assert "Pump trip: down-surge" not in listed
+    assert sum("column separation likely" in t for t in listed) == 2
+    assert not any(t.endswith("surge screening") for t in listed)
+    assert any("pump trip" in t for t in rec.findings_elsewhere)
+    table = rec.surge_screen
+    assert [row[0] for row in table.rows] == ["Suction", "Pump discharge", "Rising main"]
+    from calc.record.text import shown
+    rows = {row[0]: row for row in table.rows}
+    rated = [f for f in pumped.findings if f.code in ("surge-rating", "surge-no-rating")]
+    assert len(rated) == 3
+    for f in rated:  # steady + rise, as the rating finding has it
+        assert rows[pumped.line.elements[f.element].label][4] == shown(f.value, "pressure", "SI")
