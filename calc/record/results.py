@@ -248,7 +248,23 @@ def findings(c: Context) -> dict[str, list[dict]]:
             "case": as_text(d.get("case")),
         })
     _merge_unrated(c, groups)
+    _merge_general(groups)
     return {sev: groups[sev] for sev in SEVERITIES if sev in groups}
+
+
+def _merge_general(groups: dict[str, list[dict]]) -> None:
+    """The cautions every line carries (ratings, anchorage, air valves, confined spaces, electrical safety) as one
+    paragraph at the end of the cautions, each with its source in place: read once, not as a list of their own."""
+    cautions = groups.get("caution", [])
+    general = [f for f in cautions if f["code"].startswith("general-") and f["code"] != "general-surge"]
+    if len(general) < 2:
+        return
+    words = " ".join(f"{f['title']}: {f['message']}" + (f" {f['ref']}" if f["ref"] else
+                                                         f" ({f['source']})" if f["source"] else "")
+                     for f in general)
+    groups["caution"] = [f for f in cautions if f not in general] + [
+        {**general[0], "title": "General cautions", "message": words, "ref": "", "source": "", "where": "",
+         "code": "general"}]
 
 
 def _merge_unrated(c: Context, groups: dict[str, list[dict]]) -> None:
