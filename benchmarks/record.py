@@ -10,8 +10,9 @@ for a PDF meets; it then also prints PDFs asked for back to back, where each wai
 last one left starting, and a repeat of the same PDF, which the recent-PDF cache answers.
 
 Prints wall-clock and CPU medians; the CPU time counts this process and the PDF worker processes that
-ended during the timing. On a shared machine the CPU time is the steadier figure. Target (issue 15):
-a cold PDF of each demo in at most 1.0 s.
+ended during the timing, which includes starting the next spare worker (about 1.3 s of CPU, off the
+request's path: the wall time is the figure a user waits). Target (issue 15): a cold PDF of each demo
+in at most 1.0 s, wall clock.
 """
 
 from __future__ import annotations
@@ -80,7 +81,7 @@ def main(repeats: int = 5) -> None:
             verdict = "within" if pdf_wall <= TARGET_PDF else "OVER"
             over += pdf_wall > TARGET_PDF
             print(f"  {s['title'][:40]!r:44s} HTML {html_wall * 1e3:6.0f} ms; PDF {pdf_wall * 1e3:6.0f} ms wall, "
-                  f"{pdf_cpu * 1e3:6.0f} ms CPU, {pages} pages, {len(pdf.content) / 1e3:.0f} kB -- {verdict} "
+                  f"{pdf_cpu * 1e3:6.0f} ms CPU with the next spare's start, {pages} pages, {len(pdf.content) / 1e3:.0f} kB -- {verdict} "
                   f"the {TARGET_PDF:g} s target")
         largest = max(sheets, key=lambda s: s["title"].startswith("Penstock"))
         url = f"/sheets/{largest['id']}/revisions/{largest['revision']}/record.pdf"
