@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import functools
+
 from calc import friction
 from calc.record.sources import DARCY_REF, GRAVITY_REF, References, method_citation
 from calc.record.text import shown
@@ -28,6 +30,17 @@ class Context:
                            if self.liquid.source != "given by the user" else "")
         self.ref_g = self.refs.cite(GRAVITY_REF, "gravity")
         self.design = self.sol.design
+
+    @functools.cached_property
+    def screening(self) -> list[dict]:
+        """Each run's surge screening at the design point (calc.review.surge.run_screening), worked once for
+        the record's screening table and the findings that refer to it; empty without a design point."""
+        from calc.model.settings import CheckSettings
+        from calc.review.surge import run_screening
+
+        if self.design is None:
+            return []
+        return run_screening(self.line, self.design, self.a.check_settings or CheckSettings())
 
     def fitting_ref(self, ft) -> tuple[str, str]:
         """References and row detail for a fitting: its table's source, or the method's author when typed."""

@@ -156,15 +156,13 @@ def surge_screening(c: Context) -> Table | None:
     """Each run's surge screening at the design point as one table (Joukowsky's rise reaching it and where
     from, its highest steady pressure, the two together against its rating), for a sheet whose base case is
     screened rather than run in time."""
-    from calc.model.settings import CheckSettings
     from calc.review.findings import RATING_NEAR
-    from calc.review.surge import run_screening
 
-    if c.design is None or not any(f.code == "surge-screen" and not f.case for f in c.a.findings):
+    if not _screened(c):
         return None
     s = c.system
     rows = []
-    for r in run_screening(c.line, c.design, c.a.check_settings or CheckSettings()):
+    for r in c.screening:
         if r["w"]["a"] is None:
             rise, frm = f"allowance {shown(r['surge'], 'pressure', s)}", "wave speed unknown"
         else:
@@ -194,17 +192,16 @@ def findings_elsewhere(c: Context) -> list[str]:
     return out
 
 
+def _screened(c: Context) -> bool:
+    """Whether the base case is screened for surge (not run in time), so that the record has a screening table."""
+    return c.design is not None and any(f.code == "surge-screen" and not f.case for f in c.a.findings)
+
+
 def _said_per_run(c: Context) -> bool:
     """Whether a pump trip's down-surge is a warning for some run (column separation), which says what the
     general pump-trip caution says, for that run."""
-    from calc.model.settings import CheckSettings
-    from calc.review.surge import run_screening
-
     parted = {f.element for f in c.a.findings if f.code == "surge-column-separation" and not f.case}
-    if not parted or c.design is None:
-        return False
-    rows = run_screening(c.line, c.design, c.a.check_settings or CheckSettings())
-    return any(r["index"] in parted and r["down_from"].startswith("a trip of") for r in rows)
+    return bool(parted) and any(r["index"] in parted and r["down_from"].startswith("a trip of") for r in c.screening)
 
 
 def findings(c: Context) -> dict[str, list[dict]]:
@@ -272,7 +269,7 @@ def _merge_unrated(c: Context, groups: dict[str, list[dict]]) -> None:
     with the surge, are in the screening table."""
     cautions = groups.get("caution", [])
     unrated = [f for f in cautions if f["code"] == "surge-no-rating" and not f.get("case")]
-    if len(unrated) < 2 or surge_screening(c) is None:
+    if len(unrated) < 2 or not _screened(c):
         return
     first = cautions.index(unrated[0])
     names = [f["title"].removesuffix(": no pressure rating given") for f in unrated]

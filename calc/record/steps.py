@@ -32,7 +32,7 @@ def steps(c: Context) -> list[StepGroup]:
         Step("μ", "dynamic viscosity", "μ", "", num(lq.mu), "Pa·s", lq.mu, c.ref_liquid),
         Step("ν", "kinematic viscosity", "ν = μ/ρ", f"= {sub(lq.mu)} / {sub(lq.rho)}", num(nu), "m²/s", nu),
         Step("g", "gravity", "g", "", "9.80665", "m/s²", G, g_ref),
-    ], row={"inputs": True})]
+    ])]
     p = c.design
     if p is None:
         return groups
@@ -100,13 +100,12 @@ def _surge_steps(c: Context, p: dict) -> StepGroup | None:
             notes.append(f"{name}: no wave speed: {w['missing']} not given.")
             continue
         a = w["a"]
-        if w["form"] == "typed":
+        form = "" if w["form"] == "typed" else _C1[(w["restraint"], w["form"] == "thick-wall")]
+        if not form:
             steps.append(Step("a", f"{name}: wave speed (typed for the run)", "a", "", num(a), "m/s", a))
         else:
-            thick = w["form"] == "thick-wall"
             eD = w["e"] / w["D"]
-            form = _C1[(w["restraint"], thick)]
-            if thick:
+            if w["form"] == "thick-wall":
                 subst = f"e/D = {sub(w['e'])} / {sub(w['D'])} = {sub(eD)}, ν = {sub(w['nu'])}"
             else:
                 subst = f"ν = {sub(w['nu'])} (D/e = {sub(w['D_over_e'])}: thin wall)"
@@ -117,7 +116,7 @@ def _surge_steps(c: Context, p: dict) -> StepGroup | None:
                               f"{sub(w['D'])} / ({sub(w['E'])} × {sub(w['e'])}))", num(a), "m/s", a, r_k))
         dH = a * abs(d["V"]) / G
         rows.append({"number": i + 1, "label": el.label, "w": w, "a": a, "V": abs(d["V"]), "dH": dH, "L": el.L,
-                     "c1_form": "" if w["form"] == "typed" else _C1[(w["restraint"], w["form"] == "thick-wall")]})
+                     "c1_form": form})
         steps.append(Step("ΔH", f"{name}: rise for a sudden stop of its flow (Joukowsky)", "ΔH = a V / g",
                           f"= {sub(a)} × {sub(abs(d['V']))} / 9.80665", num(dH), "m", dH, r_j))
         travel += el.L / a
@@ -268,7 +267,7 @@ def working(c: Context, groups: list[StepGroup]) -> list:
     out: list = []
     runs = [g for g in groups if g.kind == "pipe" and g.row]
     for g in groups:
-        if g.kind == "liquid" and g.row:  # ρ, μ and g are printed with the inputs: only ν is worked here
+        if g.kind == "liquid":  # ρ, μ and g are printed with the inputs: only ν is worked here
             out.append(StepGroup(g.title, g.kind, [s for s in g.steps if s.substituted], g.notes))
         elif g.kind == "surge" and g.row:
             out.append(_surge_table(c, g))
